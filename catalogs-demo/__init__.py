@@ -1,0 +1,1 @@
+"""The demo scenario's files, installed with the package as ``skyplan.demodata``."""

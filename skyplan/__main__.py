@@ -1,0 +1,5 @@
+"""Entry point for ``python -m skyplan``."""
+
+from skyplan.cli.app import main
+
+main()

@@ -1,0 +1,87 @@
+"""Errors that reach the user as one plain line, and the exit statuses they map to.
+
+Every problem with what the user gave us (a file, a command-line value, a site) is an
+:class:`InputError`.  It names the file, line and field where known so that the message
+alone is enough to fix the input.  The CLI turns it into one line on stderr and exit
+status 2; nothing else ever prints a traceback.
+"""
+
+from __future__ import annotations
+
+EXIT_OK = 0
+EXIT_FAILURE = 1  # an unexpected fault inside skyplan (a bug): still one line, no traceback
+EXIT_BAD_INPUT = 2  # bad input: file, option, site, catalogue row
+EXIT_NOTHING_OBSERVABLE = 3  # valid input, but no target can be observed tonight
+EXIT_OUTPUT = 4  # the output could not be written (permissions, full disk)
+EXIT_SELFCHECK = 5  # ``skyplan selfcheck`` found a check that failed
+
+
+class SkyplanError(Exception):
+    """Base class: carries an exit status and a one-line message."""
+
+    exit_status = EXIT_FAILURE
+
+    def one_line(self) -> str:
+        return " ".join(str(self).split())
+
+
+class InputError(SkyplanError):
+    """Bad input: names where it is (file, line, field) and what is wrong."""
+
+    exit_status = EXIT_BAD_INPUT
+
+    def __init__(
+        self,
+        message: str,
+        *,
+        file: str | None = None,
+        line: int | None = None,
+        field: str | None = None,
+    ) -> None:
+        self.message = message
+        self.file = file
+        self.line = line
+        self.field = field
+        super().__init__(self._compose())
+
+    def _compose(self) -> str:
+        where = []
+        if self.file is not None:
+            where.append(str(self.file) if self.line is None else f"{self.file}:{self.line}")
+        elif self.line is not None:
+            where.append(f"line {self.line}")
+        if self.field is not None:
+            where.append(f"field '{self.field}'")
+        prefix = ", ".join(where)
+        return f"{prefix}: {self.message}" if prefix else self.message
+
+
+class InputErrors(InputError):
+    """Several input problems at once (e.g. every bad row of a catalogue)."""
+
+    def __init__(self, problems: list[InputError], *, limit: int = 20) -> None:
+        self.problems = problems
+        shown = "; ".join(p.one_line() for p in problems[:limit])
+        more = f"; and {len(problems) - limit} more" if len(problems) > limit else ""
+        super().__init__(f"{len(problems)} problem(s): {shown}{more}")
+
+    def _compose(self) -> str:  # the message is already complete
+        return self.message
+
+
+class OutputError(SkyplanError):
+    """The result could not be written where asked."""
+
+    exit_status = EXIT_OUTPUT
+
+
+class DataError(SkyplanError):
+    """A bundled data file (ephemeris, IERS table, catalogue) is missing or corrupt."""
+
+    exit_status = EXIT_FAILURE
+
+
+class NothingObservable(SkyplanError):
+    """Valid input, but nothing can be observed: a distinct status for cron scripts."""
+
+    exit_status = EXIT_NOTHING_OBSERVABLE

@@ -1,0 +1,113 @@
+"""Targets from the command line: a catalogue file, a position, or names (the input edge)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from skyplan import notices
+from skyplan.errors import InputError
+
+BODY_NAMES = ("sun", "moon", "mercury", "venus", "mars", "jupiter", "saturn", "uranus",
+              "neptune", "pluto")
+
+
+def load_catalog(path: str | Path, *, skip_bad: bool = False):
+    """Read a catalogue, report skipped rows and duplicates, resolve name-only rows."""
+    from skyplan.catalog import read_catalog
+
+    p = Path(path)
+    read = read_catalog(p, skip_bad=skip_bad)
+    if read.skipped:
+        notices.add(f"{p}: skipped {len(read.skipped)} malformed row(s) "
+                    f"(first: {read.skipped[0].one_line()})")
+    if read.duplicates:
+        shown = ", ".join(read.duplicates[:5])
+        more = f" and {len(read.duplicates) - 5} more" if len(read.duplicates) > 5 else ""
+        notices.add(f"{p}: duplicate target names kept: {shown}{more}")
+    return read.catalog
+
+
+def positions_from_catalog(cat):
+    from skyplan.conversion import PositionList
+
+    n = len(cat)
+    return PositionList(
+        names=cat.name, lon_deg=cat.ra_deg, lat_deg=cat.dec_deg, pm_ra_masyr=cat.pm_ra_masyr,
+        pm_dec_masyr=cat.pm_dec_masyr, parallax_mas=cat.parallax_mas,
+        rv_kms=cat.radial_velocity_kms, epoch_jyear=cat.epoch_jyear,
+        identifiers=np.full(n, "", dtype=object),
+    )
+
+
+def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = False,
+                           demo: bool = False):
+    """A PositionList from ``convert``'s arguments."""
+    from skyplan import angles, scenario
+    from skyplan.conversion import PositionList
+
+    if not args:
+        if demo:
+            return positions_from_catalog(load_catalog(scenario.demo_path(scenario.DEMO_CATALOG)))
+        raise InputError("give a catalogue file, a position (two angles) or a target name",
+                         field="position")
+    if len(args) == 1 and Path(args[0]).is_file():
+        if frame != "icrs":
+            raise InputError("catalogue files hold ICRS positions; use --from icrs",
+                             field="--from")
+        return positions_from_catalog(load_catalog(args[0], skip_bad=skip_bad))
+    if len(args) == 2:
+        try:
+            if frame in ("icrs", "fk5", "apparent"):
+                lon, lat = angles.parse_ra_deg(args[0]), angles.parse_dec_deg(args[1])
+            else:
+                lon, lat = angles.parse_angle_deg(args[0]) % 360.0, angles.parse_angle_deg(args[1])
+                if not -90.0 <= lat <= 90.0:
+                    raise ValueError(f"latitude {lat:g} outside -90..90")
+        except ValueError as exc:
+            if _looks_numeric(args[0]) or _looks_numeric(args[1]):
+                raise InputError(str(exc), field="position") from None
+        else:
+            one = np.array
+            return PositionList(
+                names=one([f"{args[0]} {args[1]}"], dtype=object), lon_deg=one([lon]),
+                lat_deg=one([lat]), pm_ra_masyr=one([0.0]), pm_dec_masyr=one([0.0]),
+                parallax_mas=one([0.0]), rv_kms=one([0.0]), epoch_jyear=one([2000.0]),
+                identifiers=one([""], dtype=object),
+            )
+    if len(args) == 1 and (_looks_numeric(args[0]) or "/" in args[0] or "." in Path(args[0]).suffix):
+        raise InputError(f"{args[0]!r} is not a file that exists, nor a target name",
+                         field="position")
+    return positions_from_names(args, frame)
+
+
+def _looks_numeric(text: str) -> bool:
+    return bool(text) and (text[0].isdigit() or text[0] in "+-.")
+
+
+def positions_from_names(names: list[str], frame: str):
+    """Resolve target names offline (catalogue objects, bright stars)."""
+    from skyplan import names as resolver
+    from skyplan.conversion import PositionList
+
+    if frame != "icrs":
+        raise InputError("names give ICRS positions; use --from icrs", field="--from")
+    found = [resolver.resolve(n) for n in names]
+    bodies = [r.query for r in found if r.kind == "body"]
+    if bodies:
+        raise InputError(f"{bodies[0]!r} moves: convert takes fixed targets; use "
+                         "'skyplan windows' or 'skyplan find' for the Sun, Moon and planets",
+                         field="position")
+    arr = np.array
+    return PositionList(
+        names=arr([r.query for r in found], dtype=object),
+        lon_deg=arr([r.ra_deg for r in found], dtype=float),
+        lat_deg=arr([r.dec_deg for r in found], dtype=float),
+        pm_ra_masyr=arr([r.pm_ra_masyr for r in found], dtype=float),
+        pm_dec_masyr=arr([r.pm_dec_masyr for r in found], dtype=float),
+        parallax_mas=arr([r.parallax_mas for r in found], dtype=float),
+        rv_kms=arr([0.0 for _ in found]),
+        epoch_jyear=arr([r.epoch_jyear for r in found], dtype=float),
+        identifiers=arr([r.identifier for r in found], dtype=object),
+    )

@@ -1,0 +1,190 @@
+"""Time scales: UTC, TAI, TT, UT1, and Earth orientation from the bundled IERS table.
+
+Instants inside the engine are POSIX seconds of UTC (float64 arrays).  This module turns
+them into the two-part Julian dates that ERFA wants, in UTC, TT and UT1, and gives the
+polar motion.  Sources:
+
+* UT1−UTC and the pole coordinates: IERS Rapid Service/Prediction Centre,
+  ``finals2000A.all`` (Bulletin A series, IAU 2000A), as shipped by astropy-iers-data.
+* TAI−UTC: ERFA ``eraDat`` (IERS Bulletin C leap-second history).
+* TT = TAI + 32.184 s (IAU 1991 Resolution A4).
+* Earth rotation angle: ERFA ``eraEra00`` (IERS Conventions 2010, eq. 5.15);
+  Greenwich mean sidereal time ``eraGmst06`` and apparent ``eraGst06a``
+  (Capitaine, Wallace & Chapront 2003; IAU 2006/2000A).
+
+Beyond the end of the table, UT1−UTC is held at its last predicted value and the pole
+at its last value; a notice says so once, with its cost in accuracy.
+"""
+
+from __future__ import annotations
+
+import functools
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from skyplan import notices
+from skyplan.errors import DataError
+
+DAY_S = 86400.0
+UNIX_EPOCH_JD = 2440587.5  # JD of 1970-01-01T00:00:00 UTC
+TT_MINUS_TAI_S = 32.184
+ARCSEC_RAD = np.pi / (180.0 * 3600.0)
+
+
+@dataclass(frozen=True)
+class EarthOrientation:
+    """Daily UT1−UTC (s) and pole coordinates (arcsec) at 0h UTC of each MJD."""
+
+    mjd: np.ndarray
+    dut1_s: np.ndarray
+    xp_arcsec: np.ndarray
+    yp_arcsec: np.ndarray
+    last_observed_mjd: float  # last day of measured (not predicted) UT1
+    source: str
+
+    @property
+    def last_mjd(self) -> float:
+        return float(self.mjd[-1])
+
+
+def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
+    """Read the fixed-width columns of finals2000A.all (format: IERS ReadMe.finals2000A)."""
+    mjd, dut1, xp, yp, last_obs = [], [], [], [], np.nan
+    for line in raw.decode("ascii", errors="replace").splitlines():
+        ut1 = line[58:68].strip()
+        if not ut1:
+            continue  # days past the end of the predictions
+        mjd.append(float(line[7:15]))
+        dut1.append(float(ut1))
+        xp.append(float(line[18:27] or "nan"))
+        yp.append(float(line[37:46] or "nan"))
+        if line[57:58] == "I":
+            last_obs = mjd[-1]
+    if len(mjd) < 2:
+        raise ValueError("no UT1−UTC values found")
+    mjd_a = np.array(mjd)
+    if np.any(np.diff(mjd_a) <= 0):
+        raise ValueError("dates are not increasing")
+    return EarthOrientation(mjd_a, np.array(dut1), np.array(xp), np.array(yp), last_obs, source)
+
+
+@functools.cache
+def earth_orientation() -> EarthOrientation:
+    """The bundled IERS table, parsed once per process."""
+    from skyplan.ephemeris import iers_finals_path
+
+    path = iers_finals_path()
+    try:
+        return _parse_finals(path.read_bytes(), str(path))
+    except (OSError, ValueError) as exc:
+        raise DataError(f"the bundled IERS table {path} could not be read ({exc})") from None
+
+
+def unix_to_mjd(unix: np.ndarray) -> np.ndarray:
+    return np.asarray(unix, dtype=float) / DAY_S + 40587.0
+
+
+def _interp_eop(unix: np.ndarray, values: np.ndarray) -> np.ndarray:
+    eo = earth_orientation()
+    mjd = unix_to_mjd(unix)
+    out = np.interp(mjd, eo.mjd, values)
+    if np.any(mjd > eo.last_mjd + 1):
+        last = _mjd_to_date(eo.last_mjd)
+        notices.add(
+            f"Earth orientation beyond the bundled IERS table (it ends {last}): UT1−UTC held at its "
+            "last predicted value; times of events may be off by up to about 1 s and positions by "
+            "up to about 15″ in hour angle."
+        )
+    if np.any(mjd < eo.mjd[0]):
+        notices.add(
+            f"Earth orientation before the bundled IERS table (it starts {_mjd_to_date(eo.mjd[0])}): "
+            "UT1−UTC held at its first value; event times may be off by up to about 1 s."
+        )
+    return out
+
+
+def _mjd_to_date(mjd: float) -> str:
+    import datetime as dt
+
+    return (dt.date(1858, 11, 17) + dt.timedelta(days=int(mjd))).isoformat()
+
+
+def dut1_s(unix: np.ndarray) -> np.ndarray:
+    """UT1−UTC in seconds (linear interpolation in the daily IERS table).
+
+    Across a leap second the tabulated UT1−UTC jumps by 1 s; interpolating through the jump
+    smears it over that one day (an error of at most 1 s of UT1 on a leap-second day,
+    documented in the accuracy budget).
+    """
+    eo = earth_orientation()
+    return _interp_eop(unix, eo.dut1_s)
+
+
+def polar_motion_rad(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Pole coordinates x_p, y_p in radians."""
+    eo = earth_orientation()
+    return _interp_eop(unix, eo.xp_arcsec) * ARCSEC_RAD, _interp_eop(
+        unix, eo.yp_arcsec
+    ) * ARCSEC_RAD
+
+
+def tai_minus_utc_s(unix: np.ndarray) -> np.ndarray:
+    """TAI−UTC (leap seconds) from ERFA's table (eraDat)."""
+    import erfa
+
+    unix = np.asarray(unix, dtype=float)
+    days = np.floor(unix / DAY_S)
+    dates = (days.astype("int64") * 86400).astype("datetime64[s]").astype("datetime64[D]")
+    years = dates.astype("datetime64[Y]").astype(int) + 1970
+    months = dates.astype("datetime64[M]").astype(int) % 12 + 1
+    mdays = (dates - dates.astype("datetime64[M]")).astype(int) + 1
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # "dubious year": ERFA cannot know future leap seconds
+        out = erfa.dat(years, months, mdays, (unix - days * DAY_S) / DAY_S)
+    return np.asarray(out, dtype=float)
+
+
+def jd_utc(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two-part Julian date in UTC (quasi-JD as ERFA expects; POSIX seconds have no 23:59:60)."""
+    unix = np.asarray(unix, dtype=float)
+    days = np.floor(unix / DAY_S)
+    return days + UNIX_EPOCH_JD, (unix - days * DAY_S) / DAY_S
+
+
+def jd_tt(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two-part Julian date in TT."""
+    unix = np.asarray(unix, dtype=float)
+    shifted = unix + tai_minus_utc_s(unix) + TT_MINUS_TAI_S
+    days = np.floor(shifted / DAY_S)
+    return days + UNIX_EPOCH_JD, (shifted - days * DAY_S) / DAY_S
+
+
+def jd_ut1(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two-part Julian date in UT1."""
+    unix = np.asarray(unix, dtype=float)
+    shifted = unix + dut1_s(unix)
+    days = np.floor(shifted / DAY_S)
+    return days + UNIX_EPOCH_JD, (shifted - days * DAY_S) / DAY_S
+
+
+def era_rad(unix: np.ndarray) -> np.ndarray:
+    """Earth rotation angle (IERS Conventions 2010, eq. 5.15; ERFA eraEra00)."""
+    import erfa
+
+    return np.asarray(erfa.era00(*jd_ut1(unix)), dtype=float)
+
+
+def gmst_rad(unix: np.ndarray) -> np.ndarray:
+    """Greenwich mean sidereal time, IAU 2006 (Capitaine et al. 2003; ERFA eraGmst06)."""
+    import erfa
+
+    return np.asarray(erfa.gmst06(*jd_ut1(unix), *jd_tt(unix)), dtype=float)
+
+
+def gast_rad(unix: np.ndarray) -> np.ndarray:
+    """Greenwich apparent sidereal time, IAU 2006/2000A (ERFA eraGst06a)."""
+    import erfa
+
+    return np.asarray(erfa.gst06a(*jd_ut1(unix), *jd_tt(unix)), dtype=float)
