@@ -111,3 +111,48 @@ def positions_from_names(names: list[str], frame: str):
         epoch_jyear=arr([r.epoch_jyear for r in found], dtype=float),
         identifiers=arr([r.identifier for r in found], dtype=object),
     )
+
+
+def target_set(cat, *, orbits=(), source: str | None = None):
+    """The windows engine's TargetSet from a catalogue: name-only rows resolved offline.
+
+    Rows with coordinates are used as given.  Rows with a name only are looked up (catalogue
+    objects, Hipparcos stars, proper names, the Sun/Moon/planets, orbits from an elements
+    file); every name that does not resolve is reported with its line, and the run stops.
+    Returns (TargetSet, identifiers) where identifiers holds the catalogue identifier of each
+    resolved row ("" for rows given with coordinates).
+    """
+    from skyplan.errors import InputErrors
+    from skyplan.windows import TargetSet
+
+    n = len(cat)
+    ra, dec = cat.ra_deg.copy(), cat.dec_deg.copy()
+    pmra, pmdec = cat.pm_ra_masyr.copy(), cat.pm_dec_masyr.copy()
+    plx, rv, ep = cat.parallax_mas.copy(), cat.radial_velocity_kms.copy(), cat.epoch_jyear.copy()
+    body = np.full(n, "", dtype=object)
+    ident = np.full(n, "", dtype=object)
+    look = np.nonzero(cat.needs_lookup)[0]
+    if len(look):
+        from skyplan import names as resolver
+
+        col, errs = resolver.resolve_many([str(x) for x in cat.name[look]], orbits=orbits)
+        if errs:
+            problems = [InputError(e.message, file=source or cat.source,
+                                   line=int(cat.line[look[i]]), field="name")
+                        for i, e in sorted(errs.items())]
+            raise InputErrors(problems) if len(problems) > 1 else problems[0]
+        fixed = (col.kind == "star") | (col.kind == "deep_sky")
+        rows = look[fixed]
+        ra[rows], dec[rows] = col.ra_deg[fixed], col.dec_deg[fixed]
+        pmra[rows] = np.nan_to_num(col.pm_ra_masyr[fixed])
+        pmdec[rows] = np.nan_to_num(col.pm_dec_masyr[fixed])
+        plx[rows] = np.nan_to_num(col.parallax_mas[fixed])
+        rv[rows] = np.nan_to_num(col.radial_velocity_kms[fixed])
+        ep[rows] = np.where(np.isfinite(col.epoch_jyear[fixed]), col.epoch_jyear[fixed], 2000.0)
+        moving = ~fixed
+        body[look[moving]] = np.array(
+            [("orbit:" if k == "orbit" else "") + resolver.normalise(q).lower()
+             if k == "orbit" else str(q).strip().lower()
+             for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
+        ident[look] = col.identifier
+    return TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body), ident

@@ -111,15 +111,24 @@ def _mjd_to_date(mjd: float) -> str:
     return (dt.date(1858, 11, 17) + dt.timedelta(days=int(mjd))).isoformat()
 
 
+@functools.cache
+def _ut1_minus_tai_nodes() -> np.ndarray:
+    """UT1−TAI (s) at the table's dates: continuous across leap seconds."""
+    eo = earth_orientation()
+    return eo.dut1_s - tai_minus_utc_s((eo.mjd - 40587.0) * DAY_S)
+
+
 def dut1_s(unix: np.ndarray) -> np.ndarray:
     """UT1−UTC in seconds (linear interpolation in the daily IERS table).
 
-    Across a leap second the tabulated UT1−UTC jumps by 1 s; interpolating through the jump
-    smears it over that one day (an error of at most 1 s of UT1 on a leap-second day,
-    documented in the accuracy budget).
+    The tabulated UT1−UTC jumps by 1 s at each leap second, so the interpolation runs over
+    the continuous UT1−TAI and adds back TAI−UTC of the instant.  Before the table starts,
+    UT1−UTC is held at its first value.
     """
+    unix = np.asarray(unix, dtype=float)
     eo = earth_orientation()
-    return _interp_eop(unix, eo.dut1_s)
+    out = _interp_eop(unix, _ut1_minus_tai_nodes()) + tai_minus_utc_s(unix)
+    return np.where(unix_to_mjd(unix) < eo.mjd[0], eo.dut1_s[0], out)
 
 
 def polar_motion_rad(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -147,10 +156,20 @@ def tai_minus_utc_s(unix: np.ndarray) -> np.ndarray:
 
 
 def jd_utc(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Two-part Julian date in UTC (quasi-JD as ERFA expects; POSIX seconds have no 23:59:60)."""
+    """Two-part Julian date in UTC (quasi-JD as ERFA expects; POSIX seconds have no 23:59:60).
+
+    In ERFA's quasi-JD a day that ends with a leap second is 86401 s long (``eraUtctai``),
+    so the fraction of such a day is the POSIX second of the day over 86401.
+    """
     unix = np.asarray(unix, dtype=float)
     days = np.floor(unix / DAY_S)
-    return days + UNIX_EPOCH_JD, (unix - days * DAY_S) / DAY_S
+    start = days * DAY_S
+    leap = (
+        tai_minus_utc_s(start + DAY_S)
+        - 2.0 * tai_minus_utc_s(start + DAY_S / 2)
+        + tai_minus_utc_s(start)
+    )
+    return days + UNIX_EPOCH_JD, (unix - start) / (DAY_S + leap)
 
 
 def jd_tt(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -1,3 +1,3 @@
 """Imports every command module so that each registers its commands on the app."""
 
-from skyplan.cli import basic  # noqa: F401
+from skyplan.cli import basic, sky  # noqa: F401

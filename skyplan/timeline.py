@@ -1,0 +1,44 @@
+"""The per-target strip across the night: which stretches are usable, blocked, down or light.
+
+Pure classification of intervals already computed by :mod:`skyplan.windows` into equal
+time bins; renderers map the codes to characters and colours.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from skyplan.intervals import Intervals
+
+LIGHT, DOWN, BLOCKED, USABLE = 0, 1, 2, 3
+
+
+def _covered(iv: Intervals, rows: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """Boolean (n_rows, n_times): is time t (sorted) inside an interval of the row?"""
+    slot = np.full(int(max(rows.max(initial=-1), iv.rows.max(initial=-1))) + 1, -1)
+    slot[rows] = np.arange(len(rows))
+    keep = slot[iv.rows] >= 0 if len(iv) else np.zeros(0, bool)
+    r = slot[iv.rows[keep]]
+    i0 = np.searchsorted(t, iv.start[keep], side="left")
+    i1 = np.searchsorted(t, iv.end[keep], side="left")
+    diff = np.zeros((len(rows), len(t) + 1), dtype=np.int32)
+    np.add.at(diff, (r, i0), 1)
+    np.add.at(diff, (r, i1), -1)
+    return np.cumsum(diff, axis=1)[:, :-1] > 0
+
+
+def timeline_codes(result, rows: np.ndarray, n_bins: int = 48):
+    """Bin edges (POSIX s) and a code per (row, bin) at the bin's middle."""
+    start, end = result.span
+    if end <= start:
+        start, end = result.night.span_start, result.night.span_end
+    edges = np.linspace(start, end, n_bins + 1)
+    mid = 0.5 * (edges[1:] + edges[:-1])
+    dark = np.zeros(len(mid), bool)
+    for a, b in result.dark:
+        dark |= (mid >= a) & (mid < b)
+    codes = np.full((len(rows), len(mid)), DOWN, dtype=np.uint8)
+    codes[_covered(result.up, rows, mid)] = BLOCKED
+    codes[_covered(result.windows, rows, mid)] = USABLE
+    codes[:, ~dark] = LIGHT
+    return edges, codes
