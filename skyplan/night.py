@@ -24,8 +24,11 @@ from skyplan.timeinput import local_noon_unix
 SUNSET_ALT_DEG = -50.0 / 60.0
 REFRACTION_HORIZON_DEG = -34.0 / 60.0
 TWILIGHTS = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
-GRID_STEP_S = 600.0  # the Sun's altitude turns over far more slowly than this
-EVENT_TOL_S = 0.25
+# The Sun and the Moon are sampled every 2 minutes with skyfield; events are found on
+# that track by linear interpolation: the altitude's curvature (at most ~ω² with ω the Earth's
+# rotation rate) makes the interpolation error below 2″, i.e. below 0.2 s in event times.
+GRID_STEP_S = 120.0
+EVENT_TOL_S = 0.1
 
 
 @dataclass(frozen=True)
@@ -41,6 +44,8 @@ class SkyTrack:
     moon_az_deg: np.ndarray
     moon_ra_deg: np.ndarray
     moon_dec_deg: np.ndarray
+    moon_distance_km: np.ndarray
+    moon_last_deg: np.ndarray  # local apparent sidereal time, for the Moon's hour angle
 
 
 @dataclass(frozen=True)
@@ -83,36 +88,26 @@ class Night:
         return sum(b - a for a, b in self.dark_interval(TWILIGHTS["astronomical"])) / 3600.0
 
 
-def _sun_margin(site, thresholds):
+def _sun_margin(track: SkyTrack, thresholds):
     def f(rows, t):
-        alt = bodies.topocentric("sun", site.lat_deg, site.lon_deg, site.elevation_m, t)["alt_deg"]
-        return alt - thresholds[rows]
+        return np.interp(t, track.t, track.sun_alt_deg) - thresholds[rows]
     return f
 
 
-def sun_crossings(site, thresholds: np.ndarray, t_grid: np.ndarray) -> events.Crossings:
-    return events.find_crossings(_sun_margin(site, thresholds), np.arange(len(thresholds)),
-                                 t_grid, tol_s=EVENT_TOL_S)
+def sun_crossings(track: SkyTrack, thresholds: np.ndarray) -> events.Crossings:
+    return events.find_crossings(_sun_margin(track, thresholds), np.arange(len(thresholds)),
+                                 track.t, tol_s=EVENT_TOL_S)
 
 
 def _below(night: Night, sun_alt_deg: float) -> list[tuple[float, float]]:
-    site = _SiteLike(night.lat_deg, night.lon_deg, night.elevation_m)
-    f = _sun_margin(site, np.array([sun_alt_deg]))
+    f = _sun_margin(night.track, np.array([sun_alt_deg]))
 
     def g(rows, t):
         return -f(rows, t)
 
-    tg = night.track.t
-    c = events.find_crossings(g, np.array([0]), tg, tol_s=EVENT_TOL_S)
+    c = events.find_crossings(g, np.array([0]), night.track.t, tol_s=EVENT_TOL_S)
     iv = events.intervals_from_crossings(c, np.array([0]), night.span_start, night.span_end)
     return list(zip(iv[1].tolist(), iv[2].tolist()))
-
-
-@dataclass(frozen=True)
-class _SiteLike:
-    lat_deg: float
-    lon_deg: float
-    elevation_m: float
 
 
 def _first(c: events.Crossings, row: int, rising: bool) -> float | None:
@@ -130,11 +125,13 @@ def compute_night(site, date: dt.date) -> Night:
 
     sun = bodies.topocentric("sun", site.lat_deg, site.lon_deg, site.elevation_m, t_grid)
     moon = bodies.topocentric("moon", site.lat_deg, site.lon_deg, site.elevation_m, t_grid)
+    last = (np.degrees(timescales.gast_rad(t_grid)) + site.lon_deg) % 360.0
     track = SkyTrack(t_grid, sun["alt_deg"], sun["az_deg"], sun["ra_deg"], sun["dec_deg"],
-                     moon["alt_deg"], moon["az_deg"], moon["ra_deg"], moon["dec_deg"])
+                     moon["alt_deg"], moon["az_deg"], moon["ra_deg"], moon["dec_deg"],
+                     moon["distance_km"], last)
 
     thresholds = np.array([SUNSET_ALT_DEG, *TWILIGHTS.values()])
-    c = sun_crossings(site, thresholds, t_grid)
+    c = sun_crossings(track, thresholds)
     sunset, sunrise = _first(c, 0, False), _first(c, 0, True)
     dusk = {k: _first(c, i + 1, False) for i, k in enumerate(TWILIGHTS)}
     dawn = {k: _first(c, i + 1, True) for i, k in enumerate(TWILIGHTS)}
@@ -146,7 +143,7 @@ def compute_night(site, date: dt.date) -> Night:
     else:
         state = "normal"
 
-    moon_report = _moon(site, t_grid, moon, float(midnight.timestamp()))
+    moon_report = _moon(track, float(midnight.timestamp()))
     lst = {}
     for key, when in (("dusk", dusk["astronomical"] or dusk["nautical"] or sunset),
                       ("midnight", midnight.timestamp()),
@@ -158,29 +155,27 @@ def compute_night(site, date: dt.date) -> Night:
                  lst, track)
 
 
-def _moon(site, t_grid, moon_grid, midnight: float) -> MoonReport:
-    lat, lon, h = site.lat_deg, site.lon_deg, site.elevation_m
+def _moon(track: SkyTrack, midnight: float) -> MoonReport:
+    t_grid = track.t
+    sd_deg = np.degrees(np.arcsin(bodies.MOON_RADIUS_KM / track.moon_distance_km))
+    target = REFRACTION_HORIZON_DEG - sd_deg
 
     def horizon(rows, t):
-        m = bodies.topocentric("moon", lat, lon, h, t)
-        sd = np.degrees(np.arcsin(bodies.MOON_RADIUS_KM / m["distance_km"]))
-        return m["alt_deg"] - (REFRACTION_HORIZON_DEG - sd)
+        return np.interp(t, t_grid, track.moon_alt_deg - target)
 
     c = events.find_crossings(horizon, np.array([0]), t_grid, tol_s=EVENT_TOL_S)
     rise, set_ = _first(c, 0, True), _first(c, 0, False)
+    ha_deg = np.unwrap(np.radians(track.moon_last_deg - track.moon_ra_deg))
 
     def hour_angle(rows, t):
-        m = bodies.topocentric("moon", lat, lon, h, t)
-        last = np.degrees(timescales.gast_rad(t)) + lon
-        return (last - m["ra_deg"] + 180.0) % 360.0 - 180.0
+        ha = np.degrees(np.interp(t, t_grid, ha_deg))
+        return (ha + 180.0) % 360.0 - 180.0
 
     ct = events.find_crossings(hour_angle, np.array([0]), t_grid, tol_s=EVENT_TOL_S)
     ups = ct.t[ct.rising]
     transit = float(ups[0]) if len(ups) else None
-    transit_alt = None
-    if transit is not None:
-        transit_alt = float(bodies.topocentric("moon", lat, lon, h, np.array([transit]))
-                            ["alt_deg"][0])
+    transit_alt = None if transit is None else float(np.interp(transit, t_grid,
+                                                               track.moon_alt_deg))
     k, i = bodies.moon_illumination(np.array([midnight]))
     wax = bodies.moon_waxing(np.array([midnight]))
     return MoonReport(rise, set_, transit, transit_alt, float(k[0]), float(i[0]), bool(wax[0]))

@@ -149,7 +149,7 @@ def windows_cmd(
         if i:
             rec["identifier"] = i
     if fmt == "json":
-        common.emit(records.to_json(recs, clean=False), out)
+        common.emit(records.to_json(recs, clean=False, indent=len(recs) <= 2000), out)
     elif fmt == "ndjson":
         common.emit(records.to_ndjson(recs), out)
     else:

@@ -32,7 +32,11 @@ def _clean(value):
 
 
 def to_json(document, *, indent: bool = True, clean: bool = True) -> bytes:
-    """One JSON document (orjson: the standard library is too slow for 100,000 records)."""
+    """One JSON document (orjson: the standard library is too slow for 100,000 records).
+
+    With ``clean=False`` the document is written as it is; orjson writes NaN and
+    infinities as null, so the output is valid JSON either way.
+    """
     import orjson
 
     option = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS

@@ -22,18 +22,18 @@ def _iso_array(unix: np.ndarray) -> list:
     ok = np.isfinite(u)
     out = np.full(len(u), None, dtype=object)
     if ok.any():
-        s = np.round(u[ok]).astype("int64").astype("datetime64[s]").astype(str)
-        out[ok] = np.char.add(s, "Z")
+        stamps = np.round(u[ok]).astype("int64").astype("datetime64[s]")
+        out[ok] = np.char.add(np.datetime_as_string(stamps, unit="s"), "Z")
     return out.tolist()
 
 
 def _rounded(a: np.ndarray, places: int) -> list:
-    a = np.round(np.asarray(a, dtype=float), places)
-    return [None if not np.isfinite(v) else v for v in a.tolist()]
+    """Rounded floats; NaN and inf stay as they are and are written as JSON null (orjson)."""
+    return np.round(np.asarray(a, dtype=float), places).tolist()
 
 
 def window_records(res) -> list[dict]:
-    """One record per target, in the documented JSON layout."""
+    """One record per target, in the documented JSON layout (columns first, then rows)."""
     n = len(res.names)
     w = res.windows
     starts, ends = _iso_array(w.start), _iso_array(w.end)
@@ -41,32 +41,23 @@ def window_records(res) -> list[dict]:
     per_row: list[list] = [[] for _ in range(n)]
     for r, a, b, m in zip(w.rows.tolist(), starts, ends, mins):
         per_row[r].append({"start": a, "end": b, "minutes": m})
-    cols = {
-        "rise": _iso_array(res.rise), "transit": _iso_array(res.transit),
-        "set": _iso_array(res.set), "best_time": _iso_array(res.best_time),
-        "ra": _rounded(res.ra_deg, 7), "dec": _rounded(res.dec_deg, 7),
-        "talt": _rounded(res.transit_alt_deg, 3), "tx": _rounded(res.transit_airmass, 4),
-        "bx": _rounded(res.best_airmass, 4), "use": _rounded(res.usable_s / 60.0, 2),
-        "sund": _rounded(res.sun_distance_deg, 2), "moond": _rounded(res.moon_distance_deg, 2),
-    }
-    lost = {k: _rounded(v / 60.0, 2) for k, v in res.lost_s.items()}
-    status = _status(res)
-    names = res.names.tolist()
-    near = res.near_sun.tolist()
-    day = res.daylight_window.tolist()
-    out = []
-    for i in range(n):
-        out.append({
-            "name": names[i], "ra_deg": cols["ra"][i], "dec_deg": cols["dec"][i],
-            "rise": cols["rise"][i], "transit": cols["transit"][i], "set": cols["set"][i],
-            "transit_alt_deg": cols["talt"][i], "transit_airmass": cols["tx"][i],
-            "windows": per_row[i], "usable_minutes": cols["use"][i],
-            "best_time": cols["best_time"][i], "best_airmass": cols["bx"][i],
-            "status": status[i], "lost_minutes": {k: v[i] for k, v in lost.items()},
-            "near_sun": near[i], "daylight_window": day[i],
-            "sun_distance_deg": cols["sund"][i], "moon_distance_deg": cols["moond"][i],
-        })
-    return out
+    keys = list(res.lost_s)
+    lost_rows = [dict(zip(keys, vals)) for vals in zip(
+        *(_rounded(res.lost_s[k] / 60.0, 2) for k in keys))] if keys else [{}] * n
+    columns = zip(
+        res.names.tolist(), _rounded(res.ra_deg, 7), _rounded(res.dec_deg, 7),
+        _iso_array(res.rise), _iso_array(res.transit), _iso_array(res.set),
+        _rounded(res.transit_alt_deg, 3), _rounded(res.transit_airmass, 4), per_row,
+        _rounded(res.usable_s / 60.0, 2), _iso_array(res.best_time),
+        _rounded(res.best_airmass, 4), _status(res), lost_rows, res.near_sun.tolist(),
+        res.daylight_window.tolist(), _rounded(res.sun_distance_deg, 2),
+        _rounded(res.moon_distance_deg, 2),
+    )
+    names = ("name", "ra_deg", "dec_deg", "rise", "transit", "set", "transit_alt_deg",
+             "transit_airmass", "windows", "usable_minutes", "best_time", "best_airmass",
+             "status", "lost_minutes", "near_sun", "daylight_window", "sun_distance_deg",
+             "moon_distance_deg")
+    return [dict(zip(names, row)) for row in columns]
 
 
 def _status(res) -> list[str]:
