@@ -15,5 +15,8 @@ DEMO_CATALOG = "programme.csv"
 
 
 def demo_path(name: str) -> Path:
-    """Path of one file of the demo scenario."""
-    return Path(str(resources.files("skyplan.demodata") / name))
+    """Path of one file of the demo scenario (installed package data, or the source tree)."""
+    try:
+        return Path(str(resources.files("skyplan.demodata") / name))
+    except ModuleNotFoundError:  # running from a source checkout that shadows the install
+        return Path(__file__).resolve().parent.parent / "catalogs-demo" / name

@@ -35,7 +35,9 @@ from skyplan.intervals import Intervals, intersect
 from skyplan.limits import ORDER, Limits
 
 SIDEREAL_RATE = 2.0 * np.pi * 1.00273781191135448 / 86400.0  # ERA rate, rad/s (IERS 2010)
-RISE_SET_ALT_DEG = -34.0 / 60.0  # apparent horizon for stars: 34′ of refraction (common practice)
+# true (geometric) altitude of a star's centre at rising and setting: the apparent horizon
+# lowered by 34′ of refraction (Meeus 1998, ch. 15, h0 = −0°34′)
+RISE_SET_ALT_DEG = -34.0 / 60.0
 SAMPLE_STEP_S = 300.0
 TOL_S = 0.5
 
@@ -195,10 +197,14 @@ def _transit_times(sky: Sky, rows: np.ndarray) -> np.ndarray:
     return t0[:, None] + day * np.array([-1.0, 0.0, 1.0])[None, :]
 
 
-def _half_arc(sky: Sky, rows: np.ndarray, alt_true_deg: float) -> np.ndarray:
-    """Hour angle (radians) at which targets reach a true altitude; 0 never, π always above."""
-    phi = np.radians(sky.site.lat_deg)
-    dec = sky.dec[rows]
+def half_arc(lat_deg: float, dec_rad: np.ndarray, alt_true_deg: float) -> np.ndarray:
+    """Hour angle (radians) at which a star reaches a true altitude (Meeus 1998, eq. 15.1).
+
+    cos H₀ = (sin h − sin φ sin δ) / (cos φ cos δ).  Returns −1 where the star never gets
+    that high and π + 1 where it never gets that low.
+    """
+    phi = np.radians(lat_deg)
+    dec = np.asarray(dec_rad, dtype=float)
     num = np.sin(np.radians(alt_true_deg)) - np.sin(phi) * np.sin(dec)
     den = np.cos(phi) * np.cos(dec)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -206,6 +212,10 @@ def _half_arc(sky: Sky, rows: np.ndarray, alt_true_deg: float) -> np.ndarray:
     c = np.where(den == 0, np.where(num <= 0, -2.0, 2.0), c)
     h0 = np.arccos(np.clip(c, -1.0, 1.0))
     return np.where(c >= 1.0, -1.0, np.where(c <= -1.0, np.pi + 1.0, h0))
+
+
+def _half_arc(sky: Sky, rows: np.ndarray, alt_true_deg: float) -> np.ndarray:
+    return half_arc(sky.site.lat_deg, sky.dec[rows], alt_true_deg)
 
 
 def _ha_intervals(sky: Sky, rows: np.ndarray, lo_rad, hi_rad, span) -> Intervals:
@@ -404,9 +414,7 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
         trs = _transit_times(sky, fixed_rows)
         pick = np.argmin(np.abs(trs - night.local_midnight), axis=1)
         t_tr = trs[np.arange(len(fixed_rows)), pick]
-        h0 = _half_arc(sky, fixed_rows, float(refraction.unrefract_deg(
-            np.asarray(RISE_SET_ALT_DEG), model="bennett", pressure_hpa=1010.0,
-            temperature_c=10.0)))
+        h0 = _half_arc(sky, fixed_rows, RISE_SET_ALT_DEG)
         transit[fixed_rows] = t_tr
         ok = (h0 >= 0) & (h0 <= np.pi)
         rise[fixed_rows] = np.where(ok, t_tr - h0 / SIDEREAL_RATE, np.nan)
@@ -533,9 +541,10 @@ def _moving_events(sky: Sky, rows, rise, transit, set_, status) -> None:
     """Rise, transit and set of bodies from their sampled places."""
     span = (sky.night.span_start, sky.night.span_end)
 
-    def horizon_margin(r, t):
-        alt, _, _ = sky.horizon(r, t)
-        return alt - 0.0
+    def horizon_margin(r, t):  # true altitude against −34′, as for fixed targets
+        ra, dec = sky.radec(r, t)
+        alt, _, _ = frames.cirs_to_horizon(ra, dec, sky.era_local(t), sky.frame)
+        return np.degrees(alt) - RISE_SET_ALT_DEG
 
     c = events.find_crossings(horizon_margin, rows, sky.grid, tol_s=TOL_S)
     for row in rows:  # a handful of bodies at most

@@ -187,3 +187,22 @@ def sites_check(file: Path = typer.Argument(..., help="Sites file to check.")) -
             typer.echo(f"{problem.one_line()}", err=True)
         raise InputErrors(problems, limit=0) if len(problems) > 1 else problems[0]
     typer.echo(f"{file}: ok ({len(sites.load_sites(file))} site(s))")
+
+
+@app.command()
+def selfcheck(
+    fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
+) -> None:
+    """Check the installation offline against reference cases with known answers."""
+    from skyplan import selfcheck as checks
+    from skyplan.errors import EXIT_SELFCHECK
+    from skyplan.render import records, tables
+
+    fmt = common.check_format(fmt, ("table", "json"))
+    report = checks.run()
+    if fmt == "json":
+        common.emit(records.to_json(tables.selfcheck_record(report)), None)
+    else:
+        common.emit(tables.render_text(tables.selfcheck_table(report)), None)
+    if not report.ok:
+        raise typer.Exit(EXIT_SELFCHECK)

@@ -227,3 +227,31 @@ def sites_table(parsed):
                   s.zone, "profile" if s.horizon is not None else "flat",
                   "default" if parsed.default == name else "")
     return t
+
+
+# ---------------------------------------------------------------- selfcheck
+
+
+def selfcheck_record(report) -> dict:
+    return {
+        "ok": report.ok,
+        "ephemeris": report.ephemeris,
+        "ephemeris_span": list(report.ephemeris_span),
+        "iers_table_end": report.iers_table_end,
+        "iers_observed_end": report.iers_observed_end,
+        "checks": [{"name": c.name, "ok": c.ok, "expected": c.expected, "got": c.got,
+                    "source": c.source} for c in report.checks],
+    }
+
+
+def selfcheck_table(report):
+    verdict = "all checks pass" if report.ok else "SOME CHECKS FAIL"
+    caption = (f"{verdict}; ephemeris {report.ephemeris} covers {report.ephemeris_span[0]} to "
+               f"{report.ephemeris_span[1]}; IERS table: measured to "
+               f"{report.iers_observed_end}, predicted to {report.iers_table_end}")
+    t = _table("skyplan selfcheck", caption)
+    for col in ("", "check", "expected", "got", "source"):
+        t.add_column(col)
+    for c in report.checks:
+        t.add_row("pass" if c.ok else "FAIL", c.name, c.expected, c.got, c.source)
+    return t
