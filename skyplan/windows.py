@@ -88,6 +88,7 @@ class WindowResult:
     dark: list[tuple[float, float]]  # the sky dark enough by the darkness limit
     limits: Limits
     night: night_mod.Night
+    sky: Sky  # the positions behind the result, for planning and charts
 
 
 class Sky:
@@ -256,7 +257,7 @@ def _sampled(sky: Sky, rows: np.ndarray, margin, span, grid_margin=None) -> Inte
     return Intervals.build(r, s, e)
 
 
-def _distance_margin(sky: Sky, body_t, body_ra_deg, body_dec_deg, gap_deg: float):
+def distance_margin(sky: Sky, body_t, body_ra_deg, body_dec_deg, gap_deg: float):
     """Angular distance from a body sampled in time, minus the gap (degrees)."""
     vec = frames.unit_vectors(body_ra_deg, body_dec_deg)
 
@@ -460,7 +461,7 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
         best_time=best_t, best_alt_deg=best_alt, best_airmass=best_x, lost_s=lost,
         near_sun=near_sun, sun_distance_deg=sun_d, moon_distance_deg=moon_d,
         daylight_window=daylight, span=span, up=pieces["altitude"], dark=dark_list,
-        limits=limits, night=night,
+        limits=limits, night=night, sky=sky,
     )
 
 
@@ -494,18 +495,18 @@ def _gap_intervals(sky, rows, t, ra_deg, dec_deg, gap_deg, span, motion_deg) -> 
         u = frames.unit_vectors(np.degrees(sky.ra[r] - sky.eo), np.degrees(sky.dec[r]))
         return cos_gap - u @ v.T  # positive where farther than the gap
 
-    near = _sampled(sky, rows[close], _distance_margin(sky, t, ra_deg, dec_deg, gap_deg), span,
+    near = _sampled(sky, rows[close], distance_margin(sky, t, ra_deg, dec_deg, gap_deg), span,
                     grid_margin)
     return far.union_rows(near)
 
 
 def _distance_now(sky, rows, t, ra_deg, dec_deg) -> np.ndarray:
-    f = _distance_margin(sky, t, ra_deg, dec_deg, 0.0)
+    f = distance_margin(sky, t, ra_deg, dec_deg, 0.0)
     return f(rows, np.full(len(rows), sky.t_mid))
 
 
 def _min_distance(sky, rows, tr, span) -> np.ndarray:
-    f = _distance_margin(sky, tr.t, tr.sun_ra_deg, tr.sun_dec_deg, 0.0)
+    f = distance_margin(sky, tr.t, tr.sun_ra_deg, tr.sun_dec_deg, 0.0)
     times = (span[0], sky.t_mid, span[1]) if span[1] > span[0] else (sky.t_mid,)
     return np.min([f(rows, np.full(len(rows), tt)) for tt in times], axis=0)
 

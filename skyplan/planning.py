@@ -1,0 +1,174 @@
+"""From windows to a night plan: sample the targets on a slot grid, schedule, describe.
+
+The astronomy for a plan lives here (the scheduler in :mod:`skyplan.scheduling` sees only
+arrays): each schedulable target's altitude, azimuth and air mass on a uniform slot grid over
+the usable night, then, for every planned visit, its exact altitude at the start, middle and
+end of the exposure, azimuth, air mass, hour angle and distance from the Moon at the middle.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from skyplan import airmass as am
+from skyplan import events, scheduling
+from skyplan.errors import NothingObservable
+
+SLOT_STEP_S = 120.0
+
+
+@dataclass(frozen=True)
+class Overheads:
+    default_exposure_s: float = 300.0
+    setup_s: float = 60.0
+    repeats: int = 1
+    spacing_s: float = 0.0
+    slew_az_deg_s: float = 2.0
+    slew_alt_deg_s: float = 2.0
+    settle_s: float = 10.0
+
+
+@dataclass(frozen=True)
+class PlannedVisit:
+    seq: int
+    target: int
+    name: str
+    repeat: int
+    start: float
+    exposure_start: float
+    end: float
+    exposure_s: float
+    overhead_s: float  # slew + setup
+    slew_s: float
+    ra_date_deg: float
+    dec_date_deg: float
+    alt_start_deg: float
+    alt_mid_deg: float
+    alt_end_deg: float
+    az_mid_deg: float
+    airmass_mid: float
+    hour_angle_mid_h: float
+    moon_distance_deg: float
+    priority: int
+    best_airmass: float
+
+
+@dataclass(frozen=True)
+class NightPlan:
+    visits: list[PlannedVisit]
+    not_placed: list[tuple[int, str, str]]  # (target, reason code, explanation)
+    metrics: scheduling.PlanMetrics
+    overheads: Overheads
+    windows: object  # the WindowResult the plan was made from
+    priority: np.ndarray  # per target of the catalogue
+
+
+def _reason(res, i: int) -> tuple[str, str]:
+    """Why a target has no window tonight, from its status and lost minutes."""
+    if res.status[i] == "never_up":
+        return "never_up", "never rises above the horizon here"
+    if res.near_sun[i]:
+        return "near_sun", "too close to the Sun (safety)"
+    lost = {k: v[i] for k, v in res.lost_s.items() if k != "dark"}
+    key = max(lost, key=lambda k: lost[k]) if lost else "dark"
+    text = {
+        "altitude": "below the minimum altitude all night", "airmass": "air mass too high",
+        "horizon": "behind the horizon profile", "moon": "lost to the Moon",
+        "sun": "too close to the Sun", "hour_angle": "outside the mount's hour-angle range",
+        "dec": "outside the mount's declination range", "between": "outside the clock range",
+        "dark": "only up in twilight or daylight",
+    }[key]
+    return f"lost_to_{key}", text
+
+
+SCHEDULER_TEXT = {
+    "no_window": "no window tonight", "too_short": "windows shorter than one visit",
+    "no_room": "no room left in the night", "below_priority_cut": "below the priority cut",
+    "near_sun": "too close to the Sun (safety; use --allow-near-sun to override)",
+}
+
+
+def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads: Overheads,
+                    options: scheduling.PlanOptions, progress=None) -> NightPlan:
+    """Schedule the targets that have windows; explain every target left out."""
+    n = len(res.names)
+    has = np.zeros(n, bool)
+    has[np.unique(res.windows.rows)] = True
+    if not has.any():
+        raise NothingObservable("no target can be observed tonight within the limits")
+    idx = np.nonzero(has)[0]
+    start, end = float(res.windows.start.min()), float(res.windows.end.max())
+    slots = events.grid(start, end, SLOT_STEP_S)
+    sky = res.sky
+    rr = np.repeat(idx, len(slots))
+    tt = np.tile(slots, len(idx))
+    alt, az, _ = sky.horizon(rr, tt)
+    alt = alt.reshape(len(idx), len(slots))
+    az = az.reshape(len(idx), len(slots))
+    x = am.airmass(alt, res.limits.airmass_model)
+    remap = np.full(n, -1)
+    remap[idx] = np.arange(len(idx))
+    keep = has[res.windows.rows]
+    exp = np.where(np.isfinite(exposure_s[idx]), exposure_s[idx], overheads.default_exposure_s)
+    req = scheduling.PlanRequest(
+        slot_unix=slots, win_target=remap[res.windows.rows[keep]],
+        win_start_unix=res.windows.start[keep], win_end_unix=res.windows.end[keep],
+        exposure_s=exp, repeats=np.full(len(idx), overheads.repeats),
+        spacing_s=np.full(len(idx), overheads.spacing_s), priority=priority[idx],
+        best_airmass=res.best_airmass[idx],
+        sun_flag=res.near_sun[idx] | res.daylight_window[idx],
+        airmass=x, alt_deg=alt, az_deg=az, setup_s=overheads.setup_s,
+        slew=scheduling.SlewModel(overheads.slew_az_deg_s, overheads.slew_alt_deg_s,
+                                  overheads.settle_s),
+    )
+    plan = scheduling.make_plan(req, options)
+    visits = _describe(res, plan, idx, priority, exp, overheads)
+    missing = []
+    for i in np.nonzero(~has)[0]:
+        code, text = _reason(res, int(i))
+        missing.append((int(i), code, text))
+    for j, code in sorted(plan.not_placed.items()):
+        missing.append((int(idx[j]), code, SCHEDULER_TEXT.get(code, code)))
+    missing.sort(key=lambda m: (-int(priority[m[0]]), m[0]))
+    return NightPlan(visits, missing, plan.metrics, overheads, res, priority)
+
+
+def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
+    """Exact positions of every visit at the start, middle and end of its exposure."""
+    if not plan.visits:
+        return []
+    sky = res.sky
+    v = plan.visits
+    rows = idx[np.array([p.target for p in v])]
+    t0 = np.array([p.exposure_start_unix for p in v])
+    t1 = np.array([p.end_unix for p in v])
+    tm = 0.5 * (t0 + t1)
+    a0, _, _ = sky.horizon(rows, t0)
+    am_, azm, ham = sky.horizon(rows, tm)
+    a1, _, _ = sky.horizon(rows, t1)
+    xm = am.airmass(am_, res.limits.airmass_model)
+    tr = res.night.track
+    moon = _moon_distance(sky, rows, tm, tr)
+    out = []
+    for k, p in enumerate(v):
+        i = int(rows[k])
+        out.append(PlannedVisit(
+            seq=k + 1, target=i, name=str(res.names[i]), repeat=p.repeat, start=p.start_unix,
+            exposure_start=p.exposure_start_unix, end=p.end_unix,
+            exposure_s=float(exp[p.target]), overhead_s=p.slew_s + p.setup_s, slew_s=p.slew_s,
+            ra_date_deg=float(res.ra_date_deg[i]), dec_date_deg=float(res.dec_date_deg[i]),
+            alt_start_deg=float(a0[k]), alt_mid_deg=float(am_[k]), alt_end_deg=float(a1[k]),
+            az_mid_deg=float(azm[k]), airmass_mid=float(xm[k]),
+            hour_angle_mid_h=float(((np.degrees(ham[k]) + 180.0) % 360.0 - 180.0) / 15.0),
+            moon_distance_deg=float(moon[k]), priority=int(priority[i]),
+            best_airmass=float(res.best_airmass[i]),
+        ))
+    return out
+
+
+def _moon_distance(sky, rows, t, track) -> np.ndarray:
+    from skyplan.windows import distance_margin
+
+    return distance_margin(sky, track.t, track.moon_ra_deg, track.moon_dec_deg, 0.0)(rows, t)

@@ -1,0 +1,105 @@
+"""The night plan: a table for the person at the telescope, a JSON document for scripts."""
+
+from __future__ import annotations
+
+import datetime as dt
+from zoneinfo import ZoneInfo
+
+from skyplan import __version__
+from skyplan.render.tables import _table, site_record
+from skyplan.render.windowview import _hhmm
+from skyplan.timeinput import iso_utc
+
+SCHEMA = "skyplan.plan/1"
+SAFETY = ("Advice only: the telescope's own limits, interlocks and the site's rules come first. "
+          "Never point unfiltered optics at or near the Sun.")
+
+
+def visit_record(v) -> dict:
+    return {
+        "seq": v.seq, "name": v.name, "repeat": v.repeat,
+        "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
+        "end": iso_utc(v.end), "exposure_s": round(v.exposure_s, 3),
+        "overhead_s": round(v.overhead_s, 3), "slew_s": round(v.slew_s, 3),
+        "ra_deg": round(v.ra_date_deg, 6), "dec_deg": round(v.dec_date_deg, 6),
+        "alt_start_deg": round(v.alt_start_deg, 3), "alt_mid_deg": round(v.alt_mid_deg, 3),
+        "alt_end_deg": round(v.alt_end_deg, 3), "az_mid_deg": round(v.az_mid_deg, 3),
+        "airmass_mid": round(v.airmass_mid, 4), "hour_angle_mid_h": round(v.hour_angle_mid_h, 4),
+        "moon_distance_deg": round(v.moon_distance_deg, 2), "priority": v.priority,
+        "best_airmass": round(v.best_airmass, 4),
+    }
+
+
+def plan_document(p, site, generated_at: float) -> dict:
+    from skyplan.render.nightview import night_record
+
+    res = p.windows
+    m = p.metrics
+    n = night_record(res.night, site)
+    return {
+        "schema": SCHEMA,
+        "site": site_record(site, brief=True),
+        "night": {k: n[k] for k in ("date", "sun_state", "sunset", "sunrise", "dusk", "dawn",
+                                    "dark_hours", "local_midnight")},
+        "moon": {k: v for k, v in n["moon"].items() if k != "altitude"},
+        "limits": res.limits.as_record(),
+        "overheads": {
+            "default_exposure_s": p.overheads.default_exposure_s,
+            "setup_s": p.overheads.setup_s, "repeats": p.overheads.repeats,
+            "spacing_s": p.overheads.spacing_s,
+            "slew_az_deg_s": p.overheads.slew_az_deg_s,
+            "slew_alt_deg_s": p.overheads.slew_alt_deg_s, "settle_s": p.overheads.settle_s,
+        },
+        "observations": [visit_record(v) for v in p.visits],
+        "not_placed": [{"name": str(res.names[i]), "reason": code, "explanation": text}
+                       for i, code, text in p.not_placed],
+        "metrics": {
+            "placed": m.placed, "possible": m.possible, "targets": len(res.names),
+            "airmass_excess": None if m.airmass_excess != m.airmass_excess else round(
+                m.airmass_excess, 5),
+            "idle_minutes": round(m.idle_minutes, 2), "objective": round(m.objective, 6),
+            "gap": m.gap, "proven_optimal": m.proven_optimal, "method": m.method,
+        },
+        "safety": SAFETY,
+        "software": {"name": "skyplan", "version": __version__},
+        "generated_at": iso_utc(generated_at),
+    }
+
+
+def plan_table(p, site):
+    res = p.windows
+    zone = ZoneInfo(res.night.zone)
+    m = p.metrics
+    excess = "—" if m.airmass_excess != m.airmass_excess else f"{100 * m.airmass_excess:.1f}%"
+    gap = "" if m.gap is None else f", gap {100 * m.gap:.2f}%"
+    caption = (f"placed {m.placed} of {m.possible} possible targets; airmass excess {excess}; "
+               f"idle {m.idle_minutes:.0f} min; method {m.method}{gap}\n{SAFETY}")
+    t = _table(f"Plan for the night of {res.night.date.isoformat()} at {site.name} "
+               f"(times {res.night.zone}, UTC in brackets)", caption)
+    for col, just in (("#", "right"), ("start", "left"), ("target", "left"), ("exp", "right"),
+                      ("alt start/mid/end", "right"), ("az", "right"), ("airmass", "right"),
+                      ("HA", "right"), ("Moon", "right"), ("notes", "left")):
+        t.add_column(col, justify=just)
+    for v in p.visits:
+        utc = dt.datetime.fromtimestamp(v.exposure_start, dt.UTC)
+        start = f"{_hhmm(v.exposure_start, zone)} ({utc:%H:%M})"
+        notes = []
+        if v.repeat > 1:
+            notes.append(f"repeat {v.repeat}")
+        if v.airmass_mid > v.best_airmass * 1.05:
+            notes.append(f"best {v.best_airmass:.2f}")
+        t.add_row(str(v.seq), start, v.name, f"{v.exposure_s / 60:.0f}m",
+                  f"{v.alt_start_deg:.0f}/{v.alt_mid_deg:.0f}/{v.alt_end_deg:.0f}°",
+                  f"{v.az_mid_deg:.0f}°", f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
+                  f"{v.moon_distance_deg:.0f}°", ", ".join(notes))
+    return t
+
+
+def not_placed_table(p):
+    res = p.windows
+    t = _table("Not placed, most important first")
+    for col in ("target", "priority", "reason"):
+        t.add_column(col)
+    for i, _code, text in p.not_placed:
+        t.add_row(str(res.names[i]), str(int(p.priority[i])), text)
+    return t
