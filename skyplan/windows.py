@@ -113,10 +113,14 @@ class Sky:
                 targets.ra_deg[fixed], targets.dec_deg[fixed], targets.pm_ra_masyr[fixed],
                 targets.pm_dec_masyr[fixed], targets.parallax_mas[fixed], targets.rv_kms[fixed],
                 targets.epoch_jyear[fixed])
-            ri, di, self.eo = frames.cirs_place(stars, t_mid)
+            # the site's (topocentric) astrom: its aberration uses the observer's velocity, so
+            # the diurnal part is in the place (the frame's ``diurab`` is 0, as in eraApco)
+            import erfa
+
+            ri, di = erfa.atciq(stars.ra_rad, stars.dec_rad, stars.pmr_radyr, stars.pmd_radyr,
+                                stars.px_arcsec, stars.rv_kms, self.frame.astrom)
             self.ra[fixed], self.dec[fixed] = ri, di
-        else:
-            self.eo = frames.cirs_place(frames.Stars.from_catalogue(0.0, 0.0), t_mid)[2]
+        self.eo = self.frame.eo
         # moving bodies: topocentric apparent places on the sampling grid, CIO based
         self.grid = events.grid(night.span_start, night.span_end, SAMPLE_STEP_S)
         self.moving_rows = np.nonzero(self.moving)[0]

@@ -21,7 +21,7 @@ def render_text(renderable) -> str:
     from rich.console import Console
 
     buf = io.StringIO()
-    Console(file=buf, width=160, no_color=True, force_terminal=False, highlight=False,
+    Console(file=buf, width=200, no_color=True, force_terminal=False, highlight=False,
             color_system=None).print(renderable)
     return buf.getvalue()
 

@@ -110,14 +110,16 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
     if lim.dec_range_deg:
         bits.append(f"Dec {lim.dec_range_deg[0]:+g}..{lim.dec_range_deg[1]:+g}°")
     caption = "limits: " + ", ".join(bits) + f"; times {res.night.zone}"
+    if "dark" in res.lost_s and len(res.names):
+        caption += (f"; twilight takes {float(np.max(res.lost_s['dark'])) / 60:.0f} min of the "
+                    "night from every target")
     if codes is not None:
         caption += f"\n{TIMELINE_KEY}; strip {_hhmm(edges[0], zone)}–{_hhmm(edges[-1], zone)}"
     t = _table(f"Windows, night of {res.night.date.isoformat()} at {site.name}", caption)
     for col, just in (("target", "left"), ("status", "left"), ("rise", "right"),
-                      ("transit (alt)", "right"), ("set", "right"), ("windows", "left"),
-                      ("usable", "right"), ("best (airmass)", "right"),
-                      ("lost to", "left")):
-        t.add_column(col, justify=just)
+                      ("transit", "right"), ("set", "right"), ("windows", "left"),
+                      ("usable", "right"), ("best", "right"), ("lost to", "left")):
+        t.add_column(col, justify=just, no_wrap=col in ("windows", "transit", "best"))
     if codes is not None:
         t.add_column("timeline", no_wrap=True)
     status = _status(res)
@@ -127,9 +129,9 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
         sel = w.rows == i
         wins = ", ".join(f"{_hhmm(a, zone)}–{_hhmm(b, zone)}"
                          for a, b in zip(w.start[sel], w.end[sel])) or "—"
-        lost = sorted(((v[i] / 60.0, key) for key, v in res.lost_s.items() if v[i] >= 30.0),
-                      reverse=True)
-        lost_txt = ", ".join(f"{key} {m:.0f}m" for m, key in lost[:3])
+        lost = sorted(((v[i] / 60.0, key) for key, v in res.lost_s.items()
+                       if key != "dark" and v[i] >= 30.0), reverse=True)
+        lost_txt = ", ".join(f"{key.replace('_', ' ')} {m:.0f}m" for m, key in lost[:2])
         flags = []
         if res.near_sun[i]:
             flags.append("NEAR SUN")
@@ -137,11 +139,11 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
             flags.append("DAYLIGHT")
         st = status[i].replace("_", " ") + (" " + " ".join(flags) if flags else "")
         best = "—" if not np.isfinite(res.best_time[i]) else \
-            f"{_hhmm(res.best_time[i], zone)} ({res.best_airmass[i]:.2f})"
+            f"{_hhmm(res.best_time[i], zone)} X{res.best_airmass[i]:.2f}"
         tr = "—" if not np.isfinite(res.transit[i]) else \
-            f"{_hhmm(res.transit[i], zone)} ({res.transit_alt_deg[i]:+.0f}°)"
+            f"{_hhmm(res.transit[i], zone)} {res.transit_alt_deg[i]:+.0f}°"
         row = [str(res.names[i]), st, _hhmm(res.rise[i], zone), tr, _hhmm(res.set[i], zone),
-               wins, f"{res.usable_s[i] / 60.0:.0f} min", best, lost_txt]
+               wins, f"{res.usable_s[i] / 60.0:.0f}m", best, lost_txt]
         if codes is not None:
             text = Text()
             for c in codes[i]:
