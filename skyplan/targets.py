@@ -151,8 +151,7 @@ def target_set(cat, *, orbits=(), source: str | None = None):
         ep[rows] = np.where(np.isfinite(col.epoch_jyear[fixed]), col.epoch_jyear[fixed], 2000.0)
         moving = ~fixed
         body[look[moving]] = np.array(
-            [("orbit:" if k == "orbit" else "") + resolver.normalise(q).lower()
-             if k == "orbit" else str(q).strip().lower()
+            [f"orbit:{q}" if k == "orbit" else str(q).strip().lower()
              for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
         ident[look] = col.identifier
     return TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body), ident

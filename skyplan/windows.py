@@ -24,6 +24,7 @@ evaluated on the samples.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -104,7 +105,8 @@ class Sky:
         self.era_mid = float(timescales.era_rad(np.asarray(t_mid)))
         self.t_mid = t_mid
         n = len(targets)
-        self.moving = np.array([bool(b) for b in targets.body], dtype=bool)
+        self.body = np.asarray(targets.body, dtype=object)
+        self.moving = self.body != ""
         fixed = ~self.moving
         self.ra = np.zeros(n)
         self.dec = np.zeros(n)
@@ -113,14 +115,13 @@ class Sky:
                 targets.ra_deg[fixed], targets.dec_deg[fixed], targets.pm_ra_masyr[fixed],
                 targets.pm_dec_masyr[fixed], targets.parallax_mas[fixed], targets.rv_kms[fixed],
                 targets.epoch_jyear[fixed])
-            # the site's (topocentric) astrom: its aberration uses the observer's velocity, so
-            # the diurnal part is in the place (the frame's ``diurab`` is 0, as in eraApco)
-            import erfa
-
-            ri, di = erfa.atciq(stars.ra_rad, stars.dec_rad, stars.pmr_radyr, stars.pmd_radyr,
-                                stars.px_arcsec, stars.rv_kms, self.frame.astrom)
+            ri, di, _ = frames.cirs_place(stars, t_mid)  # geocentric
             self.ra[fixed], self.dec[fixed] = ri, di
         self.eo = self.frame.eo
+        # diurnal aberration turns with the Earth, so it is applied at each instant, for fixed
+        # targets only: the bodies' topocentric places carry it already (and eraApco leaves
+        # the frame's ``diurab`` at 0)
+        self.diurab = np.where(self.moving, 0.0, diurnal_aberration(site))
         # moving bodies: topocentric apparent places on the sampling grid, CIO based
         self.grid = events.grid(night.span_start, night.span_end, SAMPLE_STEP_S)
         self.moving_rows = np.nonzero(self.moving)[0]
@@ -157,7 +158,8 @@ class Sky:
         """Apparent (refracted) altitude, azimuth (degrees) and hour angle (radians)."""
         t = np.asarray(t, dtype=float)
         ra, dec = self.radec(rows, t)
-        alt, az, ha = frames.cirs_to_horizon(ra, dec, self.era_local(t), self.frame)
+        frame = dataclasses.replace(self.frame, diurab=self.diurab[rows])
+        alt, az, ha = frames.cirs_to_horizon(ra, dec, self.era_local(t), frame)
         alt_deg = np.degrees(alt)
         alt_deg = alt_deg + self.refract(alt_deg)
         return alt_deg, np.degrees(az), ha
@@ -173,19 +175,29 @@ class Sky:
             pressure_hpa=self.pressure, temperature_c=self.temperature, humidity=self.humidity))
 
 
+def diurnal_aberration(site) -> float:
+    """Diurnal aberration (radians): the site's speed about the Earth's axis over c.
+
+    As ERFA ``eraApio`` computes it, from the site's velocity by ``eraPvtob``.
+    """
+    import erfa
+
+    v = erfa.pvtob(np.radians(site.lon_deg), np.radians(site.lat_deg), site.elevation_m,
+                   0.0, 0.0, 0.0, 0.0)["v"]
+    return float(np.hypot(v[0], v[1]) / erfa.CMPS)
+
+
 def moving_place(key: str, site, t: np.ndarray, orbits=()) -> tuple[np.ndarray, np.ndarray]:
     """Topocentric apparent RA/Dec of date (degrees) of a body or an orbit at times ``t``."""
     if key.startswith("orbit:"):
         from skyplan import names
         from skyplan import orbits as orbit_mod
 
-        wanted = key[len("orbit:"):]
-        for el in orbits:
-            if names.normalise(el.designation).lower() == wanted or (
-                    el.name and names.normalise(el.name).lower() == wanted):
-                return orbit_mod.apparent_radec_of_date(el, t, site.lat_deg, site.lon_deg,
-                                                        site.elevation_m)
-        raise KeyError(key)
+        el = names.find_orbit(key[len("orbit:"):], orbits)
+        if el is None:
+            raise KeyError(key)
+        return orbit_mod.apparent_radec_of_date(el, t, site.lat_deg, site.lon_deg,
+                                                site.elevation_m)
     p = bodies.topocentric(key, site.lat_deg, site.lon_deg, site.elevation_m, t)
     return p["ra_deg"], p["dec_deg"]
 
@@ -387,7 +399,8 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
     tr = night.track
     if limits.moon_gap_deg > 0:
         pieces["moon"] = _gap_intervals(sky, rows, tr.t, tr.moon_ra_deg, tr.moon_dec_deg,
-                                        limits.moon_gap_deg, span, motion_deg=9.0)
+                                        limits.moon_gap_deg, span, motion_deg=9.0,
+                                        exempt=("moon",))
     if limits.sun_gap_deg > 0:
         pieces["sun"] = _gap_intervals(sky, rows, tr.t, tr.sun_ra_deg, tr.sun_dec_deg,
                                        limits.sun_gap_deg, span, motion_deg=1.5)
@@ -485,10 +498,12 @@ def _between_intervals(limits: Limits, night, rows) -> Intervals:
     return Intervals.whole(rows, start, end)
 
 
-def _gap_intervals(sky, rows, t, ra_deg, dec_deg, gap_deg, span, motion_deg) -> Intervals:
+def _gap_intervals(sky, rows, t, ra_deg, dec_deg, gap_deg, span, motion_deg,
+                   exempt: tuple[str, ...] = ()) -> Intervals:
     """Targets far enough from a moving body; only those ever close are sampled."""
     d_now = _distance_now(sky, rows, t, ra_deg, dec_deg)
     close = (d_now < gap_deg + motion_deg) | sky.moving[rows]
+    close &= ~np.isin(sky.body[rows], exempt)  # the Moon is not kept away from itself
     far = Intervals.whole(rows[~close], span[0], span[1])
     vec = frames.unit_vectors(ra_deg, dec_deg)
     cos_gap = np.cos(np.radians(gap_deg))

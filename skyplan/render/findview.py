@@ -1,0 +1,42 @@
+"""``find`` results: a table and JSON records (formatting only)."""
+
+from __future__ import annotations
+
+from skyplan.angles import format_dms, format_hms
+from skyplan.render.tables import _table
+from skyplan.timeinput import iso_utc
+
+
+def found_record(f) -> dict:
+    r = f.resolved
+    moving = r.kind in ("body", "orbit")
+    return {
+        "query": r.query, "kind": r.kind, "identifier": r.identifier,
+        "identifiers": list(r.identifiers), "source": r.source, "object_type": r.object_type,
+        "ra_deg": f.ra_deg, "dec_deg": f.dec_deg,
+        "position": "geocentric astrometric ICRS at time" if moving else "ICRS, epoch J2000.0",
+        "time": iso_utc(f.unix) if moving else None,
+        "distance_au": f.distance_au,
+        "pm_ra_masyr": None if moving else r.pm_ra_masyr,
+        "pm_dec_masyr": None if moving else r.pm_dec_masyr,
+        "parallax_mas": None if moving else r.parallax_mas,
+        "magnitude": r.magnitude,
+    }
+
+
+def found_table(found):
+    t = _table("Names resolved offline", caption="fixed targets: ICRS at epoch J2000.0; "
+               "Sun, Moon, planets and orbits: geocentric astrometric place at the given time")
+    for col in ("name", "identifier", "type", "RA", "Dec", "motion", "mag", "source"):
+        t.add_column(col)
+    for f in found:
+        r = f.resolved
+        if r.kind in ("body", "orbit"):
+            motion = f"{f.distance_au:.4f} au at {iso_utc(f.unix)}"
+        else:
+            motion = (f"pm {r.pm_ra_masyr:+.2f}, {r.pm_dec_masyr:+.2f} mas/yr; "
+                      f"plx {r.parallax_mas:.2f} mas")
+        mag = "" if r.magnitude is None or r.magnitude != r.magnitude else f"{r.magnitude:.2f}"
+        t.add_row(r.query, r.identifier, r.object_type, format_hms(f.ra_deg, 2),
+                  format_dms(f.dec_deg, 1), motion, mag, r.source)
+    return t
