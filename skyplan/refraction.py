@@ -60,9 +60,13 @@ def refco(pressure_hpa: float, temperature_c: float, humidity: float, wavelength
 
 
 def unrefract_deg(alt_apparent_deg: np.ndarray, **weather) -> np.ndarray:
-    """True altitude from an apparent one, by fixed-point iteration of :func:`refraction_deg`."""
+    """True altitude from an apparent one, by fixed-point iteration of :func:`refraction_deg`.
+
+    Each step shrinks the error by the factor dR/dh, up to about 0.15 near the horizon, so
+    20 steps reach float64 rounding everywhere (6 left up to 0.04″ at the horizon).
+    """
     h_app = np.asarray(alt_apparent_deg, dtype=float)
     h = h_app.copy()
-    for _ in range(6):
+    for _ in range(20):
         h = h_app - refraction_deg(h, **weather)
     return h

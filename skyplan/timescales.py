@@ -93,14 +93,15 @@ def _interp_eop(unix: np.ndarray, values: np.ndarray) -> np.ndarray:
     if np.any(mjd > eo.last_mjd + 1):
         last = _mjd_to_date(eo.last_mjd)
         notices.add(
-            f"Earth orientation beyond the bundled IERS table (it ends {last}): UT1−UTC held at its "
-            "last predicted value; times of events may be off by up to about 1 s and positions by "
-            "up to about 15″ in hour angle."
+            f"Earth orientation beyond the bundled IERS table (it ends {last}): UT1−UTC held at "
+            "its last predicted value; times of events may be off by up to about 1 s and "
+            "positions by up to about 15″ in hour angle."
         )
     if np.any(mjd < eo.mjd[0]):
         notices.add(
-            f"Earth orientation before the bundled IERS table (it starts {_mjd_to_date(eo.mjd[0])}): "
-            "UT1−UTC held at its first value; event times may be off by up to about 1 s."
+            "Earth orientation before the bundled IERS table (it starts "
+            f"{_mjd_to_date(eo.mjd[0])}): UT1−UTC held at its first value; event times may be "
+            "off by up to about 1 s."
         )
     return out
 
