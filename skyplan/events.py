@@ -39,6 +39,23 @@ def grid(start: float, end: float, step_s: float) -> np.ndarray:
     return np.linspace(start, end, n)
 
 
+def interp_cubic(t, t_grid: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Four-point Lagrange interpolation on a uniform grid (Abramowitz & Stegun 25.2.13).
+
+    The error is about h⁴·f⁗/24: for an altitude driven by the Earth's rotation sampled
+    every 10 minutes that is below 0.05″, far better than linear interpolation's 15″.
+    """
+    t = np.asarray(t, dtype=float)
+    n = len(t_grid)
+    h = (t_grid[-1] - t_grid[0]) / (n - 1)
+    x = (t - t_grid[0]) / h
+    i = np.clip(np.floor(x).astype(np.int64), 1, n - 3)
+    s = x - i
+    v = np.asarray(values, dtype=float)
+    return (-s * (s - 1) * (s - 2) / 6.0 * v[i - 1] + (s + 1) * (s - 1) * (s - 2) / 2.0 * v[i]
+            - (s + 1) * s * (s - 2) / 2.0 * v[i + 1] + (s + 1) * s * (s - 1) / 6.0 * v[i + 2])
+
+
 def find_crossings(f: Margin, rows: np.ndarray, t_grid: np.ndarray, *, tol_s: float = 0.5,
                    chunk: int = 20000, grid_f=None) -> Crossings:
     """All sign changes of ``f`` for each of ``rows`` across ``t_grid``, refined to ``tol_s``.

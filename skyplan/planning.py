@@ -35,6 +35,7 @@ class PlannedVisit:
     seq: int
     target: int
     name: str
+    identifier: str
     repeat: int
     start: float
     exposure_start: float
@@ -155,7 +156,8 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
     for k, p in enumerate(v):
         i = int(rows[k])
         out.append(PlannedVisit(
-            seq=k + 1, target=i, name=str(res.names[i]), repeat=p.repeat, start=p.start_unix,
+            seq=k + 1, target=i, name=str(res.names[i]), identifier=str(res.identifiers[i]),
+            repeat=p.repeat, start=p.start_unix,
             exposure_start=p.exposure_start_unix, end=p.end_unix,
             exposure_s=float(exp[p.target]), overhead_s=p.slew_s + p.setup_s, slew_s=p.slew_s,
             ra_date_deg=float(res.ra_date_deg[i]), dec_date_deg=float(res.dec_date_deg[i]),

@@ -154,4 +154,4 @@ def target_set(cat, *, orbits=(), source: str | None = None):
             [f"orbit:{q}" if k == "orbit" else str(q).strip().lower()
              for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
         ident[look] = col.identifier
-    return TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body), ident
+    return TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body, ident), ident

@@ -56,6 +56,7 @@ class TargetSet:
     rv_kms: np.ndarray
     epoch_jyear: np.ndarray
     body: np.ndarray  # object array: body key ("moon", "jupiter", ...) or "" for fixed targets
+    identifiers: np.ndarray | None = None  # catalogue identifier of a resolved name, else ""
 
     def __len__(self) -> int:
         return len(self.names)
@@ -64,6 +65,7 @@ class TargetSet:
 @dataclass(frozen=True)
 class WindowResult:
     names: np.ndarray
+    identifiers: np.ndarray  # "" where the target was given with coordinates
     ra_deg: np.ndarray  # ICRS (bodies: apparent geocentric of date at local midnight)
     dec_deg: np.ndarray
     ra_date_deg: np.ndarray  # apparent RA/Dec of date at local midnight (equinox based)
@@ -453,9 +455,8 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
     near_sun = _min_distance(sky, rows, tr, span) < max(limits.sun_gap_deg, 15.0)
     daylight = np.zeros(n, bool)
     if limits.dark_sun_alt_deg is None and len(windows):
-        sun_alt_mid = np.interp(0.5 * (windows.start + windows.end), tr.t, tr.sun_alt_deg)
-        sun_alt_edges = np.maximum(np.interp(windows.start, tr.t, tr.sun_alt_deg),
-                                   np.interp(windows.end, tr.t, tr.sun_alt_deg))
+        sun_alt_mid = tr.sun_alt(0.5 * (windows.start + windows.end))
+        sun_alt_edges = np.maximum(tr.sun_alt(windows.start), tr.sun_alt(windows.end))
         bright = np.maximum(sun_alt_mid, sun_alt_edges) > night_mod.SUNSET_ALT_DEG
         daylight[np.unique(windows.rows[bright])] = True
     ra_app = np.degrees(sky.ra - sky.eo) % 360.0
@@ -471,8 +472,9 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
     dec_date = np.degrees(sky.dec)
     if len(moving_rows):
         dec_date[moving_rows] = dec_icrs[moving_rows]
+    ident = targets.identifiers if targets.identifiers is not None else np.full(n, "", object)
     return WindowResult(
-        names=targets.names, ra_deg=ra_icrs, dec_deg=dec_icrs, ra_date_deg=ra_app,
+        names=targets.names, identifiers=ident, ra_deg=ra_icrs, dec_deg=dec_icrs, ra_date_deg=ra_app,
         dec_date_deg=dec_date, rise=rise, transit=transit, set=set_, transit_alt_deg=tr_alt,
         transit_airmass=tr_x, status=status, windows=windows, usable_s=windows.measure(n),
         best_time=best_t, best_alt_deg=best_alt, best_airmass=best_x, lost_s=lost,

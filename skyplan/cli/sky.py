@@ -145,9 +145,6 @@ def windows_cmd(
         common.emit(tables.render_text(table), out)
         return
     recs = windowview.window_records(res)
-    for rec, i in zip(recs, ident):
-        if i:
-            rec["identifier"] = i
     if fmt == "json":
         common.emit(records.to_json(recs, clean=False, indent=len(recs) <= 2000), out)
     elif fmt == "ndjson":

@@ -16,8 +16,9 @@ SAFETY = ("Advice only: the telescope's own limits, interlocks and the site's ru
 
 
 def visit_record(v) -> dict:
+    extra = {"identifier": v.identifier} if v.identifier else {}
     return {
-        "seq": v.seq, "name": v.name, "repeat": v.repeat,
+        "seq": v.seq, "name": v.name, **extra, "repeat": v.repeat,
         "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
         "end": iso_utc(v.end), "exposure_s": round(v.exposure_s, 3),
         "overhead_s": round(v.overhead_s, 3), "slew_s": round(v.slew_s, 3),
@@ -88,7 +89,9 @@ def plan_table(p, site):
             notes.append(f"repeat {v.repeat}")
         if v.airmass_mid > v.best_airmass * 1.05:
             notes.append(f"best {v.best_airmass:.2f}")
-        t.add_row(str(v.seq), start, v.name, f"{v.exposure_s / 60:.0f}m",
+        label = v.name if not v.identifier or v.identifier == v.name else \
+            f"{v.name} ({v.identifier})"
+        t.add_row(str(v.seq), start, label, f"{v.exposure_s / 60:.0f}m",
                   f"{v.alt_start_deg:.0f}/{v.alt_mid_deg:.0f}/{v.alt_end_deg:.0f}°",
                   f"{v.az_mid_deg:.0f}°", f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
                   f"{v.moon_distance_deg:.0f}°", ", ".join(notes))

@@ -57,7 +57,10 @@ def window_records(res) -> list[dict]:
              "transit_airmass", "windows", "usable_minutes", "best_time", "best_airmass",
              "status", "lost_minutes", "near_sun", "daylight_window", "sun_distance_deg",
              "moon_distance_deg")
-    return [dict(zip(names, row)) for row in columns]
+    out = [dict(zip(names, row)) for row in columns]
+    for i in np.nonzero(res.identifiers != "")[0]:
+        out[i]["identifier"] = res.identifiers[i]
+    return out
 
 
 def _status(res) -> list[str]:
@@ -142,7 +145,10 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
             f"{_hhmm(res.best_time[i], zone)} X{res.best_airmass[i]:.2f}"
         tr = "—" if not np.isfinite(res.transit[i]) else \
             f"{_hhmm(res.transit[i], zone)} {res.transit_alt_deg[i]:+.0f}°"
-        row = [str(res.names[i]), st, _hhmm(res.rise[i], zone), tr, _hhmm(res.set[i], zone),
+        label = str(res.names[i])
+        if res.identifiers[i] and res.identifiers[i] != label:
+            label += f" ({res.identifiers[i]})"
+        row = [label, st, _hhmm(res.rise[i], zone), tr, _hhmm(res.set[i], zone),
                wins, f"{res.usable_s[i] / 60.0:.0f}m", best, lost_txt]
         if codes is not None:
             text = Text()
