@@ -560,31 +560,32 @@ def _best(sky: Sky, windows: Intervals, transit: np.ndarray, n: int):
 
 
 def _moving_events(sky: Sky, rows, rise, transit, set_, status) -> None:
-    """Rise, transit and set of bodies from their sampled places."""
-    span = (sky.night.span_start, sky.night.span_end)
+    """Rise, transit and set of bodies from their sampled places.
+
+    As for fixed targets: the upper transit nearest local midnight, the last rising before it
+    and the first setting after it (within the noon-to-noon span).
+    """
 
     def horizon_margin(r, t):  # true altitude against −34′, as for fixed targets
         ra, dec = sky.radec(r, t)
         alt, _, _ = frames.cirs_to_horizon(ra, dec, sky.era_local(t), sky.frame)
         return np.degrees(alt) - RISE_SET_ALT_DEG
 
-    c = events.find_crossings(horizon_margin, rows, sky.grid, tol_s=TOL_S)
-    for row in rows:  # a handful of bodies at most
-        sel = c.rows == row
-        ups, downs = c.t[sel & c.rising], c.t[sel & ~c.rising]
-        rise[row] = ups[0] if len(ups) else np.nan
-        set_[row] = downs[-1] if len(downs) else np.nan
-        if not len(ups) and not len(downs):
-            status[row] = "always_up" if c.start_positive[rows == row][0] else "never_up"
-
     def ha_margin(r, t):
         _, _, ha = sky.horizon(r, t)
         return (ha + np.pi) % (2 * np.pi) - np.pi
 
+    c = events.find_crossings(horizon_margin, rows, sky.grid, tol_s=TOL_S)
     ct = events.find_crossings(ha_margin, rows, sky.grid, tol_s=TOL_S)
-    for row in rows:
-        sel = (ct.rows == row) & ct.rising
-        cand = ct.t[sel]
+    for row in rows:  # a handful of bodies at most
+        cand = ct.t[(ct.rows == row) & ct.rising]
+        t_tr = cand[np.argmin(np.abs(cand - sky.t_mid))] if len(cand) else sky.t_mid
         if len(cand):
-            transit[row] = cand[np.argmin(np.abs(cand - sky.t_mid))]
-    del span
+            transit[row] = t_tr
+        sel = c.rows == row
+        ups, downs = c.t[sel & c.rising], c.t[sel & ~c.rising]
+        before, after = ups[ups <= t_tr], downs[downs >= t_tr]
+        rise[row] = before[-1] if len(before) else (ups[0] if len(ups) else np.nan)
+        set_[row] = after[0] if len(after) else (downs[-1] if len(downs) else np.nan)
+        if not len(ups) and not len(downs):
+            status[row] = "always_up" if c.start_positive[rows == row][0] else "never_up"

@@ -57,11 +57,6 @@ def sf_seconds(t_ref, unix) -> np.ndarray:
     return (t_ref.tt - bodies.sf_time(unix).tt) * 86400.0
 
 
-def unix_of(t_ref) -> np.ndarray:
-    """POSIX seconds of skyfield times (microsecond resolution is ample here)."""
-    return np.array([d.timestamp() for d in np.atleast_1d(t_ref.utc_datetime())])
-
-
 @pytest.fixture(scope="module")
 def astropy_offline():
     ephemeris.configure_astropy_offline()
@@ -83,10 +78,9 @@ def test_venus_at_boston_meeus_example_15a() -> None:
     """
     boston = Site("Boston", 42 + 20 / 60, -(71 + 5 / 60), 0.0, zone="America/New_York")
     venus = target_set([np.nan], [np.nan], body=["venus"])
-    early = windows.compute_windows(venus, boston, night.compute_night(boston, dt.date(1988, 3, 19)),
-                                    Limits())
-    late = windows.compute_windows(venus, boston, night.compute_night(boston, dt.date(1988, 3, 20)),
-                                   Limits())
+    early, late = (windows.compute_windows(venus, boston, night.compute_night(boston, date),
+                                           Limits())
+                   for date in (dt.date(1988, 3, 19), dt.date(1988, 3, 20)))
 
     def utc(h, m):
         return dt.datetime(1988, 3, 20, h, m, tzinfo=dt.UTC).timestamp()
@@ -100,7 +94,8 @@ def test_venus_at_boston_meeus_example_15a() -> None:
 # ------------------------------------------------------------------ skyfield
 
 
-@pytest.mark.parametrize("lat, lon, date", [(40.0, 10.0, "2024-03-10"), (-33.9, 18.5, "2025-08-01")])
+@pytest.mark.parametrize("lat, lon, date",
+                         [(40.0, 10.0, "2024-03-10"), (-33.9, 18.5, "2025-08-01")])
 def test_fixed_target_rise_transit_set_match_skyfield(lat, lon, date) -> None:
     """skyfield almanac.find_risings/find_settings (a star's centre at −34′) and find_transits.
 
