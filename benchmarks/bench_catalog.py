@@ -33,7 +33,8 @@ def main() -> None:
     dec = np.degrees(np.arcsin(rng.uniform(-1, 1, n)))
     values = [f"{x:.6f}" for x in ra]
     cpu, wall = best_of(lambda: parse_ra_column(values))
-    print(f"parse_ra_column, {n:,} decimal entries: cpu {cpu * 1e3:.0f} ms, wall {wall * 1e3:.0f} ms")
+    print(f"parse_ra_column, {n:,} decimal entries: cpu {cpu * 1e3:.0f} ms, "
+          f"wall {wall * 1e3:.0f} ms")
     with tempfile.TemporaryDirectory() as tmp:
         dec_path = Path(tmp) / "decimal.csv"
         dec_path.write_text("name,ra,dec,pmra,pmdec,priority\n" + "".join(

@@ -116,7 +116,8 @@ def intervals_from_crossings(c: Crossings, rows: np.ndarray, start: float, end: 
     rows = np.asarray(rows, dtype=np.int64)
     # boundary events: +1 where an interval opens, -1 where it closes
     ev_r = [c.rows, rows[c.start_positive], rows[c.end_positive]]
-    ev_t = [c.t, np.full(int(c.start_positive.sum()), start), np.full(int(c.end_positive.sum()), end)]
+    ev_t = [c.t, np.full(int(c.start_positive.sum()), start),
+            np.full(int(c.end_positive.sum()), end)]
     ev_open = [c.rising, np.ones(int(c.start_positive.sum()), bool),
                np.zeros(int(c.end_positive.sum()), bool)]
     r = np.concatenate(ev_r)

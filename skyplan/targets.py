@@ -76,7 +76,8 @@ def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = Fals
                 parallax_mas=one([0.0]), rv_kms=one([0.0]), epoch_jyear=one([2000.0]),
                 identifiers=one([""], dtype=object),
             )
-    if len(args) == 1 and (_looks_numeric(args[0]) or "/" in args[0] or "." in Path(args[0]).suffix):
+    looks_like_path = "/" in args[0] or "." in Path(args[0]).suffix
+    if len(args) == 1 and (_looks_numeric(args[0]) or looks_like_path):
         raise InputError(f"{args[0]!r} is not a file that exists, nor a target name",
                          field="position")
     return positions_from_names(args, frame)

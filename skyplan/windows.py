@@ -474,7 +474,8 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
         dec_date[moving_rows] = dec_icrs[moving_rows]
     ident = targets.identifiers if targets.identifiers is not None else np.full(n, "", object)
     return WindowResult(
-        names=targets.names, identifiers=ident, ra_deg=ra_icrs, dec_deg=dec_icrs, ra_date_deg=ra_app,
+        names=targets.names, identifiers=ident, ra_deg=ra_icrs, dec_deg=dec_icrs,
+        ra_date_deg=ra_app,
         dec_date_deg=dec_date, rise=rise, transit=transit, set=set_, transit_alt_deg=tr_alt,
         transit_airmass=tr_x, status=status, windows=windows, usable_s=windows.measure(n),
         best_time=best_t, best_alt_deg=best_alt, best_airmass=best_x, lost_s=lost,

@@ -8,8 +8,6 @@ Target names and values are invented test data.
 
 from __future__ import annotations
 
-import math
-import time
 from pathlib import Path
 
 import numpy as np

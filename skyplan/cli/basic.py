@@ -75,7 +75,8 @@ def convert(
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
     skip_bad: bool = typer.Option(
-        False, "--skip-bad-rows", help="Skip malformed catalogue rows (reported) instead of stopping."
+        False, "--skip-bad-rows",
+        help="Skip malformed catalogue rows (reported) instead of stopping."
     ),
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = common.OutOpt,
@@ -179,13 +180,14 @@ def sites_show(
 def sites_check(file: Path = typer.Argument(..., help="Sites file to check.")) -> None:
     """Check a sites file and report every problem with its line."""
     from skyplan import sites
-    from skyplan.errors import InputErrors
 
     problems = sites.check_sites_file(file)
+    if len(problems) == 1:
+        raise problems[0]
     if problems:
         for problem in problems:
-            typer.echo(f"{problem.one_line()}", err=True)
-        raise InputErrors(problems, limit=0) if len(problems) > 1 else problems[0]
+            typer.echo(f"skyplan: {problem.one_line()}", err=True)
+        raise InputError(f"{len(problems)} problems, each on a line above", file=str(file))
     typer.echo(f"{file}: ok ({len(sites.load_sites(file))} site(s))")
 
 

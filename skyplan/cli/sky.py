@@ -23,7 +23,8 @@ NoProfile = typer.Option(False, "--no-horizon-profile", help="Ignore the site's 
 AirmassModel = typer.Option("kasten-young", "--airmass-model",
                             help="kasten-young (Kasten & Young 1989), pickering (2002) or secz.")
 Refraction = typer.Option("bennett", "--refraction",
-                          help="bennett (Bennett 1982/Sæmundsson 1986) or erfa (A tan z + B tan³ z).")
+                          help="bennett (Bennett 1982/Sæmundsson 1986) or erfa "
+                          "(A tan z + B tan³ z).")
 
 
 def night_of(site, date_text, demo):
@@ -119,7 +120,8 @@ def windows_cmd(
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
     skip_bad: bool = typer.Option(False, "--skip-bad-rows",
-                                  help="Skip malformed catalogue rows (reported) instead of stopping."),
+                                  help="Skip malformed catalogue rows (reported) instead of "
+                                  "stopping."),
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
