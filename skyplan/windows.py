@@ -58,6 +58,10 @@ class TargetSet:
     body: np.ndarray  # object array: body key ("moon", "jupiter", ...) or "" for fixed targets
     identifiers: np.ndarray | None = None  # catalogue identifier of a resolved name, else ""
 
+    def __post_init__(self) -> None:
+        if self.identifiers is None:
+            object.__setattr__(self, "identifiers", np.full(len(self.names), "", dtype=object))
+
     def __len__(self) -> int:
         return len(self.names)
 
@@ -472,7 +476,7 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
     dec_date = np.degrees(sky.dec)
     if len(moving_rows):
         dec_date[moving_rows] = dec_icrs[moving_rows]
-    ident = targets.identifiers if targets.identifiers is not None else np.full(n, "", object)
+    ident = targets.identifiers
     return WindowResult(
         names=targets.names, identifiers=ident, ra_deg=ra_icrs, dec_deg=dec_icrs,
         ra_date_deg=ra_app,
