@@ -146,7 +146,7 @@ def windows_cmd(
                                          color=common.is_terminal())
         common.emit(tables.render_text(table), out)
         return
-    recs = windowview.window_records(res)
+    recs = windowview.window_records(res, text_times=fmt == "csv")
     if fmt == "json":
         common.emit(records.to_json(recs, clean=False, indent=len(recs) <= 2000), out)
     elif fmt == "ndjson":

@@ -39,7 +39,8 @@ def to_json(document, *, indent: bool = True, clean: bool = True) -> bytes:
     """
     import orjson
 
-    option = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS
+    option = (orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS | orjson.OPT_NAIVE_UTC
+              | orjson.OPT_UTC_Z)
     if indent:
         option |= orjson.OPT_INDENT_2
     return (
@@ -49,11 +50,12 @@ def to_json(document, *, indent: bool = True, clean: bool = True) -> bytes:
 
 
 def to_ndjson(records: Iterable[dict]) -> bytes:
-    """One JSON object per line."""
+    """One JSON object per line (NaN and infinities are written as null)."""
     import orjson
 
-    option = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_APPEND_NEWLINE
-    return b"".join(orjson.dumps(_clean(r), default=_default, option=option) for r in records)
+    option = (orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_APPEND_NEWLINE | orjson.OPT_NAIVE_UTC
+              | orjson.OPT_UTC_Z)
+    return b"".join(orjson.dumps(r, default=_default, option=option) for r in records)
 
 
 def to_csv(records: Sequence[dict], columns: Sequence[str] | None = None) -> bytes:

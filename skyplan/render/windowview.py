@@ -27,28 +27,42 @@ def _iso_array(unix: np.ndarray) -> list:
     return out.tolist()
 
 
+def _datetimes(unix: np.ndarray) -> list:
+    """UTC instants as naive datetime objects to the second (None for NaN); the JSON writer
+    renders them as ISO 8601 with Z, much faster than formatting strings here."""
+    u = np.round(np.asarray(unix, dtype=float))
+    ok = np.isfinite(u)
+    stamps = np.where(ok, u, 0.0).astype("int64").astype("datetime64[s]")
+    stamps[~ok] = np.datetime64("NaT")
+    return stamps.tolist()
+
+
 def _rounded(a: np.ndarray, places: int) -> list:
     """Rounded floats; NaN and inf stay as they are and are written as JSON null (orjson)."""
     return np.round(np.asarray(a, dtype=float), places).tolist()
 
 
-def window_records(res) -> list[dict]:
-    """One record per target, in the documented JSON layout (columns first, then rows)."""
+def window_records(res, *, text_times: bool = True) -> list[dict]:
+    """One record per target, in the documented JSON layout (columns first, then rows).
+
+    Times are ISO 8601 strings, or with ``text_times=False`` datetime objects that
+    :func:`skyplan.render.records.to_json` writes as the same strings, faster.
+    """
     import gc
 
     collect = gc.isenabled()
     gc.disable()  # hundreds of thousands of fresh containers: the collector only slows this
     try:
-        return _window_records(res)
+        return _window_records(res, _iso_array if text_times else _datetimes)
     finally:
         if collect:
             gc.enable()
 
 
-def _window_records(res) -> list[dict]:
+def _window_records(res, times) -> list[dict]:
     n = len(res.names)
     w = res.windows
-    starts, ends = _iso_array(w.start), _iso_array(w.end)
+    starts, ends = times(w.start), times(w.end)
     mins = np.round((w.end - w.start) / 60.0, 2).tolist()
     per_row: list[list] = [[] for _ in range(n)]
     for r, a, b, m in zip(w.rows.tolist(), starts, ends, mins):
@@ -58,9 +72,9 @@ def _window_records(res) -> list[dict]:
         *(_rounded(res.lost_s[k] / 60.0, 2) for k in keys))] if keys else [{}] * n
     columns = zip(
         res.names.tolist(), _rounded(res.ra_deg, 7), _rounded(res.dec_deg, 7),
-        _iso_array(res.rise), _iso_array(res.transit), _iso_array(res.set),
+        times(res.rise), times(res.transit), times(res.set),
         _rounded(res.transit_alt_deg, 3), _rounded(res.transit_airmass, 4), per_row,
-        _rounded(res.usable_s / 60.0, 2), _iso_array(res.best_time),
+        _rounded(res.usable_s / 60.0, 2), times(res.best_time),
         _rounded(res.best_airmass, 4), _status(res), lost_rows, res.near_sun.tolist(),
         res.daylight_window.tolist(), _rounded(res.sun_distance_deg, 2),
         _rounded(res.moon_distance_deg, 2),
