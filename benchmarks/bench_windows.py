@@ -25,6 +25,13 @@ import numpy as np
 
 SITE = "38.2,-2.9,1300"
 DATE = "2026-12-18"
+SITES_TOML = """
+[site.bench]
+latitude = 38.2
+longitude = -2.9
+elevation = 1300
+zone = "Europe/Madrid"
+"""
 
 RUN_SKYPLAN = r"""
 import resource, sys, time
@@ -104,8 +111,11 @@ def main() -> None:
         cat = Path(tmp) / "targets.csv"
         out = Path(tmp) / "windows.json"
         write_catalogue(cat, args.targets)
-        cli = ["windows", str(cat), "--site", SITE, "--date", DATE, "--moon-gap", "20",
-               "-f", "json", "--out", str(out), "--quiet"]
+        sites_file = Path(tmp) / "sites.toml"
+        sites_file.write_text(SITES_TOML)
+        # a configured site, as in a cron job (its zone is given: no zone lookup)
+        cli = ["windows", str(cat), "--site", "bench", "--sites-file", str(sites_file),
+               "--date", DATE, "--moon-gap", "20", "-f", "json", "--out", str(out), "--quiet"]
         walls, peaks = [], []
         for _ in range(args.repeat):
             wall, peak, code = run(RUN_SKYPLAN, *cli)

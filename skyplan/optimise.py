@@ -23,11 +23,14 @@ grow geometrically with the number of levels, which hides the airmass term below
 tolerances; solving in stages keeps every objective in small integers or airmass units.  Each
 stage for priority ``p`` only needs the variables with priority ``>= p``.
 
-Only the cheapest variables go to the solver (:func:`prune`, with the greedy solution always
-kept), so "optimal" means optimal over that pruned model.  Measured on the synthetic 200-target
-nights of ``benchmarks/bench_scheduling.py`` (2 CPUs), the full model has 15 000-19 000
-variables and HiGHS found no good solution in 20 s; pruned to 1 500 every stage is proven
-optimal in 0.8-1.9 s in all.
+Only part of the variables go to the solver (:func:`prune`: a fair share of every target's
+cheapest starts, the greedy solutions always kept), so "optimal" means optimal over that
+pruned model.  Measured on the synthetic 200-target nights of
+``benchmarks/bench_scheduling.py`` (2 CPUs) on the 4-minute grid the planner uses there, the
+full model has 4 600-6 100 variables (2-minute grid: 15 000-19 000, no good solution in
+20 s); pruned to 1 500, the stages take 0.8-1.3 s of CPU in all, most ending at the root
+node.  HiGHS runs with fixed options and a node limit, so a solve that ends inside the time
+limit is reproducible.
 
 Exact dynamic programming over visit orders needs a state per subset of targets (2^N); it is
 used only in the tests, as brute force on tiny cases.
@@ -44,6 +47,8 @@ import numpy as np
 if TYPE_CHECKING:
     from skyplan.scheduling import _Night
 
+_MIN_SHARE = 4  # starts every target keeps when pruning, whatever the budget
+
 
 @dataclass(frozen=True)
 class SlotModel:
@@ -58,6 +63,8 @@ class SlotModel:
     priority: np.ndarray  # [N]
     n_slots: int
     relative_to: np.ndarray  # [M] best airmass of each variable's target, for relative excess
+    slot_unix: np.ndarray  # [n_slots] start time of every slot of this model's grid
+    step_s: float  # the grid's step
 
     def subset(self, keep: np.ndarray) -> SlotModel:
         """The same model restricted to the variables ``keep`` (sorted indices)."""
@@ -71,6 +78,8 @@ class SlotModel:
             self.priority,
             self.n_slots,
             self.relative_to[keep],
+            self.slot_unix,
+            self.step_s,
         )
 
 
@@ -85,49 +94,65 @@ class SolveResult:
     proven_optimal: bool  # every stage solved to optimality
 
 
-def build_slot_model(night: _Night) -> SlotModel:
+def build_slot_model(
+    night: _Night, step_s: float | None = None, allowance_s: float | None = None
+) -> SlotModel:
     """Every (target, start slot) whose whole reserved block fits inside one window.
 
-    A block is ``ceil((longest slew + setup + exposure) / step)`` slots; at the first slot of
-    the night the settle time replaces the longest slew.  The cost (airmass excess at
-    mid-exposure) assumes the middle slew, (settle + longest) / 2.
+    The model's grid takes every k-th sample of the night's grid, ``k = round(step_s /
+    night step)`` (every sample by default).  A block is ``ceil((allowance + setup +
+    exposure) / step)`` slots, the allowance being the slew allowed before the visit (the
+    slew model's worst case by default); at the first slot of the night the settle time
+    replaces it.  The cost, the airmass excess at mid-exposure, assumes a slew equal to the
+    allowance.  Starts whose airmass at mid-exposure exceeds the target's airmass ceiling
+    (``night.max_airmass``) are left out.
     """
-    step, n_slots, t0 = night.step_s, night.slot_unix.size, night.t0
-    allowance, settle = night.slew.longest_s(), night.slew.settle_s
+    stride = 1 if step_s is None else max(1, int(round(step_s / night.step_s)))
+    slot_unix = night.slot_unix[::stride]
+    step, n_slots, t0 = night.step_s * stride, slot_unix.size, night.t0
+    allowance = night.slew.longest_s() if allowance_s is None else float(allowance_s)
+    settle = night.slew.settle_s
     work = night.setup_s + night.exposure_s
     block = np.ceil((allowance + work) / step - 1e-9).astype(int)
     short = np.ceil((settle + work) / step - 1e-9).astype(int)
     wt, ws, we = night.win_target, night.win_start, night.win_end
     first = np.ceil((ws - t0) / step - 1e-9).astype(int)
     end = np.floor((we - t0) / step + 1e-9).astype(int)  # last slot a block may reach
-    count = np.maximum(end - short[wt] - first + 1, 0)
+    count = np.maximum(end - np.minimum(short, block)[wt] - first + 1, 0)
     var_target = np.repeat(wt, count)
     var_slot = np.repeat(first, count) + ramp(count)
     var_block = np.where(var_slot == 0, short[var_target], block[var_target])
-    ok = var_slot + var_block <= np.repeat(end, count)
+    slew = np.where(var_slot == 0, settle, allowance)
+    mid = slot_unix[var_slot] + slew + night.setup_s + night.exposure_s[var_target] / 2
+    airmass = night.airmass_at(var_target, mid)
+    ok = (var_slot + var_block <= np.repeat(end, count)) & (
+        airmass <= night.max_airmass[var_target]
+    )
     key, pick = np.unique(var_target[ok] * n_slots + var_slot[ok], return_index=True)
     var_target, var_slot = key // n_slots, key % n_slots
-    var_block = var_block[ok][pick]
-    slew = np.where(var_slot == 0, settle, 0.5 * (settle + allowance))
-    mid = night.slot_unix[var_slot] + slew + night.setup_s + night.exposure_s[var_target] / 2
     return SlotModel(
         var_target=var_target,
         var_slot=var_slot,
-        var_block=var_block,
-        var_cost=night.airmass_at(var_target, mid) - night.best_airmass[var_target],
+        var_block=var_block[ok][pick],
+        var_cost=airmass[ok][pick] - night.best_airmass[var_target],
         spacing_slots=np.ceil(night.spacing_s / step - 1e-9).astype(int),
         repeats=night.repeats,
         priority=night.priority,
         n_slots=n_slots,
         relative_to=night.best_airmass[var_target],
+        slot_unix=slot_unix,
+        step_s=step,
     )
 
 
-def reserve_greedy(model: SlotModel, fixed: np.ndarray | None = None) -> np.ndarray:
+def reserve_greedy(
+    model: SlotModel, fixed: np.ndarray | None = None, by_priority: bool = True
+) -> np.ndarray:
     """Priority-ordered reservation: each visit takes the free start where its cost is lowest.
 
     Targets are taken by priority (highest first), then by how few start slots they have (the
-    most constrained first), then by index; each repeat of a target in turn reserves its
+    most constrained first), then by index; with ``by_priority=False`` the fewest start slots
+    come first and priority only breaks ties.  Each repeat of a target in turn reserves its
     cheapest free feasible start (the earliest on ties).  ``fixed`` variables are kept as
     already reserved.  Returns the chosen variable indices, sorted.
     """
@@ -144,7 +169,8 @@ def reserve_greedy(model: SlotModel, fixed: np.ndarray | None = None) -> np.ndar
     counts = np.bincount(model.var_target, minlength=n)
     first = np.cumsum(counts) - counts
     targets = np.flatnonzero(counts)
-    targets = targets[np.lexsort((targets, counts[targets], -model.priority[targets]))]
+    rank, few = -model.priority[targets], counts[targets]
+    targets = targets[np.lexsort((targets, few, rank) if by_priority else (targets, rank, few))]
     for i in targets:
         own = slice(first[i], first[i] + counts[i])
         slots, d, cost = model.var_slot[own], model.var_block[own], model.var_cost[own]
@@ -164,23 +190,37 @@ def reserve_greedy(model: SlotModel, fixed: np.ndarray | None = None) -> np.ndar
 
 
 def prune(model: SlotModel, keep: np.ndarray, max_vars: int) -> np.ndarray:
-    """Variables worth giving the solver: the cheapest starts, and the ``keep`` ones.
+    """Variables worth giving the solver: a fair share of every target's cheapest starts.
 
     Starts are ranked by relative airmass excess ``cost / best`` (stable order, so ties go to
-    the earlier variable) and the cheapest are kept until ``max_vars`` variables in all.  The
-    ``keep`` variables (a greedy solution) always stay, so the solver's optimum over the pruned
-    model is never worse than that solution.  Returns the kept variable indices, sorted.
+    the earlier variable).  Every target first keeps its cheapest ``max_vars // targets``
+    starts (at least its cheapest few), so a target whose every start is dear (one setting at
+    dusk, say) is still offered to the solver; the room left goes to the cheapest remaining
+    starts of any target.  The ``keep`` variables (greedy solutions) always stay, so the
+    solver's optimum over the pruned model is never worse than any of them.  Returns the kept
+    variable indices, sorted.
     """
-    chosen = np.zeros(model.var_target.size, bool)
+    m = model.var_target.size
+    if m <= max_vars:
+        return np.arange(m)
+    chosen = np.zeros(m, bool)
     chosen[keep] = True
+    rel = model.var_cost / model.relative_to
+    order = np.lexsort((rel, model.var_target))  # by target, then cheapest first
+    tgt = model.var_target[order]
+    rank = np.arange(m) - np.searchsorted(tgt, tgt, side="left")
+    share = max(max_vars // max(np.unique(tgt).size, 1), _MIN_SHARE)
+    chosen[order[rank < share]] = True
     room = max(max_vars - int(chosen.sum()), 0)
-    order = np.argsort(model.var_cost / model.relative_to, kind="stable")
-    order = order[~chosen[order]]
-    chosen[order[:room]] = True
+    by_cost = np.argsort(rel, kind="stable")
+    by_cost = by_cost[~chosen[by_cost]]
+    chosen[by_cost[:room]] = True
     return np.flatnonzero(chosen)
 
 
-def solve_lexicographic(model: SlotModel, time_limit_s: float) -> SolveResult | None:
+def solve_lexicographic(
+    model: SlotModel, time_limit_s: float, node_limit: int | None = None
+) -> SolveResult | None:
     """Solve the staged integer program with HiGHS (``scipy.optimize.milp``) within the limit.
 
     HiGHS runs with fixed options (its defaults: relative gap 1e-4, fixed random seed), so a
@@ -219,7 +259,12 @@ def solve_lexicographic(model: SlotModel, time_limit_s: float) -> SolveResult | 
             constraints=rows,
             integrality=np.ones(int(cols.sum())),
             bounds=Bounds(0, 1),
-            options={"time_limit": share, "disp": False, "presolve": True},
+            options={
+                "time_limit": share,
+                "node_limit": node_limit,
+                "disp": False,
+                "presolve": True,
+            },
         )
         if res.x is None:
             proven = False

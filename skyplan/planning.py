@@ -88,6 +88,7 @@ SCHEDULER_TEXT = {
     "no_window": "no window tonight", "too_short": "windows shorter than one visit",
     "no_room": "no room left in the night", "below_priority_cut": "below the priority cut",
     "near_sun": "too close to the Sun (safety; use --allow-near-sun to override)",
+    "poor_airmass": "only at poor airmass tonight (see --airmass-slack)",
 }
 
 

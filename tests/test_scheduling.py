@@ -30,6 +30,7 @@ from skyplan.scheduling import (
     SlewModel,
     _Night,
     make_plan,
+    typical_slew_s,
 )
 
 T0 = 1_750_000_000.0
@@ -157,6 +158,20 @@ def assert_valid(req: PlanRequest, opt: PlanOptions, plan) -> None:
         starts.setdefault(i, []).append(v.start_unix)
         assert v.repeat == len(starts[i])
         prev, last_end = i, v.end_unix
+    if opt.airmass_slack is not None and plan.visits:
+        # The slack rule: below the top priority of the targets that could be placed, a visit's
+        # airmass is at most best * (1 + slack).
+        work = req.slew.settle_s + req.setup_s + np.asarray(req.exposure_s)
+        room = np.zeros(n, bool)
+        room[wt[we - ws >= work[wt] - EPS]] = True
+        allowed = room & (opt.allow_near_sun | ~np.asarray(req.sun_flag, bool))
+        if opt.priority_cut is not None:
+            allowed &= np.asarray(req.priority) >= opt.priority_cut
+        top = np.max(np.asarray(req.priority)[allowed])
+        for v in plan.visits:
+            if req.priority[v.target] < top:
+                ceiling = req.best_airmass[v.target] * (1 + opt.airmass_slack)
+                assert v.airmass_mid <= ceiling + 1e-9, "visit above its airmass ceiling"
     for i, s in starts.items():
         assert len(s) <= req.repeats[i]
         assert np.all(np.diff(s) >= req.spacing_s[i] - EPS), "repeats closer than the spacing"
@@ -350,20 +365,27 @@ def test_solver_report_when_given_time():
 # -- the optimiser against brute force ------------------------------------------------------
 
 
-def brute_force(req):
+def brute_force(req, stride=1, allowance=None, slack=None):
     """Best lexicographic value over every feasible set of starts, by enumeration.
 
-    The slot model from its definition: a visit starting at slot s covers
-    ceil((longest slew + setup + exposure) / step) slots (settle instead of the longest slew
-    at slot 0), must lie inside one window, and costs the airmass at mid-exposure (middle
-    slew assumed) minus the best airmass.
+    The slot model from its definition: the grid is every ``stride``-th sample; a visit
+    starting at slot s covers ceil((allowance + setup + exposure) / step) slots (settle
+    instead of the allowance at slot 0; the allowance is the longest slew unless given), must
+    lie inside one window, and costs the airmass at mid-exposure (slew = allowance) minus the
+    best airmass.  With a slack, targets below the top priority keep only the starts whose
+    airmass is at most best * (1 + slack).
     """
-    slot = np.asarray(req.slot_unix)
-    step = (slot[-1] - slot[0]) / (len(slot) - 1)
-    longest, settle = req.slew.longest_s(), req.slew.settle_s
+    slot = np.asarray(req.slot_unix)[::stride]
+    step = (req.slot_unix[-1] - req.slot_unix[0]) / (len(req.slot_unix) - 1) * stride
+    longest = req.slew.longest_s() if allowance is None else allowance
+    settle = req.slew.settle_s
+    top = max(req.priority)
     options = []
     for i in range(len(req.exposure_s)):
         work = req.setup_s + req.exposure_s[i]
+        ceiling = math.inf
+        if slack is not None and req.priority[i] < top:
+            ceiling = req.best_airmass[i] * (1 + slack)
         starts = []
         for s in range(len(slot)):
             slew = settle if s == 0 else longest
@@ -371,12 +393,13 @@ def brute_force(req):
             t0, t1 = slot[s], slot[s] + block * step
             windows = zip(req.win_target, req.win_start_unix, req.win_end_unix, strict=True)
             if any(
-                w == i and a <= t0 + EPS and t1 <= min(b, slot[-1]) + EPS for w, a, b in windows
+                w == i and a <= t0 + EPS and t1 <= min(b, req.slot_unix[-1]) + EPS
+                for w, a, b in windows
             ):
-                slew = settle if s == 0 else (settle + longest) / 2
                 mid = slot[s] + slew + work - req.exposure_s[i] / 2
-                cost = interp_row(req.airmass[i], slot, mid) - req.best_airmass[i]
-                starts.append((s, block, cost))
+                airmass = interp_row(req.airmass[i], req.slot_unix, mid)
+                if airmass <= ceiling:
+                    starts.append((s, block, airmass - req.best_airmass[i]))
         sp = math.ceil(req.spacing_s[i] / step - 1e-9)
         choices = [()]
         for r in range(1, req.repeats[i] + 1):
@@ -434,19 +457,104 @@ def tiny_request(seed):
 
 
 @pytest.mark.parametrize("seed", range(20))
-def test_optimiser_matches_brute_force_on_tiny_problems(seed):
+@pytest.mark.parametrize("coarse", [False, True])
+def test_optimiser_matches_brute_force_on_tiny_problems(seed, coarse):
+    # Default grid and worst-case allowance, and the plan's own setting: a grid of every other
+    # sample, the typical slew as the allowance and the airmass slack.
     req = tiny_request(seed)
-    night = _Night(req, PlanOptions())
-    model = build_slot_model(night)
-    result = solve_lexicographic(model, 30.0)
+    slack = 0.15 if coarse else None
+    night = _Night(req, PlanOptions(airmass_slack=slack))
+    step = 2 * (req.slot_unix[1] - req.slot_unix[0]) if coarse else None
+    allowance = typical_slew_s(night, 0.5) if coarse else None
+    model = build_slot_model(night, step, allowance)
+    result = solve_lexicographic(model, 30.0, 500)
     assert result.proven_optimal
     levels = sorted(set(np.asarray(req.priority).tolist()), reverse=True)
     chosen = result.chosen
     counts = [int(np.sum(model.priority[model.var_target[chosen]] == p)) for p in levels]
     value = (*counts, -float(model.var_cost[chosen].sum()))
-    expected = brute_force(req)
+    expected = brute_force(req, 2 if coarse else 1, allowance, slack)
     assert value[:-1] == expected[:-1]
     assert value[-1] == pytest.approx(expected[-1], abs=1e-6)
     greedy = reserve_greedy(model)
     g_counts = [int(np.sum(model.priority[model.var_target[greedy]] == p)) for p in levels]
     assert (*g_counts, -float(model.var_cost[greedy].sum()) - 1e-9) <= expected
+
+
+# -- plan quality: a short early window, the airmass slack -----------------------------------
+
+
+def curve_request(airmass, windows, exposure_s, priority, az_deg, hours, step_s=120.0):
+    """A request from given airmass curves; altitude from airmass = 1 / sin(alt) (sec z)."""
+    slot = T0 + np.arange(0.0, hours * 3600.0 + 0.5, step_s)
+    x = np.array([f((slot - T0) / 3600.0) for f in airmass])
+    alt = np.degrees(np.arcsin(1.0 / x))
+    n = len(airmass)
+    inside = np.zeros(x.shape, bool)
+    for i, a, b in windows:
+        inside[i] |= (slot >= T0 + a * 3600.0) & (slot <= T0 + b * 3600.0)
+    return PlanRequest(
+        slot_unix=slot,
+        win_target=np.array([w[0] for w in windows]),
+        win_start_unix=T0 + 3600.0 * np.array([w[1] for w in windows]),
+        win_end_unix=T0 + 3600.0 * np.array([w[2] for w in windows]),
+        exposure_s=np.asarray(exposure_s, float),
+        repeats=np.ones(n, int),
+        spacing_s=np.zeros(n),
+        priority=np.asarray(priority),
+        best_airmass=np.where(inside, x, np.inf).min(axis=1),
+        sun_flag=np.zeros(n, bool),
+        airmass=x,
+        alt_deg=alt,
+        az_deg=np.repeat(np.asarray(az_deg, float)[:, None], slot.size, axis=1),
+        setup_s=60.0,
+        slew=SlewModel(rate_az_deg_s=2.0, rate_alt_deg_s=2.0, settle_s=10.0),
+    )
+
+
+@pytest.mark.parametrize("slack", [None, 0.15])
+def test_a_short_window_at_dusk_is_placed_when_the_night_has_room(slack):
+    # A low-priority target setting at dusk (a 70-minute window, a 10-minute exposure) among
+    # 40 higher-priority targets that are best at dusk too but stay up all night; they fill
+    # about 5 of the 9 hours, so the plan has hours of idle time and the dusk target fits.
+    # The model is larger than the solver's variable budget, so this also exercises pruning.
+    n = 41
+    rng = np.random.default_rng(5)
+    curves = [lambda h: 1.75 + 0.3 * h]
+    curves += [lambda h, a=a: a + 0.012 * h for a in rng.uniform(1.0, 1.3, n - 1)]
+    windows = [(0, 0.0, 70 / 60)] + [(i, 0.0, 9.0) for i in range(1, n)]
+    exposure = [600.0] + [300.0] * (n - 1)
+    req = curve_request(curves, windows, exposure, [1] + [2] * (n - 1), rng.uniform(0, 360, n), 9.0)
+    opt = PlanOptions(method="optimal", time_limit_s=10.0, airmass_slack=slack)
+    plan = make_plan(req, opt)
+    assert_valid(req, opt, plan)
+    assert len(plan.visits) == n and plan.not_placed == {}
+    assert req.slot_unix[-1] - plan.visits[-1].end_unix > 2 * 3600.0, "the night had room"
+
+
+@pytest.mark.parametrize("method", ["dispatch", "optimal"])
+def test_the_airmass_slack_leaves_out_a_visit_only_possible_at_poor_airmass(method):
+    # Target 0 (top priority) needs 60 of the night's 90 minutes and always covers minutes
+    # 30-60; target 1 (lower priority) is below airmass 1.15 only in minutes 37.5-52.5, so
+    # with a slack of 0.15 it has no place, although the night has room for it elsewhere.
+    # Target 0 has no ceiling: the slack never applies to the top priority.
+    curves = [lambda h: 1.2 + 0.0 * h, lambda h: 1.0 + 1.2 * np.abs(h - 0.75)]
+    windows = [(0, 0.0, 1.5), (1, 0.0, 1.5)]
+    req = curve_request(curves, windows, [3500.0, 300.0], [2, 1], [180.0, 190.0], 1.5, 60.0)
+    slack = PlanOptions(method=method, time_limit_s=10.0, airmass_slack=0.15)
+    plan = make_plan(req, slack)
+    assert_valid(req, slack, plan)
+    assert [v.target for v in plan.visits] == [0]
+    assert plan.not_placed == {1: "poor_airmass"}
+    free = PlanOptions(method=method, time_limit_s=10.0, airmass_slack=None)
+    plan = make_plan(req, free)
+    assert_valid(req, free, plan)
+    assert {v.target for v in plan.visits} == {0, 1}
+    assert max(v.airmass_mid for v in plan.visits if v.target == 1) > 1.15
+
+
+def test_a_negative_airmass_slack_is_an_input_error():
+    req = two_target_night([False, False])
+    with pytest.raises(InputError) as err:
+        make_plan(req, PlanOptions(airmass_slack=-0.1))
+    assert err.value.field == "airmass_slack"

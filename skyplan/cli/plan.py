@@ -38,6 +38,10 @@ def plan_cmd(
     method: str = typer.Option("optimal", "--method", help="optimal (integer program, HiGHS) or "
                                "dispatch (fast greedy)."),
     time_limit: float = typer.Option(5.0, "--time-limit", help="Optimiser time limit, seconds."),
+    airmass_slack: float = typer.Option(
+        0.15, "--airmass-slack", help="Below the top priority, place a visit only at an air mass "
+        "within this fraction of the target's best tonight (0.15 = 15 %); negative turns the rule "
+        "off."),
     priority_cut: int = typer.Option(None, "--priority-cut",
                                      help="Leave out targets with a lower priority."),
     allow_near_sun: bool = typer.Option(False, "--allow-near-sun", help="Allow targets near the "
@@ -81,8 +85,9 @@ def plan_cmd(
     overheads = planning.Overheads(
         default_exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_s=60.0 * spacing,
         slew_az_deg_s=rates[0], slew_alt_deg_s=rates[1], settle_s=settle)
-    options = scheduling.PlanOptions(method=method, time_limit_s=time_limit,
-                                     priority_cut=priority_cut, allow_near_sun=allow_near_sun)
+    options = scheduling.PlanOptions(
+        method=method, time_limit_s=time_limit, priority_cut=priority_cut,
+        allow_near_sun=allow_near_sun, airmass_slack=None if airmass_slack < 0 else airmass_slack)
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         the_site, res, _ident = sky.window_result(catalog, site, sites_file, demo, date,
