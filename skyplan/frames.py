@@ -165,6 +165,14 @@ class Stars:
         )
 
 
+    def cirs(self, astrom) -> tuple[np.ndarray, np.ndarray]:
+        """CIRS RA/Dec (radians) through an ERFA astrom record (ERFA ``eraAtciq``)."""
+        import erfa
+
+        ri, di = erfa.atciq(self.ra_rad, self.dec_rad, self.pmr_radyr, self.pmd_radyr,
+                            self.px_arcsec, self.rv_kms, astrom)
+        return np.asarray(ri), np.asarray(di)
+
 def cirs_place(stars: Stars, unix: float) -> tuple[np.ndarray, np.ndarray, float]:
     """Geocentric CIRS place of the stars at one instant, and the equation of the origins.
 
@@ -175,15 +183,7 @@ def cirs_place(stars: Stars, unix: float) -> tuple[np.ndarray, np.ndarray, float
 
     jd1, jd2 = timescales.jd_tt(np.asarray(unix, dtype=float))
     astrom, eo = erfa.apci13(jd1, jd2)
-    ri, di = erfa.atciq(
-        stars.ra_rad,
-        stars.dec_rad,
-        stars.pmr_radyr,
-        stars.pmd_radyr,
-        stars.px_arcsec,
-        stars.rv_kms,
-        astrom,
-    )
+    ri, di = stars.cirs(astrom)
     return np.asarray(ri), np.asarray(di), float(eo)
 
 
@@ -284,18 +284,9 @@ def era_local(unix, f: SiteFrame) -> np.ndarray:
 
 def horizon_place(stars: Stars, lat_deg, lon_deg, elevation_m, unix: float):
     """Topocentric altitude/azimuth (degrees, unrefracted) and hour angle (hours) at one instant."""
-    import erfa
 
     f = site_frame(lat_deg, lon_deg, elevation_m, unix)
-    ri, di = erfa.atciq(
-        stars.ra_rad,
-        stars.dec_rad,
-        stars.pmr_radyr,
-        stars.pmd_radyr,
-        stars.px_arcsec,
-        stars.rv_kms,
-        f.astrom,
-    )
+    ri, di = stars.cirs(f.astrom)
     alt, az, ha = cirs_to_horizon(np.asarray(ri), np.asarray(di), era_local(unix, f), f)
     return np.degrees(alt), np.degrees(az), (np.degrees(ha) / 15.0 + 12.0) % 24.0 - 12.0
 

@@ -1,13 +1,20 @@
 """The ``skyplan`` command: a thin typer layer over the engine.
 
 Commands parse options, call the engine and hand results to a renderer; no astronomy here.
-Every error reaches the user as one line on stderr with a documented exit status.
+Every error reaches the user as one line on stderr, starting ``skyplan:``, with a documented
+exit status (``skyplan/errors.py``; the list with examples is ``docs/errors.md``).  Notices
+from the engine follow the result as ``skyplan: note: ...`` lines, and so does any warning a
+library raises that was not handled where it arose: nothing else is ever written to stderr.
 """
 
 from __future__ import annotations
 
 import os
+import re
+import signal
 import sys
+import threading
+import warnings
 
 import typer
 
@@ -25,6 +32,18 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
     pretty_exceptions_enable=False,
 )
+
+MAX_LINE_CHARS = 600  # a message longer than this is cut (it would not be read anyway)
+# Characters that could move the cursor or change the terminal: C0/C1 controls, line and
+# paragraph separators, bidirectional overrides.  Shown as escapes instead.
+_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+
+
+class Terminated(BaseException):
+    """SIGTERM arrived (a cron time-out, a shutdown): unwind, clean up, exit 143.
+
+    A BaseException, so that no ``except Exception`` in the engine mistakes it for a fault.
+    """
 
 
 def _version(value: bool) -> None:
@@ -59,67 +78,118 @@ def _click_module():
         return click
 
 
+def plain_line(text: str) -> str:
+    """One printable line: white space runs folded, control characters escaped, length cut."""
+    folded = " ".join(str(text).split())
+    shown = _UNPRINTABLE.sub(lambda m: repr(m.group())[1:-1], folded)
+    if len(shown) > MAX_LINE_CHARS:
+        shown = shown[: MAX_LINE_CHARS - 1] + "…"
+    return shown
+
+
+def _say(line: str) -> None:
+    try:
+        sys.stderr.write(f"skyplan: {plain_line(line)}\n")
+        sys.stderr.flush()
+    except (OSError, ValueError, AttributeError):
+        pass  # stderr closed: the exit status still tells
+
+
 def _fail(message: str, status: int) -> None:
-    sys.stderr.write(f"skyplan: {message}\n")
-    sys.stderr.flush()
+    _say(message)
     raise SystemExit(status)
+
+
+def _on_sigterm(signum, frame) -> None:
+    raise Terminated()
+
+
+class _SignalGuard:
+    """Turn SIGTERM into :class:`Terminated` for the length of one run (main thread only)."""
+
+    def __enter__(self) -> _SignalGuard:
+        self.previous = None
+        if threading.current_thread() is threading.main_thread():
+            self.previous = signal.signal(signal.SIGTERM, _on_sigterm)
+        return self
+
+    def __exit__(self, *exc) -> bool:
+        if self.previous is not None:
+            signal.signal(signal.SIGTERM, self.previous)
+        return False
 
 
 def main(argv: list[str] | None = None) -> None:
     """Run the CLI; map every error to one line and an exit status."""
     from skyplan import errors, notices
+    from skyplan.cli import common
 
     click = _click_module()
-
     _register()
+    notices.take()  # a fresh run: nothing left over from an earlier call in this process
+    common.reset_run_options()
     debug = os.environ.get("SKYPLAN_DEBUG") == "1"
-    status = 0
-    try:
-        result = app(args=argv, standalone_mode=False, prog_name="skyplan")
-        status = result if isinstance(result, int) else 0
-    except errors.SkyplanError as exc:
-        if debug:
-            raise
-        _print_notices(notices.take())
-        _fail(exc.one_line(), exc.exit_status)
-    except typer.Exit as exc:
-        status = exc.exit_code
-    except typer.Abort:
-        _fail("interrupted", 130)
-    except click.exceptions.UsageError as exc:
-        if type(exc).__name__ == "NoArgsIsHelpError":
-            sys.stderr.write(exc.ctx.get_help() + "\n" if exc.ctx else "")
-            raise SystemExit(errors.EXIT_OK) from None
-        hint = (
-            f" (see 'skyplan {exc.ctx.command_path.split(' ', 1)[1]} --help')"
-            if (exc.ctx and " " in exc.ctx.command_path)
-            else " (see 'skyplan --help')"
-        )
-        _fail(" ".join(exc.format_message().split()) + hint, errors.EXIT_BAD_INPUT)
-    except click.exceptions.ClickException as exc:
-        _fail(" ".join(exc.format_message().split()), errors.EXIT_BAD_INPUT)
-    except KeyboardInterrupt:
-        _fail("interrupted", 130)
-    except BrokenPipeError:
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
-        raise SystemExit(errors.EXIT_FAILURE) from None
-    except MemoryError:
-        _fail("out of memory; try a smaller catalogue or the --chunk option", errors.EXIT_FAILURE)
-    except Exception as exc:  # a bug: still one line, never a traceback unless asked
-        if debug:
-            raise
-        _fail(
-            f"internal error ({type(exc).__name__}: {exc}); please report it "
-            "(set SKYPLAN_DEBUG=1 to see the traceback)",
-            errors.EXIT_FAILURE,
-        )
-    _print_notices(notices.take())
+    status = errors.EXIT_OK
+    with _SignalGuard(), warnings.catch_warnings(record=True) as caught:
+        try:
+            result = app(args=argv, standalone_mode=False, prog_name="skyplan")
+            status = result if isinstance(result, int) else errors.EXIT_OK
+        except errors.SkyplanError as exc:
+            if debug:
+                raise
+            _print_notices(notices.take(), caught)
+            _fail(exc.one_line(), exc.exit_status)
+        except typer.Exit as exc:
+            status = exc.exit_code
+        except typer.Abort:
+            _fail("interrupted", errors.EXIT_INTERRUPTED)
+        except click.exceptions.UsageError as exc:
+            if type(exc).__name__ == "NoArgsIsHelpError":
+                _print_help(exc)
+                raise SystemExit(errors.EXIT_OK) from None
+            where = exc.ctx.command_path.split(" ", 1) if exc.ctx else []
+            hint = f"see 'skyplan {where[1]} --help'" if len(where) > 1 else "see 'skyplan --help'"
+            _fail(f"{exc.format_message()} ({hint})", errors.EXIT_BAD_INPUT)
+        except click.exceptions.ClickException as exc:
+            _fail(exc.format_message(), errors.EXIT_BAD_INPUT)
+        except KeyboardInterrupt:
+            _fail("interrupted", errors.EXIT_INTERRUPTED)
+        except Terminated:
+            _fail("terminated (SIGTERM); no output was written", errors.EXIT_TERMINATED)
+        except MemoryError:
+            _fail("out of memory; split the catalogue into smaller files", errors.EXIT_FAILURE)
+        except Exception as exc:  # a bug: still one line, never a traceback unless asked
+            if debug:
+                raise
+            _fail(
+                f"internal error ({type(exc).__name__}: {exc}); please report it "
+                "(set SKYPLAN_DEBUG=1 to see the traceback)",
+                errors.EXIT_FAILURE,
+            )
+    if status == errors.EXIT_INTERRUPTED:  # click turns Ctrl-C into a bare status 130
+        _fail("interrupted", errors.EXIT_INTERRUPTED)
+    _print_notices(notices.take(), caught)
     raise SystemExit(status)
 
 
-def _print_notices(lines: list[str]) -> None:
-    if os.environ.get("SKYPLAN_QUIET") == "1":
+def _print_help(exc) -> None:
+    """A command given without arguments shows its help on stdout, as ``--help`` does."""
+    if exc.ctx is not None:
+        sys.stdout.write(exc.ctx.get_help() + "\n")
+        sys.stdout.flush()
+
+
+def _print_notices(lines: list[str], caught: list[warnings.WarningMessage]) -> None:
+    """Notices, then any library warning nobody handled, each as one ``note`` line."""
+    from skyplan.cli import common
+
+    for warning in caught:
+        lines.append(f"{warning.category.__name__}: {warning.message}")
+    if common.quiet_run():
         return
+    seen = set()
     for line in lines:
-        sys.stderr.write(f"skyplan: note: {line}\n")
+        shown = plain_line(line)
+        if shown not in seen:
+            seen.add(shown)
+            _say(f"note: {shown}")

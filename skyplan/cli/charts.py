@@ -47,14 +47,6 @@ def _chart_path(out: str) -> Path:
     return path
 
 
-def _limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
-                no_horizon_profile, airmass_model, refraction) -> dict:
-    return dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
-                sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
-                no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                refraction_model=refraction)
-
-
 def _catalogue(catalog, demo, skip_bad, elements):
     """(TargetSet, priorities, orbits) from a catalogue file or the demo programme."""
     from skyplan import scenario, targets
@@ -122,7 +114,7 @@ def sky_chart(
     if not 100 <= size <= MAX_SIZE_PX:
         raise InputError(f"{size} px must be from 100 to {MAX_SIZE_PX}", field="--size")
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits.build_limits(the_site.limits, **_limit_args(
+    lim = limits.build_limits(the_site.limits, **sky_cmds.limit_args(
         min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
         no_horizon_profile, airmass_model, refraction))
     if at is None and demo:
@@ -175,7 +167,7 @@ def altitude_chart(
     common.set_quiet(quiet)
     path = _chart_path(out)
     width, height = _size_pair(size)
-    limit_args = _limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+    limit_args = sky_cmds.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                              dec_range, between, no_horizon_profile, airmass_model, refraction)
     if plan is not None:
         if catalog is not None or date is not None or elements:

@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import errno
+import io
 import os
 import sys
 from pathlib import Path
 
 import typer
 
-from skyplan.errors import InputError
+from skyplan.errors import InputError, OutputError
 
 SITE_HELP = (
     "Site: LAT,LON[,ELEV_M] in degrees (east-positive longitude) and metres, or a NAME from "
@@ -53,18 +55,67 @@ def is_terminal() -> bool:
 
 
 def emit(data: bytes | str, out: str | None) -> None:
-    """Write the result to stdout, or atomically to ``out``."""
+    """Write the result to stdout, or atomically to ``out``, exactly where named.
+
+    A reader that closes the pipe early (``| head``) or a closed stdout is an
+    :class:`OutputError` (status 4): the result was not delivered whole.
+    """
     from skyplan.output import write_atomic
 
     raw = data.encode() if isinstance(data, str) else data
-    if out:
+    if out is not None:
+        if not out.strip() or "\x00" in out:
+            raise InputError(f"{out!r} is not a usable file name", field="--out")
         write_atomic(Path(out), raw)
-    else:
-        sys.stdout.buffer.write(raw)
-        sys.stdout.flush()
+        return
+    if sys.stdout is None:
+        raise OutputError("standard output is closed; name a file with --out")
+    try:
+        _write_stdout(raw)
+    except BrokenPipeError:
+        _detach_stdout()
+        raise OutputError("the reader closed the pipe before the whole result was written") \
+            from None
+    except OSError as exc:
+        _detach_stdout()
+        raise OutputError(f"cannot write to standard output ({exc.strerror or exc})") from None
 
 
-def console(quiet: bool = False):
+def _write_stdout(raw: bytes) -> None:
+    """Every byte to stdout, or an OSError.
+
+    A buffered write to a pipe whose reader has gone can report a short count instead of
+    raising; writing to the descriptor directly and checking each count leaves no gap.
+    """
+    from skyplan.output import write_all
+
+    sys.stdout.flush()
+    stream = sys.stdout.buffer
+    try:
+        fd = stream.fileno()
+    except (AttributeError, OSError, ValueError, io.UnsupportedOperation):
+        fd = None
+    if fd is None:  # an in-memory stream
+        written = stream.write(raw)
+        stream.flush()
+        if written is not None and written != len(raw):
+            raise BrokenPipeError(errno.EPIPE, "short write")
+        return
+    stream.flush()
+    write_all(fd, raw)
+
+
+def _detach_stdout() -> None:
+    """Point file descriptor 1 at the null device, so that the final flush stays quiet."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass  # an in-memory stdout (tests) has no descriptor
+
+
+def console():
     """A rich console on stdout: colour only on a terminal, plain text otherwise."""
     from rich.console import Console
 
@@ -74,10 +125,23 @@ def console(quiet: bool = False):
         no_color=not tty or "NO_COLOR" in os.environ,
         highlight=False,
         width=None if tty else 160,
-        quiet=quiet and False,
     )
 
 
+_run = {"quiet": False}
+
+
+def reset_run_options() -> None:
+    """Forget the options of an earlier run in this process (``main`` may be called again)."""
+    _run["quiet"] = False
+
+
 def set_quiet(quiet: bool) -> None:
+    """``--quiet``: print no notes after the result, for this run only."""
     if quiet:
-        os.environ["SKYPLAN_QUIET"] = "1"
+        _run["quiet"] = True
+
+
+def quiet_run() -> bool:
+    """Whether notes are off: ``--quiet`` on this run, or SKYPLAN_QUIET=1 in the environment."""
+    return _run["quiet"] or os.environ.get("SKYPLAN_QUIET") == "1"

@@ -78,10 +78,8 @@ def plan_cmd(
         raise InputError("the default exposure must be positive", field="--exposure")
     if not 1 <= repeats <= 100:
         raise InputError(f"{repeats} repeats: use 1 to 100", field="--repeats")
-    limit_args = dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
-                      sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
-                      no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                      refraction_model=refraction)
+    limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+                               dec_range, between, no_horizon_profile, airmass_model, refraction)
     overheads = planning.Overheads(
         default_exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_s=60.0 * spacing,
         slew_az_deg_s=rates[0], slew_alt_deg_s=rates[1], settle_s=settle)
@@ -91,7 +89,7 @@ def plan_cmd(
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         the_site, res, _ident = sky.window_result(catalog, site, sites_file, demo, date,
-                                                  skip_bad, elements, limit_args)
+                                                  skip_bad, elements, limits_kw)
         step("scheduling")
         cat = _catalog_columns(catalog, demo, skip_bad)
         plan = planning.make_night_plan(res, cat[0], cat[1], overheads, options)

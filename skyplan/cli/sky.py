@@ -27,6 +27,15 @@ Refraction = typer.Option("bennett", "--refraction",
                           "(A tan z + B tan³ z).")
 
 
+def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
+               no_horizon_profile, airmass_model, refraction) -> dict:
+    """The limit options of a command as keyword arguments of ``limits.build_limits``."""
+    return dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
+                sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
+                no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
+                refraction_model=refraction)
+
+
 def night_of(site, date_text, demo):
     from skyplan import ephemeris, night, scenario, timeinput
 
@@ -80,11 +89,11 @@ def load_targets(catalog, demo, skip_bad, elements=None):
     return targets.target_set(cat, orbits=orbits, source=catalog)
 
 
-def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limit_args):
+def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw):
     from skyplan import limits, windows
 
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits.build_limits(the_site.limits, **limit_args)
+    lim = limits.build_limits(the_site.limits, **limits_kw)
     n = night_of(the_site, date, demo)
     tset, ident = load_targets(catalog, demo, skip_bad, elements)
     return the_site, windows.compute_windows(tset, the_site, n, lim, orbits=_orbits(elements)), \
@@ -132,12 +141,10 @@ def windows_cmd(
 
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
-    limit_args = dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
-                      sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
-                      no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                      refraction_model=refraction)
+    limits_kw = limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
+                           between, no_horizon_profile, airmass_model, refraction)
     the_site, res, ident = window_result(catalog, site, sites_file, demo, date, skip_bad,
-                                         elements, limit_args)
+                                         elements, limits_kw)
     if fmt == "table":
         import numpy as np
 
