@@ -90,6 +90,17 @@ class Night:
         """Intervals of the span with the Sun below ``sun_alt_deg`` (from the sampled track)."""
         return _below(self, sun_alt_deg)
 
+    def moon_altitudes(self, step_s: float = 3600.0) -> tuple[np.ndarray, np.ndarray]:
+        """The Moon's altitude (degrees, unrefracted) on the whole hours of local clock time
+        from sunset to sunrise (or across the span when the Sun does not set)."""
+        start = self.sunset if self.sunset is not None else self.span_start
+        end = self.sunrise if self.sunrise is not None else self.span_end
+        if end <= start:
+            start, end = self.span_start, self.span_end
+        first = np.ceil((start - self.local_midnight) / step_s) * step_s + self.local_midnight
+        t = np.arange(first, end, step_s)
+        return t, self.track.moon_alt(t)
+
     @property
     def dark_hours(self) -> float:
         """Hours with the Sun below −18° in the span."""

@@ -31,7 +31,7 @@ def night_record(n, site) -> dict:
             "phase_angle_deg": round(n.moon.phase_angle_deg, 3),
             "waxing": n.moon.waxing,
             "altitude": [{"time": iso_utc(t), "alt_deg": round(float(a), 2)}
-                         for t, a in zip(n.track.t[::3], n.track.moon_alt_deg[::3])],
+                         for t, a in zip(*n.moon_altitudes())],
         },
         "lst_deg": {k: None if v is None else round(v, 5) for k, v in n.lst_deg.items()},
     }
@@ -80,4 +80,11 @@ def night_table(n, site):
     alt = "" if m.transit_alt_deg is None else f"altitude {m.transit_alt_deg:.1f}°"
     t.add_row("Moon transit", *_both(m.transit, zone), alt)
     t.add_row("moonset", *_both(m.set, zone), f"phase angle {m.phase_angle_deg:.1f}°")
+    hours, alts = n.moon_altitudes()
+    if len(hours):
+        import datetime as dt
+
+        strip = "  ".join(f"{dt.datetime.fromtimestamp(h, zone):%H}h {a:+.0f}°"
+                          for h, a in zip(hours, alts))
+        t.add_row("Moon altitude", "", "", strip)
     return t
