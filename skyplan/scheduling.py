@@ -39,9 +39,10 @@ How a plan is made:
    up at the same time (:func:`typical_slew_s`); the forward pass absorbs the rarer longer
    slews.  ``"dispatch"`` reserves greedily, in priority order, each visit at its cheapest
    free start; ``"optimal"`` takes the reservations from a lexicographic integer program
-   (HiGHS) over a pruned model that always contains two greedy solutions, the priority-
-   ordered one and one taking the most constrained targets first (so a target with a short
-   window at dusk is not crowded out by targets that could go later).
+   (HiGHS; the top priority's airmass is settled before the lower counts, see
+   :mod:`skyplan.optimise`) over a pruned model that always contains two greedy solutions,
+   the priority-ordered one and one taking the most constrained targets first (so a target
+   with a short window at dusk is not crowded out by targets that could go later).
 2. A forward pass (:func:`_forward`) walks the night with the actual slews.  A reserved visit
    starts at its slot, up to one block earlier when the telescope would otherwise stand idle,
    or later when the previous visit overran; a reservation that no longer fits its window
@@ -51,11 +52,11 @@ How a plan is made:
    lowest airmass.
 
 ``"optimal"`` keeps the dispatch plan, with a notice, when the solver finds nothing or its plan
-ranks lower once realised.  Measured with ``benchmarks/bench_scheduling.py`` (2 CPUs, shared;
-10 synthetic 200-target nights, slack 0.15): excess 5.2 % (dispatch 4.3 %), the optimised plan
-kept on 8 of 10 nights, 1.1 s CPU per plan (max 1.3 s).  The optimiser places more visits,
-and strict priority order then pushes top-priority visits off their best airmass (top-priority
-excess 8.0 %, dispatch 2.8 %).  Without the slack: 12.0 % (dispatch 11.1 %).
+ranks lower once realised (by the quality above).  Measured with
+``benchmarks/bench_scheduling.py`` (2 CPUs, shared; 10 synthetic 200-target nights, slack
+0.15): excess 4.5 %, top priority 2.9 % (dispatch 4.3 % and 2.8 %), the optimised plan kept on
+6 of 10 nights, 1.2 s CPU per plan (max 1.5 s).  Without the slack: 11.4 %, top priority
+2.9 % (dispatch 11.1 % and 2.9 %).
 """
 
 from __future__ import annotations
@@ -86,7 +87,7 @@ _ALLOWANCE_QUANTILE = 0.5
 _SWEEPS = 3
 _NODE_LIMIT = 500
 # Variables handed to the solver (measured on the synthetic 200-target nights, 4-minute grid:
-# 1.1 s of CPU per plan on average, 1.3 s at most).
+# 1.2 s of CPU per plan on average, 1.5 s at most).
 _MAX_VARS = 1500
 
 
@@ -200,9 +201,9 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     """Plan one night: choose the visits and their times.
 
     Deterministic for the same inputs while every solver stage ends by optimality or by its
-    node limit (every stage of the benchmark nights ends at the root node); a stage stopped by
-    the time limit, the backstop, returns the best found by then, which depends on the
-    machine's speed.
+    node limit (most stages of the benchmark nights end at the root node); a stage stopped by
+    the time limit, the backstop (on some benchmark nights the last stage, at the default
+    2 s), returns the best found by then, which depends on the machine's speed and load.
     """
     options = options or PlanOptions()
     if options.method not in METHODS:

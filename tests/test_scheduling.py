@@ -22,7 +22,12 @@ import pytest
 
 from skyplan import notices
 from skyplan.errors import InputError
-from skyplan.optimise import build_slot_model, reserve_greedy, solve_lexicographic
+from skyplan.optimise import (
+    TOP_EXCESS_TOLERANCE,
+    build_slot_model,
+    reserve_greedy,
+    solve_lexicographic,
+)
 from skyplan.scheduling import (
     REASONS,
     PlanOptions,
@@ -161,13 +166,7 @@ def assert_valid(req: PlanRequest, opt: PlanOptions, plan) -> None:
     if opt.airmass_slack is not None and plan.visits:
         # The slack rule: below the top priority of the targets that could be placed, a visit's
         # airmass is at most best * (1 + slack).
-        work = req.slew.settle_s + req.setup_s + np.asarray(req.exposure_s)
-        room = np.zeros(n, bool)
-        room[wt[we - ws >= work[wt] - EPS]] = True
-        allowed = room & (opt.allow_near_sun | ~np.asarray(req.sun_flag, bool))
-        if opt.priority_cut is not None:
-            allowed &= np.asarray(req.priority) >= opt.priority_cut
-        top = np.max(np.asarray(req.priority)[allowed])
+        top = top_priority(req, opt)
         for v in plan.visits:
             if req.priority[v.target] < top:
                 ceiling = req.best_airmass[v.target] * (1 + opt.airmass_slack)
@@ -180,6 +179,20 @@ def assert_valid(req: PlanRequest, opt: PlanOptions, plan) -> None:
     assert set(plan.not_placed) == set(range(n)) - set(starts)
     assert set(plan.not_placed.values()) <= set(REASONS)
     assert plan.metrics.placed == len(starts)
+
+
+def top_priority(req: PlanRequest, opt: PlanOptions) -> int:
+    """The highest priority of the targets that could be placed (a window long enough, allowed)."""
+    wt = np.asarray(req.win_target)
+    ws = np.maximum(req.win_start_unix, req.slot_unix[0])
+    we = np.minimum(req.win_end_unix, req.slot_unix[-1])
+    work = req.slew.settle_s + req.setup_s + np.asarray(req.exposure_s)
+    allowed = np.zeros(len(req.exposure_s), bool)
+    allowed[wt[we - ws >= work[wt] - EPS]] = True
+    allowed &= opt.allow_near_sun | ~np.asarray(req.sun_flag, bool)
+    if opt.priority_cut is not None:
+        allowed &= np.asarray(req.priority) >= opt.priority_cut
+    return int(np.max(np.asarray(req.priority)[allowed]))
 
 
 def lex_value(req, visits):
@@ -366,14 +379,19 @@ def test_solver_report_when_given_time():
 
 
 def brute_force(req, stride=1, allowance=None, slack=None):
-    """Best lexicographic value over every feasible set of starts, by enumeration.
+    """Best value over every feasible set of starts, by enumeration: ``(top count, top excess,
+    (visits per lower priority, highest first), -total excess)``.
 
     The slot model from its definition: the grid is every ``stride``-th sample; a visit
     starting at slot s covers ceil((allowance + setup + exposure) / step) slots (settle
     instead of the allowance at slot 0; the allowance is the longest slew unless given), must
     lie inside one window, and costs the airmass at mid-exposure (slew = allowance) minus the
     best airmass.  With a slack, targets below the top priority keep only the starts whose
-    airmass is at most best * (1 + slack).
+    airmass is at most best * (1 + slack).  The priorities ranked are those of the targets
+    with at least one start, highest first.  The order, as the optimiser defines it: the most
+    top-priority visits; among those sets the least top-priority excess E; then, over the sets
+    with that count and a top-priority excess <= E + tolerance * count, the most visits per
+    lower priority, then the least total excess.
     """
     slot = np.asarray(req.slot_unix)[::stride]
     step = (req.slot_unix[-1] - req.slot_unix[0]) / (len(req.slot_unix) - 1) * stride
@@ -407,8 +425,8 @@ def brute_force(req, stride=1, allowance=None, slack=None):
                 if all(b[0] - a[0] >= max(sp, 1) for a, b in itertools.pairwise(combo)):
                     choices.append(combo)
         options.append(choices)
-    levels = sorted(set(np.asarray(req.priority).tolist()), reverse=True)
-    best = None
+    levels = sorted({int(req.priority[i]) for i, c in enumerate(options) if len(c) > 1})[::-1]
+    sets = []  # (top count, top excess, lower counts, total excess) of every feasible set
     for pick in itertools.product(*options):
         used, clash = 0, False
         for combo in pick:
@@ -419,10 +437,14 @@ def brute_force(req, stride=1, allowance=None, slack=None):
         if clash:
             continue
         counts = [sum(len(c) for i, c in enumerate(pick) if req.priority[i] == p) for p in levels]
-        value = (*counts, -sum(cost for c in pick for _, _, cost in c))
-        if best is None or value > best:
-            best = value
-    return best
+        top = sum(c[-1] for i, cs in enumerate(pick) if req.priority[i] == levels[0] for c in cs)
+        total = sum(cost for c in pick for *_, cost in c)
+        sets.append((counts[0], top, tuple(counts[1:]), total))
+    most = max(v[0] for v in sets)
+    least = min(v[1] for v in sets if v[0] == most)
+    allowed = [v for v in sets if v[0] == most and v[1] <= least + TOP_EXCESS_TOLERANCE * most]
+    lower, total = max((v[2], -v[3]) for v in allowed)
+    return most, least, lower, -total
 
 
 def tiny_request(seed):
@@ -469,16 +491,20 @@ def test_optimiser_matches_brute_force_on_tiny_problems(seed, coarse):
     model = build_slot_model(night, step, allowance)
     result = solve_lexicographic(model, 30.0, 500)
     assert result.proven_optimal
-    levels = sorted(set(np.asarray(req.priority).tolist()), reverse=True)
+    most, least, lower, total = brute_force(req, 2 if coarse else 1, allowance, slack)
+    levels = np.unique(model.priority[model.var_target])[::-1]
     chosen = result.chosen
-    counts = [int(np.sum(model.priority[model.var_target[chosen]] == p)) for p in levels]
-    value = (*counts, -float(model.var_cost[chosen].sum()))
-    expected = brute_force(req, 2 if coarse else 1, allowance, slack)
-    assert value[:-1] == expected[:-1]
-    assert value[-1] == pytest.approx(expected[-1], abs=1e-6)
+    priority, cost = model.priority[model.var_target[chosen]], model.var_cost[chosen]
+    top = priority == levels[0]
+    assert top.sum() == most, "top-priority visits"
+    assert cost[top].sum() <= least + TOP_EXCESS_TOLERANCE * most + 1e-6, "top-priority excess"
+    assert tuple(int(np.sum(priority == p)) for p in levels[1:]) == lower, "lower visits"
+    assert cost.sum() == pytest.approx(total, abs=1e-6), "total airmass excess"
+    # The greedy reservation has no more top-priority visits, and with as many, no less excess.
     greedy = reserve_greedy(model)
-    g_counts = [int(np.sum(model.priority[model.var_target[greedy]] == p)) for p in levels]
-    assert (*g_counts, -float(model.var_cost[greedy].sum()) - 1e-9) <= expected
+    g_top = model.priority[model.var_target[greedy]] == levels[0]
+    assert g_top.sum() <= most
+    assert g_top.sum() < most or model.var_cost[greedy][g_top].sum() >= least - 1e-9
 
 
 # -- plan quality: a short early window, the airmass slack -----------------------------------
