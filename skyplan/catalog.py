@@ -69,7 +69,6 @@ from skyplan.errors import InputError, InputErrors
 MAX_FIELD_CHARS = 1000  # longer fields are refused (per row)
 MAX_ROWS = 5_000_000  # more data rows than this refuses the whole file
 MAX_FILE_BYTES = 1 << 30  # larger text files are refused before reading
-XML_SNIFF_BYTES = 64 * 1024  # how much of an XML file is checked for DOCTYPE/ENTITY
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)
 EPOCH_RANGE_JYEAR = (1000.0, 3000.0)  # accepted Julian epoch years, inclusive
@@ -108,7 +107,6 @@ _UNITS = {
 # and tab included), line/paragraph separators and bidirectional overrides.
 _UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
 _BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
-_XML_DECLARATIONS = re.compile(rb"<!\s*(doctype|entity)", re.IGNORECASE)
 
 _DELIMITED = {".csv": ",", ".tsv": "\t", ".txt": None}
 _ASTROPY = {
@@ -248,16 +246,28 @@ def _read_text(path: Path, source: str) -> str:
     except OSError as exc:
         raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from exc
     try:
-        return data.decode("utf-8-sig")
+        text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
         column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        if exc.reason == "unexpected end of data":
+            raise InputError(
+                f"the file ends inside a UTF-8 character (column {column}): it was cut short",
+                file=source,
+                line=line,
+            ) from None
         raise InputError(
             f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
             "save the file as UTF-8",
             file=source,
             line=line,
         ) from None
+    if text.strip() and not text.endswith(("\n", "\r")):
+        notices.add(
+            f"{source}: the file does not end with a line break; if it was cut short, its "
+            f"last row (line {text.count(chr(10)) + 1}) is incomplete"
+        )
+    return text
 
 
 def _is_content(line: str, blank_chars: str) -> bool:
@@ -499,17 +509,47 @@ def _columns_from_grid(source: str, grid: _Grid) -> _Columns:
 # Formats read by astropy
 
 
+class _Prolog(Exception):
+    """Raised by the pre-scan of an XML file: ``refused`` tells whether a DTD was met."""
+
+    def __init__(self, refused: bool) -> None:
+        self.refused = refused
+
+
 def _refuse_xml_declarations(path: Path, source: str) -> None:
+    """Refuse XML whose prolog holds a document type declaration (where entities live).
+
+    The file is pre-scanned with expat up to its first element, so the check holds whatever
+    the encoding (UTF-8, UTF-16 with its byte-order mark) and however long the comments
+    before it; a DOCTYPE may not follow the root element (XML 1.0, section 2.8).
+    """
+    from xml.parsers import expat
+
+    def met_declaration(*_args) -> None:
+        raise _Prolog(refused=True)
+
+    def met_root(*_args) -> None:
+        raise _Prolog(refused=False)
+
+    parser = expat.ParserCreate()
+    parser.StartDoctypeDeclHandler = met_declaration
+    parser.EntityDeclHandler = met_declaration
+    parser.ExternalEntityRefHandler = met_declaration
+    parser.StartElementHandler = met_root
     try:
         with path.open("rb") as handle:
-            head = handle.read(XML_SNIFF_BYTES)
+            parser.ParseFile(handle)
     except OSError as exc:
         raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from exc
-    if _XML_DECLARATIONS.search(head):
-        raise InputError(
-            "XML with a DOCTYPE or ENTITY declaration is not read; remove the declaration",
-            file=source,
-        )
+    except _Prolog as stop:
+        if stop.refused:
+            raise InputError(
+                "XML with a DOCTYPE or ENTITY declaration is not read; remove the declaration",
+                file=source,
+            ) from None
+    except expat.ExpatError as exc:
+        raise InputError(f"not well-formed XML ({expat.errors.messages[exc.code]})",
+                         file=source, line=exc.lineno) from None
 
 
 def _ecsv_data_lines(path: Path, n_rows: int) -> np.ndarray | None:

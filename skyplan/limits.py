@@ -84,10 +84,17 @@ def _dark(value) -> tuple[float | None, str]:
 def _between(text: str) -> tuple[dt.time, dt.time]:
     try:
         a, b = text.split("-")
-        return dt.time.fromisoformat(a.strip()), dt.time.fromisoformat(b.strip())
+        start, end = dt.time.fromisoformat(a.strip()), dt.time.fromisoformat(b.strip())
     except ValueError:
         raise InputError(f"cannot read {text!r} as a local clock range like 20:00-02:30",
                          field="--between") from None
+    if start.tzinfo is not None or end.tzinfo is not None:
+        raise InputError(f"{text!r}: give local clock times without an offset",
+                         field="--between")
+    if start == end:
+        raise InputError(f"{text!r} starts and ends at the same time; leave --between out "
+                         "for the whole night", field="--between")
+    return start, end
 
 
 def build_limits(site_limits: dict, *, min_alt=None, max_airmass=None, dark=None,

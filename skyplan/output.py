@@ -1,34 +1,106 @@
-"""Writing results to files atomically, so cron jobs never leave half a file."""
+"""Writing results to files atomically, so cron jobs never leave half a file.
+
+The result goes to a temporary file in the same folder (``.NAME.XXXXXXXX.part``), is flushed
+to the disk, and is then renamed over the name asked for (POSIX ``rename`` replaces the
+old file in one step).  A run that is killed at any moment leaves either the old file or the
+new one under that name, never a mixture; at worst a ``.part`` file is left beside it.
+
+The file is written exactly where named: no folder is created, no suffix added, ``~`` is
+not expanded.  Two cases are not plain files and are written in place instead:
+
+* a symbolic link: the file it points to is replaced (atomically), and the link is kept;
+* a character device or a named pipe (``/dev/stdout``, ``/dev/null``, a FIFO): written
+  directly, as a stream cannot be renamed over.
+"""
 
 from __future__ import annotations
 
 import errno
 import os
+import stat
 import tempfile
 from pathlib import Path
 
 from skyplan.errors import OutputError
+
+WRITE_CHUNK_BYTES = 1 << 20
+TMP_NAME_CHARS = 100  # the temporary name repeats at most this much of the file name
+
+_REASONS = {
+    errno.ENOSPC: "no space left on the device",
+    errno.EACCES: "permission denied",
+    errno.EPERM: "permission denied",
+    errno.EROFS: "read-only file system",
+    errno.EDQUOT: "disk quota exceeded",
+    errno.ENAMETOOLONG: "file name too long",
+    errno.EIO: "input/output error on the device",
+}
+
+
+def _reason(exc: OSError) -> str:
+    return _REASONS.get(exc.errno, exc.strerror or str(exc))
 
 
 def write_atomic(path: str | Path, data: bytes) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
 
     An interrupted run leaves the previous file untouched; the new file appears whole or not
-    at all.  The folder must exist: it is never created behind the user's back.
+    at all.  The folder must exist: it is never created behind the user's back.  Raises
+    :class:`OutputError` with one line saying what is wrong.
     """
-    target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
+    asked = Path(path)
+    try:
+        target = _destination(asked)
+        if target is None:
+            _write_stream(asked, data)
+            return
+        _replace(asked, target, data)
+    except OSError as exc:  # e.g. a name too long to look up
+        raise OutputError(f"{asked}: cannot write ({_reason(exc)})") from None
+    except ValueError as exc:  # e.g. an embedded NUL character in the name
+        raise OutputError(f"{asked}: cannot write ({exc})") from None
+
+
+def _destination(asked: Path) -> Path | None:
+    """The regular file to replace, or None for a device or pipe written as a stream."""
+    target = Path(os.path.realpath(asked)) if asked.is_symlink() else asked
+    try:
+        mode = os.stat(target).st_mode
+    except (FileNotFoundError, NotADirectoryError):
+        mode = None
+    if mode is not None and stat.S_ISDIR(mode):
+        raise OutputError(f"{asked}: is a folder, not a file")
+    if mode is not None and (stat.S_ISCHR(mode) or stat.S_ISFIFO(mode)):
+        return None
+    if mode is not None and not stat.S_ISREG(mode):
+        raise OutputError(f"{asked}: is not a regular file")
+    folder = target.parent
+    if not folder.exists():
+        raise OutputError(f"{asked}: the folder {folder} does not exist")
     if not folder.is_dir():
-        raise OutputError(f"{target}: the folder {folder} does not exist")
-    if target.is_dir():
-        raise OutputError(f"{target}: is a folder, not a file")
+        raise OutputError(f"{asked}: {folder} is not a folder")
+    return target
+
+
+def _write_stream(asked: Path, data: bytes) -> None:
+    try:
+        with open(asked, "wb") as handle:
+            handle.write(data)
+    except OSError as exc:
+        raise OutputError(f"{asked}: cannot write ({_reason(exc)})") from None
+
+
+def _replace(asked: Path, target: Path, data: bytes) -> None:
+    folder = target.parent
     tmp_name = None
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=folder)
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-            handle.flush()
-            os.fsync(handle.fileno())
+        prefix = f".{target.name[:TMP_NAME_CHARS]}."
+        fd, tmp_name = tempfile.mkstemp(prefix=prefix, suffix=".part", dir=folder)
+        try:
+            write_all(fd, data)
+            os.fsync(fd)
+        finally:
+            os.close(fd)
         if target.exists():
             os.chmod(tmp_name, target.stat().st_mode & 0o7777)
         else:
@@ -37,18 +109,36 @@ def write_atomic(path: str | Path, data: bytes) -> None:
             os.chmod(tmp_name, 0o666 & ~umask)
         os.replace(tmp_name, target)
         tmp_name = None
+        _sync_folder(folder)
     except OSError as exc:
-        reason = {
-            errno.ENOSPC: "no space left on the device",
-            errno.EACCES: "permission denied",
-            errno.EPERM: "permission denied",
-            errno.EROFS: "read-only file system",
-            errno.EDQUOT: "disk quota exceeded",
-        }.get(exc.errno, exc.strerror or str(exc))
-        raise OutputError(f"{target}: cannot write ({reason})") from None
+        raise OutputError(f"{asked}: cannot write ({_reason(exc)})") from None
     finally:
         if tmp_name is not None:
             try:
                 os.unlink(tmp_name)
             except OSError:
                 pass
+
+
+def write_all(fd: int, data: bytes) -> None:
+    """``os.write`` until every byte is out (a write may take fewer bytes than offered)."""
+    view = memoryview(data)
+    while view:
+        done = os.write(fd, view[:WRITE_CHUNK_BYTES])
+        if done <= 0:
+            raise OSError(errno.EIO, "the device accepted no bytes")
+        view = view[done:]
+
+
+def _sync_folder(folder: Path) -> None:
+    """Flush the rename itself to the disk (best effort: not every file system allows it)."""
+    try:
+        fd = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)

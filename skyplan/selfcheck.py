@@ -132,7 +132,7 @@ def run() -> SelfcheckReport:
         try:
             results.append(fn())
         except Exception as exc:  # a broken installation must show up as a failed check
-            name = (fn.__doc__ or fn.__name__).strip()
+            name = (fn.__doc__ or fn.__name__.lstrip("_").replace("_", " ")).strip()
             results.append(Check(name, "", "", f"error: {type(exc).__name__}: {exc}", False))
     eo = timescales.earth_orientation()
     return SelfcheckReport(results, ephemeris.EPHEMERIS_NAME,

@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from skyplan import notices
-from skyplan.errors import InputError
+from skyplan.errors import InputError, InputErrors
 
 BODY_NAMES = ("sun", "moon", "mercury", "venus", "mars", "jupiter", "saturn", "uranus",
               "neptune", "pluto")
@@ -26,18 +26,32 @@ def load_catalog(path: str | Path, *, skip_bad: bool = False):
         shown = ", ".join(read.duplicates[:5])
         more = f" and {len(read.duplicates) - 5} more" if len(read.duplicates) > 5 else ""
         notices.add(f"{p}: duplicate target names kept: {shown}{more}")
+    if len(read.catalog) == 0:
+        left = " once the malformed rows are skipped" if read.skipped else ""
+        notices.add(f"{p}: the catalogue holds no targets{left}")
     return read.catalog
 
 
 def positions_from_catalog(cat):
+    """A PositionList from a catalogue; rows with a name only are looked up first.
+
+    Every name that does not resolve, and every Sun, Moon, planet or orbit (they move, and
+    ``convert`` takes fixed targets), is an error naming its line.
+    """
     from skyplan.conversion import PositionList
 
-    n = len(cat)
+    tset, ident = target_set(cat)
+    moving = np.flatnonzero(tset.body != "")
+    if moving.size:
+        problems = [InputError(f"{cat.name[i]!r} moves: convert takes fixed targets; use "
+                               "'skyplan windows' or 'skyplan find' for it", file=cat.source,
+                               line=int(cat.line[i]), field="name") for i in moving]
+        raise InputErrors(problems) if len(problems) > 1 else problems[0]
     return PositionList(
-        names=cat.name, lon_deg=cat.ra_deg, lat_deg=cat.dec_deg, pm_ra_masyr=cat.pm_ra_masyr,
-        pm_dec_masyr=cat.pm_dec_masyr, parallax_mas=cat.parallax_mas,
-        rv_kms=cat.radial_velocity_kms, epoch_jyear=cat.epoch_jyear,
-        identifiers=np.full(n, "", dtype=object),
+        names=cat.name, lon_deg=tset.ra_deg, lat_deg=tset.dec_deg,
+        pm_ra_masyr=tset.pm_ra_masyr, pm_dec_masyr=tset.pm_dec_masyr,
+        parallax_mas=tset.parallax_mas, rv_kms=tset.rv_kms, epoch_jyear=tset.epoch_jyear,
+        identifiers=ident,
     )
 
 
@@ -123,7 +137,6 @@ def target_set(cat, *, orbits=(), source: str | None = None):
     Returns (TargetSet, identifiers) where identifiers holds the catalogue identifier of each
     resolved row ("" for rows given with coordinates).
     """
-    from skyplan.errors import InputErrors
     from skyplan.windows import TargetSet
 
     n = len(cat)

@@ -15,9 +15,16 @@ night is used: before local noon that is the night that began the previous eveni
 from __future__ import annotations
 
 import datetime as dt
+import re
 from zoneinfo import ZoneInfo
 
+from skyplan import notices
+from skyplan.ephemeris import EPHEMERIS_FIRST, EPHEMERIS_LAST, EPHEMERIS_NAME
 from skyplan.errors import InputError
+
+_OUTSIDE = (f"outside the span of the bundled {EPHEMERIS_NAME} ephemeris "
+            f"({EPHEMERIS_FIRST} to {EPHEMERIS_LAST})")
+_LEAP_SECOND = re.compile(r"T\d\d:\d\d:60(?:[.,]\d+)?(?:[+-]|$)")
 
 
 def _now() -> dt.datetime:
@@ -35,18 +42,31 @@ def parse_instant(text: str, zone: ZoneInfo, *, field: str = "--at") -> float:
     try:
         when = dt.datetime.fromisoformat(candidate)
     except ValueError:
+        if _LEAP_SECOND.search(candidate):
+            raise InputError(
+                f"{text!r} names a leap second (second 60), which POSIX time cannot hold; "
+                "give 23:59:59.999 or the following 00:00:00",
+                field=field,
+            ) from None
         raise InputError(
             f"cannot read {text!r} as a time; use ISO 8601 such as 2026-12-01T21:30:00Z, "
             "2026-12-01T21:30+01:00, a bare local 2026-12-01T21:30, or 'now'",
             field=field,
         ) from None
-    if when.tzinfo is None:
-        when = _resolve_local(when, zone, field)
-    return when.timestamp()
+    try:
+        if when.tzinfo is None:
+            when = _resolve_local(when, zone, field)
+        return when.timestamp()
+    except (OverflowError, ValueError):
+        raise InputError(f"{text!r} is {_OUTSIDE}", field=field) from None
 
 
 def _resolve_local(naive: dt.datetime, zone: ZoneInfo, field: str) -> dt.datetime:
-    """Attach the zone; refuse local times skipped by a daylight-saving change."""
+    """Attach the zone; refuse local times skipped by a daylight-saving change.
+
+    A local time that happens twice (clocks go back) is taken at its first occurrence, and a
+    notice says so.
+    """
     aware = naive.replace(tzinfo=zone)
     back = aware.astimezone(dt.UTC).astimezone(zone).replace(tzinfo=None)
     if back != naive:
@@ -54,6 +74,12 @@ def _resolve_local(naive: dt.datetime, zone: ZoneInfo, field: str) -> dt.datetim
             f"{naive.isoformat()} does not exist in {zone.key} (clocks jump forward then); "
             "give the time with an offset or in UTC",
             field=field,
+        )
+    later = naive.replace(tzinfo=zone, fold=1)
+    if later.utcoffset() != aware.utcoffset():
+        notices.add(
+            f"{naive.isoformat()} happens twice in {zone.key} (clocks go back); the first, "
+            f"{aware.isoformat()}, is used: give an offset to choose the second"
         )
     return aware
 
@@ -75,7 +101,10 @@ def parse_night_date(text: str | None, zone: ZoneInfo, *, field: str = "--date")
 
 def local_noon_unix(date: dt.date, zone: ZoneInfo) -> float:
     """POSIX seconds of local civil noon on a date (start of the night's search span)."""
-    return dt.datetime.combine(date, dt.time(12, 0), tzinfo=zone).timestamp()
+    try:
+        return dt.datetime.combine(date, dt.time(12, 0), tzinfo=zone).timestamp()
+    except (OverflowError, ValueError):
+        raise InputError(f"{date.isoformat()} is {_OUTSIDE}", field="--date") from None
 
 
 def iso_utc(unix: float | None, *, places: int = 0) -> str | None:

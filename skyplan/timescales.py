@@ -31,6 +31,8 @@ DAY_S = 86400.0
 UNIX_EPOCH_JD = 2440587.5  # JD of 1970-01-01T00:00:00 UTC
 TT_MINUS_TAI_S = 32.184
 ARCSEC_RAD = np.pi / (180.0 * 3600.0)
+FINALS_MIN_CHARS = 78  # a record with UT1−UTC reaches its error column (68-78)
+UTC_FIRST_YEAR = 1960  # eraDat: no TAI−UTC before 1960 January 1 (UTC began then)
 
 
 @dataclass(frozen=True)
@@ -50,24 +52,67 @@ class EarthOrientation:
 
 
 def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
-    """Read the fixed-width columns of finals2000A.all (format: IERS ReadMe.finals2000A)."""
-    mjd, dut1, xp, yp, last_obs = [], [], [], [], np.nan
-    for line in raw.decode("ascii", errors="replace").splitlines():
-        ut1 = line[58:68].strip()
-        if not ut1:
-            continue  # days past the end of the predictions
-        mjd.append(float(line[7:15]))
-        dut1.append(float(ut1))
-        xp.append(float(line[18:27] or "nan"))
-        yp.append(float(line[37:46] or "nan"))
-        if line[57:58] == "I":
-            last_obs = mjd[-1]
-    if len(mjd) < 2:
+    """Read the fixed-width columns of finals2000A.all (format: IERS ReadMe.finals2000A).
+
+    A damaged table is refused (ValueError naming the line): every record with UT1−UTC must
+    reach its error column, carry an I/P flag and a date that matches its MJD; days follow
+    one another; |UT1−UTC| stays below 1 s (UTC is kept within 0.9 s of UT1, ITU-R TF.460-6)
+    and changes by less than 0.01 s a day apart from whole leap seconds; the pole stays
+    within 1″.
+    """
+    lines = raw.decode("ascii", errors="replace").splitlines()
+    numbers, records = [], []
+    for number, line in enumerate(lines, 1):
+        if line[58:68].strip():
+            if len(line) < FINALS_MIN_CHARS or line[57] not in "IP":
+                raise ValueError(f"line {number}: the record is cut short or misaligned")
+            numbers.append(number)
+            records.append(line)
+        elif line[15:].strip():  # only days past the end of the predictions lack UT1−UTC
+            raise ValueError(f"line {number}: the record is cut short or misaligned")
+    if len(records) < 2:
         raise ValueError("no UT1−UTC values found")
-    mjd_a = np.array(mjd)
-    if np.any(np.diff(mjd_a) <= 0):
-        raise ValueError("dates are not increasing")
-    return EarthOrientation(mjd_a, np.array(dut1), np.array(xp), np.array(yp), last_obs, source)
+    columns = {}
+    for name, first, last, kind in (("mjd", 7, 15, float), ("dut1", 58, 68, float),
+                                    ("xp", 18, 27, float), ("yp", 37, 46, float),
+                                    ("yy", 0, 2, int), ("mm", 2, 4, int), ("dd", 4, 6, int)):
+        texts = [line[first:last] for line in records]
+        try:
+            columns[name] = np.array(texts, dtype=kind)
+        except ValueError:
+            bad = next(i for i, t in enumerate(texts) if not _reads_as(kind, t))
+            raise ValueError(
+                f"line {numbers[bad]}: {texts[bad].strip()!r} is not a number") from None
+    mjd, dut1 = columns["mjd"], columns["dut1"]
+    year = np.where(columns["yy"] >= 73, 1900, 2000) + columns["yy"] - 1970
+    month = np.clip(columns["mm"], 1, 12) - 1  # a month outside 1..12 fails the MJD match
+    months = year.astype("datetime64[Y]").astype("datetime64[M]") + month.astype("m8[M]")
+    days = months.astype("datetime64[D]") + (columns["dd"] - 1).astype("m8[D]")
+    date_mjd = days.astype(np.int64) + 40587.0
+    in_range = (np.abs(dut1) < 1.0) & (np.abs(columns["xp"]) < 1.0) & (
+        np.abs(columns["yp"]) < 1.0)  # False for NaN too
+    odd = (date_mjd != mjd) | (columns["mm"] != month + 1) | ~in_range
+    if odd.any():
+        bad = int(np.flatnonzero(odd)[0])
+        raise ValueError(f"line {numbers[bad]}: the date, MJD, UT1−UTC or pole is out of range")
+    if np.any(np.diff(mjd) != 1.0):
+        raise ValueError("days are missing or out of order")
+    step = np.diff(dut1)
+    jump = np.minimum(np.abs(step), np.abs(np.abs(step) - 1.0))  # leap seconds step by 1 s
+    if np.any(jump >= 0.01):
+        raise ValueError(f"line {numbers[int(np.argmax(jump >= 0.01)) + 1]}: UT1−UTC jumps")
+    flags = np.array([line[57] for line in records])
+    observed = np.flatnonzero(flags == "I")
+    last_obs = float(mjd[observed[-1]]) if observed.size else np.nan
+    return EarthOrientation(mjd, dut1, columns["xp"], columns["yp"], last_obs, source)
+
+
+def _reads_as(kind: type, text: str) -> bool:
+    try:
+        kind(text)
+    except ValueError:
+        return False
+    return True
 
 
 @functools.cache
@@ -79,7 +124,10 @@ def earth_orientation() -> EarthOrientation:
     try:
         return _parse_finals(path.read_bytes(), str(path))
     except (OSError, ValueError) as exc:
-        raise DataError(f"the bundled IERS table {path} could not be read ({exc})") from None
+        raise DataError(
+            f"the bundled IERS table {path} is damaged or unreadable ({exc}); reinstall "
+            "astropy-iers-data (pip install --force-reinstall astropy-iers-data)"
+        ) from None
 
 
 def unix_to_mjd(unix: np.ndarray) -> np.ndarray:
@@ -153,6 +201,12 @@ def tai_minus_utc_s(unix: np.ndarray) -> np.ndarray:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # "dubious year": ERFA cannot know future leap seconds
         out = erfa.dat(years, months, mdays, (unix - days * DAY_S) / DAY_S)
+    if np.any(years < UTC_FIRST_YEAR):
+        notices.add(
+            "before 1960 there was no UTC: times are read as UT and TT−UT is taken as 32.184 s "
+            "(the true value ran from about −3 s in 1900 to +33 s in 1960), so the Moon's place "
+            "may be off by up to about 20″ and its rising and setting by a few seconds."
+        )
     return np.asarray(out, dtype=float)
 
 

@@ -197,7 +197,7 @@ def selfcheck(
 ) -> None:
     """Check the installation offline against reference cases with known answers."""
     from skyplan import selfcheck as checks
-    from skyplan.errors import EXIT_SELFCHECK
+    from skyplan.errors import SelfcheckFailed
     from skyplan.render import records, tables
 
     fmt = common.check_format(fmt, ("table", "json"))
@@ -207,4 +207,6 @@ def selfcheck(
     else:
         common.emit(tables.render_text(tables.selfcheck_table(report)), None)
     if not report.ok:
-        raise typer.Exit(EXIT_SELFCHECK)
+        failed = [c.name for c in report.checks if not c.ok]
+        raise SelfcheckFailed(f"selfcheck: {len(failed)} of {len(report.checks)} checks "
+                              f"failed: {'; '.join(failed)}")
