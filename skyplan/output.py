@@ -19,6 +19,7 @@ import errno
 import os
 import stat
 import tempfile
+from collections.abc import Iterable
 from pathlib import Path
 
 from skyplan.errors import OutputError
@@ -41,8 +42,16 @@ def _reason(exc: OSError) -> str:
     return _REASONS.get(exc.errno, exc.strerror or str(exc))
 
 
-def write_atomic(path: str | Path, data: bytes) -> None:
+def chunks(data: bytes | Iterable[bytes]) -> Iterable[bytes]:
+    """The pieces of a result: one bytes object, or an iterable of them (streamed output)."""
+    return (data,) if isinstance(data, (bytes, bytearray, memoryview)) else data
+
+
+def write_atomic(path: str | Path, data: bytes | Iterable[bytes]) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder and a rename.
+
+    ``data`` may be an iterable of byte strings, written as they come (large results need not
+    be held in memory whole).
 
     An interrupted run leaves the previous file untouched; the new file appears whole or not
     at all.  The folder must exist: it is never created behind the user's back.  Raises
@@ -82,22 +91,24 @@ def _destination(asked: Path) -> Path | None:
     return target
 
 
-def _write_stream(asked: Path, data: bytes) -> None:
+def _write_stream(asked: Path, data) -> None:
     try:
         with open(asked, "wb") as handle:
-            handle.write(data)
+            for piece in chunks(data):
+                handle.write(piece)
     except OSError as exc:
         raise OutputError(f"{asked}: cannot write ({_reason(exc)})") from None
 
 
-def _replace(asked: Path, target: Path, data: bytes) -> None:
+def _replace(asked: Path, target: Path, data) -> None:
     folder = target.parent
     tmp_name = None
     try:
         prefix = f".{target.name[:TMP_NAME_CHARS]}."
         fd, tmp_name = tempfile.mkstemp(prefix=prefix, suffix=".part", dir=folder)
         try:
-            write_all(fd, data)
+            for piece in chunks(data):
+                write_all(fd, piece)
             os.fsync(fd)
         finally:
             os.close(fd)

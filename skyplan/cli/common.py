@@ -54,13 +54,14 @@ def is_terminal() -> bool:
     return sys.stdout.isatty() and os.environ.get("TERM") != "dumb"
 
 
-def emit(data: bytes | str, out: str | None) -> None:
+def emit(data, out: str | None) -> None:
     """Write the result to stdout, or atomically to ``out``, exactly where named.
 
-    A reader that closes the pipe early (``| head``) or a closed stdout is an
+    ``data`` is text, bytes, or an iterable of byte strings produced piece by piece (large
+    results).  A reader that closes the pipe early (``| head``) or a closed stdout is an
     :class:`OutputError` (status 4): the result was not delivered whole.
     """
-    from skyplan.output import write_atomic
+    from skyplan.output import chunks, write_atomic
 
     raw = data.encode() if isinstance(data, str) else data
     if out is not None:
@@ -71,7 +72,8 @@ def emit(data: bytes | str, out: str | None) -> None:
     if sys.stdout is None:
         raise OutputError("standard output is closed; name a file with --out")
     try:
-        _write_stdout(raw)
+        for piece in chunks(raw):
+            _write_stdout(piece)
     except BrokenPipeError:
         _detach_stdout()
         raise OutputError("the reader closed the pipe before the whole result was written") \

@@ -153,13 +153,10 @@ def windows_cmd(
                                          color=common.is_terminal())
         common.emit(tables.render_text(table), out)
         return
-    recs = windowview.window_records(res, text_times=fmt == "csv")
-    if fmt == "json":
-        common.emit(records.to_json(recs, clean=False, indent=len(recs) <= 2000), out)
-    elif fmt == "ndjson":
-        common.emit(records.to_ndjson(recs), out)
+    if fmt == "json" and len(res.names) <= 2000:  # small results: indented, for people too
+        recs = windowview.window_records(res, text_times=False)
+        common.emit(records.to_json(recs, clean=False), out)
+    elif fmt in ("json", "ndjson"):
+        common.emit(windowview.json_chunks(res, ndjson=fmt == "ndjson"), out)
     else:
-        flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
-                 "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
-                 **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
-        common.emit(records.to_csv(flat), out)
+        common.emit(windowview.csv_chunks(res), out)

@@ -42,8 +42,9 @@ def _rounded(a: np.ndarray, places: int) -> list:
     return np.round(np.asarray(a, dtype=float), places).tolist()
 
 
-def window_records(res, *, text_times: bool = True) -> list[dict]:
-    """One record per target, in the documented JSON layout (columns first, then rows).
+def window_records(res, *, text_times: bool = True, start: int = 0,
+                   stop: int | None = None) -> list[dict]:
+    """One record per target (targets ``start`` to ``stop``), in the documented JSON layout.
 
     Times are ISO 8601 strings, or with ``text_times=False`` datetime objects that
     :func:`skyplan.render.records.to_json` writes as the same strings, faster.
@@ -53,42 +54,90 @@ def window_records(res, *, text_times: bool = True) -> list[dict]:
     collect = gc.isenabled()
     gc.disable()  # hundreds of thousands of fresh containers: the collector only slows this
     try:
-        return _window_records(res, _iso_array if text_times else _datetimes)
+        stop = len(res.names) if stop is None else stop
+        return _window_records(res, _iso_array if text_times else _datetimes, start, stop)
     finally:
         if collect:
             gc.enable()
 
 
-def _window_records(res, times) -> list[dict]:
-    n = len(res.names)
+def _window_records(res, times, a: int, b: int) -> list[dict]:
+    n = b - a
     w = res.windows
-    starts, ends = times(w.start), times(w.end)
-    mins = np.round((w.end - w.start) / 60.0, 2).tolist()
+    lo, hi = np.searchsorted(w.rows, [a, b])  # intervals are sorted by row
+    rows, w_start, w_end = w.rows[lo:hi] - a, w.start[lo:hi], w.end[lo:hi]
+    starts, ends = times(w_start), times(w_end)
+    mins = np.round((w_end - w_start) / 60.0, 2).tolist()
     per_row: list[list] = [[] for _ in range(n)]
-    for r, a, b, m in zip(w.rows.tolist(), starts, ends, mins):
-        per_row[r].append({"start": a, "end": b, "minutes": m})
+    for r, s, e, m in zip(rows.tolist(), starts, ends, mins):
+        per_row[r].append({"start": s, "end": e, "minutes": m})
     keys = list(res.lost_s)
     lost_rows = [dict(zip(keys, vals)) for vals in zip(
-        *(_rounded(res.lost_s[k] / 60.0, 2) for k in keys))] if keys else [{}] * n
+        *(_rounded(res.lost_s[k][a:b] / 60.0, 2) for k in keys))] if keys else [{}] * n
     columns = zip(
-        res.names.tolist(), _rounded(res.ra_deg, 7), _rounded(res.dec_deg, 7),
-        times(res.rise), times(res.transit), times(res.set),
-        _rounded(res.transit_alt_deg, 3), _rounded(res.transit_airmass, 4), per_row,
-        _rounded(res.usable_s / 60.0, 2), times(res.best_time),
-        _rounded(res.best_airmass, 4), _status(res), lost_rows, res.near_sun.tolist(),
-        res.daylight_window.tolist(), _rounded(res.sun_distance_deg, 2),
-        _rounded(res.moon_distance_deg, 2),
+        res.names[a:b].tolist(), _rounded(res.ra_deg[a:b], 7), _rounded(res.dec_deg[a:b], 7),
+        times(res.rise[a:b]), times(res.transit[a:b]), times(res.set[a:b]),
+        _rounded(res.transit_alt_deg[a:b], 3), _rounded(res.transit_airmass[a:b], 4), per_row,
+        _rounded(res.usable_s[a:b] / 60.0, 2), times(res.best_time[a:b]),
+        _rounded(res.best_airmass[a:b], 4), _status(res)[a:b], lost_rows,
+        res.near_sun[a:b].tolist(), res.daylight_window[a:b].tolist(),
+        _rounded(res.sun_distance_deg[a:b], 2), _rounded(res.moon_distance_deg[a:b], 2),
     )
     out = [
-        {"name": a, "ra_deg": b, "dec_deg": c, "rise": d, "transit": e, "set": f,
-         "transit_alt_deg": g, "transit_airmass": h, "windows": i, "usable_minutes": j,
-         "best_time": k, "best_airmass": m, "status": o, "lost_minutes": p,
-         "near_sun": q, "daylight_window": r, "sun_distance_deg": s, "moon_distance_deg": u}
-        for a, b, c, d, e, f, g, h, i, j, k, m, o, p, q, r, s, u in columns
+        {"name": c0, "ra_deg": c1, "dec_deg": c2, "rise": c3, "transit": c4, "set": c5,
+         "transit_alt_deg": c6, "transit_airmass": c7, "windows": c8, "usable_minutes": c9,
+         "best_time": c10, "best_airmass": c11, "status": c12, "lost_minutes": c13,
+         "near_sun": c14, "daylight_window": c15, "sun_distance_deg": c16,
+         "moon_distance_deg": c17}
+        for c0, c1, c2, c3, c4, c5, c6, c7, c8, c9, c10, c11, c12, c13, c14, c15, c16, c17
+        in columns
     ]
-    for i in np.nonzero(res.identifiers != "")[0]:
-        out[i]["identifier"] = res.identifiers[i]
+    ident = res.identifiers[a:b]
+    for i in np.nonzero(ident != "")[0]:
+        out[i]["identifier"] = ident[i]
     return out
+
+
+def json_chunks(res, *, ndjson: bool, chunk: int = 50_000):
+    """The windows as JSON (an array) or NDJSON, produced a block of targets at a time so
+    that a million-target catalogue never holds all its records in memory at once."""
+    from skyplan.render import records
+
+    n = len(res.names)
+    if not ndjson:
+        yield b"["
+    for k, a in enumerate(range(0, n, chunk)):
+        recs = window_records(res, text_times=False, start=a, stop=min(n, a + chunk))
+        if ndjson:
+            yield records.to_ndjson(recs)
+        else:
+            body = records.to_json(recs, clean=False, indent=False).rstrip(b"\n")
+            yield (b"," if k else b"") + body[1:-1]
+    if not ndjson:
+        yield b"]\n"
+
+
+def csv_chunks(res, *, chunk: int = 50_000):
+    """The windows as CSV, one row per target (windows as START/END pairs joined by ';',
+    lost minutes as ``lost_<limit>_min`` columns), a block of targets at a time."""
+    from skyplan.render import records
+
+    n = len(res.names)
+    columns = None
+    for a in range(0, n, chunk):
+        recs = window_records(res, start=a, stop=min(n, a + chunk))
+        flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
+                 "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
+                 **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
+        if columns is None:
+            columns = list(flat[0]) if flat else []
+            if "identifier" not in columns and (res.identifiers != "").any():
+                columns.insert(1, "identifier")
+            yield records.to_csv(flat, columns)
+        else:
+            yield records.to_csv(flat, columns).split(b"\n", 1)[1]  # without the header
+    if columns is None:
+        yield records.to_csv([], ["name"])
 
 
 def _status(res) -> list[str]:
