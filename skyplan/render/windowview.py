@@ -111,8 +111,10 @@ def json_chunks(res, *, ndjson: bool, chunk: int = 50_000):
         if ndjson:
             yield records.to_ndjson(recs)
         else:
-            body = records.to_json(recs, clean=False, indent=False).rstrip(b"\n")
-            yield (b"," if k else b"") + body[1:-1]
+            body = records.to_json(recs, clean=False, indent=False)
+            if k:
+                yield b","
+            yield memoryview(body)[1:-2]  # without the brackets and the newline: no copy
     if not ndjson:
         yield b"]\n"
 
