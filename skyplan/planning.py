@@ -86,7 +86,8 @@ def _reason(res, i: int) -> tuple[str, str]:
 
 SCHEDULER_TEXT = {
     "no_window": "no window tonight", "too_short": "windows shorter than one visit",
-    "no_room": "no room in its windows (taken by other visits)", "below_priority_cut": "below the priority cut",
+    "no_room": "no room in its windows (taken by other visits)",
+    "below_priority_cut": "below the priority cut",
     "near_sun": "too close to the Sun (safety; use --allow-near-sun to override)",
     "poor_airmass": "only at poor airmass tonight (see --airmass-slack)",
 }

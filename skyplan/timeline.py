@@ -10,7 +10,7 @@ import numpy as np
 
 from skyplan.intervals import Intervals
 
-LIGHT, DOWN, BLOCKED, USABLE = 0, 1, 2, 3
+LIGHT, DOWN, BLOCKED, USABLE, PLANNED = 0, 1, 2, 3, 4
 
 
 def _covered(iv: Intervals, rows: np.ndarray, t: np.ndarray) -> np.ndarray:
@@ -41,4 +41,24 @@ def timeline_codes(result, rows: np.ndarray, n_bins: int = 48):
     codes[_covered(result.up, rows, mid)] = BLOCKED
     codes[_covered(result.windows, rows, mid)] = USABLE
     codes[:, ~dark] = LIGHT
+    return edges, codes
+
+
+def visit_timeline_codes(result, rows: np.ndarray, start: np.ndarray, end: np.ndarray,
+                         n_bins: int = 36):
+    """The strip of each planned visit's target, with the visit itself marked PLANNED.
+
+    ``rows`` may repeat (a target visited several times); a visit shorter than a bin still
+    marks the bin that holds its middle.
+    """
+    rows = np.asarray(rows, dtype=np.int64)
+    uniq, inverse = np.unique(rows, return_inverse=True)
+    edges, codes = timeline_codes(result, uniq, n_bins)
+    codes = codes[inverse].copy()
+    mid = 0.5 * (edges[1:] + edges[:-1])
+    start = np.asarray(start, dtype=float)[:, None]
+    end = np.asarray(end, dtype=float)[:, None]
+    codes[(mid[None, :] >= start) & (mid[None, :] < end)] = PLANNED
+    middle_bin = np.clip(np.searchsorted(edges, 0.5 * (start + end).ravel()) - 1, 0, n_bins - 1)
+    codes[np.arange(len(rows)), middle_bin] = PLANNED
     return edges, codes

@@ -94,7 +94,15 @@ def plan_cmd(
         cat = _catalog_columns(catalog, demo, skip_bad)
         plan = planning.make_night_plan(res, cat[0], cat[1], overheads, options)
     if fmt == "table":
-        text = tables.render_text(planview.plan_table(plan, the_site))
+        codes = edges = None
+        if plan.visits:
+            from skyplan import timeline
+
+            edges, codes = timeline.visit_timeline_codes(
+                res, [v.target for v in plan.visits], [v.exposure_start for v in plan.visits],
+                [v.end for v in plan.visits])
+        text = tables.render_text(planview.plan_table(plan, the_site, codes, edges,
+                                                      color=common.is_terminal()))
         if plan.not_placed:
             text += tables.render_text(planview.not_placed_table(plan))
         common.emit(text, out)

@@ -67,7 +67,7 @@ def plan_document(p, site, generated_at: float) -> dict:
     }
 
 
-def plan_table(p, site):
+def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
     res = p.windows
     zone = ZoneInfo(res.night.zone)
     m = p.metrics
@@ -75,13 +75,22 @@ def plan_table(p, site):
     gap = "" if m.gap is None else f", gap {100 * m.gap:.2f}%"
     caption = (f"placed {m.placed} of {m.possible} possible targets; airmass excess {excess}; "
                f"idle {m.idle_minutes:.0f} min; method {m.method}{gap}\n{SAFETY}")
+    if codes is not None:
+        from skyplan.render.windowview import TIMELINE_KEY
+
+        caption += (f"\n{TIMELINE_KEY}, '@' this visit; strip {_hhmm(edges[0], zone)}–"
+                    f"{_hhmm(edges[-1], zone)}")
     t = _table(f"Plan for the night of {res.night.date.isoformat()} at {site.name} "
                f"(times {res.night.zone}, UTC in brackets)", caption)
     for col, just in (("#", "right"), ("start", "left"), ("target", "left"), ("exp", "right"),
                       ("alt start/mid/end", "right"), ("az", "right"), ("airmass", "right"),
                       ("HA", "right"), ("Moon", "right"), ("notes", "left")):
         t.add_column(col, justify=just)
-    for v in p.visits:
+    if codes is not None:
+        t.add_column("timeline", no_wrap=True)
+    from skyplan.render.windowview import timeline_text
+
+    for k, v in enumerate(p.visits):
         utc = dt.datetime.fromtimestamp(v.exposure_start, dt.UTC)
         start = f"{_hhmm(v.exposure_start, zone)} ({utc:%H:%M})"
         notes = []
@@ -91,10 +100,13 @@ def plan_table(p, site):
             notes.append(f"best {v.best_airmass:.2f}")
         label = v.name if not v.identifier or v.identifier == v.name else \
             f"{v.name} ({v.identifier})"
-        t.add_row(str(v.seq), start, label, f"{v.exposure_s / 60:.0f}m",
-                  f"{v.alt_start_deg:.0f}/{v.alt_mid_deg:.0f}/{v.alt_end_deg:.0f}°",
-                  f"{v.az_mid_deg:.0f}°", f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
-                  f"{v.moon_distance_deg:.0f}°", ", ".join(notes))
+        cells = [str(v.seq), start, label, f"{v.exposure_s / 60:.0f}m",
+                 f"{v.alt_start_deg:.0f}/{v.alt_mid_deg:.0f}/{v.alt_end_deg:.0f}°",
+                 f"{v.az_mid_deg:.0f}°", f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
+                 f"{v.moon_distance_deg:.0f}°", ", ".join(notes)]
+        if codes is not None:
+            cells.append(timeline_text(codes[k], color))
+        t.add_row(*cells)
     return t
 
 

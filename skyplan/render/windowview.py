@@ -7,11 +7,12 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from skyplan.render.tables import _table
-from skyplan.timeline import BLOCKED, DOWN, LIGHT, USABLE
+from skyplan.timeline import BLOCKED, DOWN, LIGHT, PLANNED, USABLE
 
 # characters read without colour and in log files; colour is only a help on a terminal
-TIMELINE_CHARS = {USABLE: "#", BLOCKED: "-", DOWN: ".", LIGHT: " "}
-TIMELINE_STYLE = {USABLE: "bold green", BLOCKED: "yellow", DOWN: "grey50", LIGHT: "on grey23"}
+TIMELINE_CHARS = {USABLE: "#", BLOCKED: "-", DOWN: ".", LIGHT: " ", PLANNED: "@"}
+TIMELINE_STYLE = {USABLE: "bold green", BLOCKED: "yellow", DOWN: "grey50", LIGHT: "on grey23",
+                  PLANNED: "bold white on blue"}
 TIMELINE_KEY = ("timeline: '#' usable, '-' up but blocked by a limit, '.' below the altitude "
                 "limit, blank: sky not dark")
 
@@ -167,6 +168,16 @@ def windows_document(res, site, records: list[dict]) -> dict:
     }
 
 
+def timeline_text(codes, color: bool):
+    """One strip of timeline codes as rich text: characters first, colour only as a help."""
+    from rich.text import Text
+
+    text = Text()
+    for c in codes:
+        text.append(TIMELINE_CHARS[int(c)], style=TIMELINE_STYLE[int(c)] if color else None)
+    return text
+
+
 def _hhmm(unix, zone) -> str:
     import datetime as dt
 
@@ -177,7 +188,6 @@ def _hhmm(unix, zone) -> str:
 
 def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
     zone = ZoneInfo(res.night.zone)
-    from rich.text import Text
 
     lim = res.limits
     bits = [f"min alt {lim.min_alt_deg:g}°"]
@@ -230,10 +240,7 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
         row = [label, st, _hhmm(res.rise[i], zone), tr, _hhmm(res.set[i], zone),
                wins, f"{res.usable_s[i] / 60.0:.0f}m", best, lost_txt]
         if codes is not None:
-            text = Text()
-            for c in codes[i]:
-                text.append(TIMELINE_CHARS[int(c)], style=TIMELINE_STYLE[int(c)] if color else None)
-            row.append(text)
+            row.append(timeline_text(codes[i], color))
         t.add_row(*row, style="red" if res.near_sun[i] and color else None)
         del k
     return t
