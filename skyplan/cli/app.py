@@ -144,8 +144,7 @@ def main(argv: list[str] | None = None) -> None:
         except typer.Abort:
             _fail("interrupted", errors.EXIT_INTERRUPTED)
         except click.exceptions.UsageError as exc:
-            if type(exc).__name__ == "NoArgsIsHelpError":
-                _print_help(exc)
+            if type(exc).__name__ == "NoArgsIsHelpError":  # typer has shown the help
                 raise SystemExit(errors.EXIT_OK) from None
             where = exc.ctx.command_path.split(" ", 1) if exc.ctx else []
             hint = f"see 'skyplan {where[1]} --help'" if len(where) > 1 else "see 'skyplan --help'"
@@ -170,13 +169,6 @@ def main(argv: list[str] | None = None) -> None:
         _fail("interrupted", errors.EXIT_INTERRUPTED)
     _print_notices(notices.take(), caught)
     raise SystemExit(status)
-
-
-def _print_help(exc) -> None:
-    """A command given without arguments shows its help on stdout, as ``--help`` does."""
-    if exc.ctx is not None:
-        sys.stdout.write(exc.ctx.get_help() + "\n")
-        sys.stdout.flush()
 
 
 def _print_notices(lines: list[str], caught: list[warnings.WarningMessage]) -> None:
