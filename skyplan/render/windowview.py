@@ -217,7 +217,7 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
     status = _status(res)
     w = res.windows
     order = np.argsort(-res.usable_s, kind="stable")
-    for k, i in enumerate(order):
+    for i in order:
         sel = w.rows == i
         wins = ", ".join(f"{_hhmm(a, zone)}–{_hhmm(b, zone)}"
                          for a, b in zip(w.start[sel], w.end[sel])) or "—"
@@ -242,6 +242,5 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True):
         if codes is not None:
             row.append(timeline_text(codes[i], color))
         t.add_row(*row, style="red" if res.near_sun[i] and color else None)
-        del k
     return t
 
