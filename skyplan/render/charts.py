@@ -24,7 +24,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from skyplan import projection
-from skyplan.errors import InputError, OutputError
+from skyplan.errors import InputError
 from skyplan.scene import TWILIGHT_STATES, AltitudeScene, MoonMark, SkyScene
 
 if TYPE_CHECKING:
@@ -788,11 +788,15 @@ def _format_of(path: Path) -> str:
 
 
 def _save(fig: Figure, path: Path, fmt: str, dpi: int) -> ChartFile:
+    """Render to memory, then write atomically (an interrupted run keeps the old picture)."""
+    import io
+
+    from skyplan.output import write_atomic
+
     metadata = {"Date": None} if fmt == "svg" else {"Software": None}
-    try:
-        fig.savefig(path, format=fmt, dpi=dpi, metadata=metadata)
-    except OSError as exc:
-        raise OutputError(f"cannot write {path}: {exc.strerror or exc}") from exc
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format=fmt, dpi=dpi, metadata=metadata)
+    write_atomic(path, buffer.getvalue())
     width, height = fig.canvas.get_width_height()
     return ChartFile(path=path, width_px=width, height_px=height)
 
