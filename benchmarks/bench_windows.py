@@ -6,7 +6,8 @@ Run by hand (not part of the test suite):
 
 (a) end to end in a fresh process: read the CSV, compute the night and every target's
     windows, write JSON; wall time measured inside the process from before the CLI import
-    (interpreter start excluded) and the process's peak resident memory;
+    (interpreter start excluded), the peak resident memory of the process and of its
+    largest worker, and the same run in one process (``SKYPLAN_WORKERS=1``);
 (b) astropy's SkyCoord → AltAz transform over the same night on a 5-minute grid for a
     subset of the targets; the per-target speed ratio is printed.
 """
@@ -43,7 +44,8 @@ except SystemExit as exc:
     code = exc.code
 t1 = time.perf_counter()
 peak_mib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-print(f"RESULT {t1 - t0:.3f} {peak_mib:.1f} {code}")
+worker_mib = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0
+print(f"RESULT {t1 - t0:.3f} {peak_mib:.1f} {code} {worker_mib:.1f}")
 """
 
 RUN_ENGINE = r"""
@@ -92,9 +94,9 @@ def write_catalogue(path: Path, n: int) -> None:
         f.writelines(f"T{i:07d},{ra[i]:.6f},{dec[i]:.6f}\n" for i in range(n))
 
 
-def run(code: str, *args: str) -> list[str]:
+def run(code: str, *args: str, env: dict | None = None) -> list[str]:
     out = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True,
-                         check=False)
+                         check=False, env=env)
     for line in out.stdout.splitlines():
         if line.startswith("RESULT"):
             return line.split()[1:]
@@ -107,6 +109,12 @@ def main() -> None:
     ap.add_argument("--subset", type=int, default=2_000)
     ap.add_argument("--repeat", type=int, default=3)
     args = ap.parse_args()
+    # an installed package has its bytecode compiled by pip; do the same for a checkout
+    import compileall
+
+    import skyplan
+
+    compileall.compile_dir(str(Path(skyplan.__file__).parent), quiet=1)
     with tempfile.TemporaryDirectory() as tmp:
         cat = Path(tmp) / "targets.csv"
         out = Path(tmp) / "windows.json"
@@ -116,13 +124,16 @@ def main() -> None:
         # a configured site, as in a cron job (its zone is given: no zone lookup)
         cli = ["windows", str(cat), "--site", "bench", "--sites-file", str(sites_file),
                "--date", DATE, "--moon-gap", "20", "-f", "json", "--out", str(out), "--quiet"]
-        walls, peaks = [], []
+        walls, peaks, worker_peaks, alone = [], [], [], []
         for _ in range(args.repeat):
-            wall, peak, code = run(RUN_SKYPLAN, *cli)
+            wall, peak, code, worker_peak = run(RUN_SKYPLAN, *cli)
             if code not in ("0", "None"):
                 raise SystemExit(f"skyplan exited with {code}")
             walls.append(float(wall))
             peaks.append(float(peak))
+            worker_peaks.append(float(worker_peak))
+            one = run(RUN_SKYPLAN, *cli, env={**os.environ, "SKYPLAN_WORKERS": "1"})
+            alone.append(float(one[0]))
         doc = json.loads(out.read_text())
         if len(doc) != args.targets:
             raise SystemExit(f"expected {args.targets} records, got {len(doc)}")
@@ -143,7 +154,9 @@ def main() -> None:
     print(f"machine: {os.cpu_count()} cores; numpy {np.__version__}")
     print(f"skyplan windows, {args.targets:,} targets, CSV in, JSON out: "
           f"best {best:.2f} s of {args.repeat} (all: {', '.join(f'{w:.2f}' for w in walls)}); "
-          f"peak RSS {max(peaks):.0f} MiB")
+          f"peak RSS {max(peaks):.0f} MiB, largest worker {max(worker_peaks):.0f} MiB")
+    print(f"the same in one process (SKYPLAN_WORKERS=1): best {min(alone):.2f} s "
+          f"(all: {', '.join(f'{w:.2f}' for w in alone)})")
     print(f"astropy AltAz, {args.subset:,} targets x {n_times} times (5-min grid): "
           f"{float(a_wall):.2f} s")
     per_engine = float(engine) / args.targets

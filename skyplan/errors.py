@@ -26,6 +26,17 @@ class SkyplanError(Exception):
     def one_line(self) -> str:
         return " ".join(str(self).split())
 
+    def __reduce__(self):
+        """Pickle as it is, message and attributes (a worker process hands errors back)."""
+        return _restore, (type(self), self.args, dict(self.__dict__))
+
+
+def _restore(cls, args, state):
+    exc = cls.__new__(cls)
+    exc.args = args
+    exc.__dict__.update(state)
+    return exc
+
 
 class InputError(SkyplanError):
     """Bad input: names where it is (file, line, field) and what is wrong."""

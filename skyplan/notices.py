@@ -6,6 +6,8 @@ once on stderr after the command has run (or never, with ``--quiet``).
 
 from __future__ import annotations
 
+from contextlib import contextmanager
+
 _notices: list[str] = []
 
 
@@ -20,3 +22,29 @@ def take() -> list[str]:
     out = list(_notices)
     _notices.clear()
     return out
+
+
+class Held:
+    """Notices taken out of the list for a while (see :func:`held`)."""
+
+    def __init__(self) -> None:
+        self.lines: list[str] = []
+
+    def release(self) -> None:
+        """Record the held notices now, after whatever was recorded meanwhile."""
+        for line in self.lines:
+            add(line)
+        self.lines = []
+
+
+@contextmanager
+def held():
+    """Hold back the notices recorded inside the block until ``.release()`` is called, so
+    that work done out of order (in another process) reports in the usual order."""
+    start = len(_notices)
+    box = Held()
+    try:
+        yield box
+    finally:
+        box.lines = _notices[start:]
+        del _notices[start:]

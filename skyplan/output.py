@@ -25,6 +25,7 @@ from pathlib import Path
 from skyplan.errors import OutputError
 
 WRITE_CHUNK_BYTES = 1 << 20
+FLUSH_AHEAD_BYTES = 8 << 20  # flush to the disk in the background after this much
 TMP_NAME_CHARS = 100  # the temporary name repeats at most this much of the file name
 
 _REASONS = {
@@ -106,11 +107,15 @@ def _replace(asked: Path, target: Path, data) -> None:
     try:
         prefix = f".{target.name[:TMP_NAME_CHARS]}."
         fd, tmp_name = tempfile.mkstemp(prefix=prefix, suffix=".part", dir=folder)
+        ahead = _FlushAhead(fd)
         try:
             for piece in chunks(data):
                 write_all(fd, piece)
+                ahead.written(len(piece))
+            ahead.wait()
             os.fsync(fd)
         finally:
+            ahead.wait(check=False)
             os.close(fd)
         if target.exists():
             os.chmod(tmp_name, target.stat().st_mode & 0o7777)
@@ -129,6 +134,44 @@ def _replace(asked: Path, target: Path, data) -> None:
                 os.unlink(tmp_name)
             except OSError:
                 pass
+
+
+class _FlushAhead:
+    """Flush a long result to the disk in the background while the rest is produced.
+
+    After every ``FLUSH_AHEAD_BYTES`` written, a thread calls ``fdatasync``, so that the
+    final ``fsync`` only waits for the last part.  An error in the thread is raised by
+    :meth:`wait` (the kernel reports a write-back error once, to whichever call sees it).
+    """
+
+    def __init__(self, fd: int) -> None:
+        self.fd = fd
+        self.pending = 0
+        self.thread = None
+        self.error: OSError | None = None
+
+    def written(self, size: int) -> None:
+        self.pending += size
+        if self.pending < FLUSH_AHEAD_BYTES or (self.thread and self.thread.is_alive()):
+            return
+        import threading
+
+        self.pending = 0
+        self.thread = threading.Thread(target=self._flush, name="skyplan-flush", daemon=True)
+        self.thread.start()
+
+    def _flush(self) -> None:
+        try:
+            os.fdatasync(self.fd)
+        except OSError as exc:
+            self.error = exc
+
+    def wait(self, check: bool = True) -> None:
+        if self.thread is not None:
+            self.thread.join()
+            self.thread = None
+        if check and self.error is not None:
+            raise self.error
 
 
 def write_all(fd: int, data: bytes) -> None:

@@ -51,6 +51,12 @@ class EarthOrientation:
         return float(self.mjd[-1])
 
 
+FINALS_COLUMNS = (("mjd", 7, 15, float), ("dut1", 58, 68, float), ("xp", 18, 27, float),
+                  ("yp", 37, 46, float), ("yy", 0, 2, int), ("mm", 2, 4, int),
+                  ("dd", 4, 6, int))
+FINALS_LINE_BYTES = 188  # 187 characters and a line feed (IERS ReadMe.finals2000A)
+
+
 def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
     """Read the fixed-width columns of finals2000A.all (format: IERS ReadMe.finals2000A).
 
@@ -59,30 +65,12 @@ def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
     one another; |UT1−UTC| stays below 1 s (UTC is kept within 0.9 s of UT1, ITU-R TF.460-6)
     and changes by less than 0.01 s a day apart from whole leap seconds; the pole stays
     within 1″.
+
+    A table of whole, printable, equal lines (as shipped) is cut into columns by numpy in
+    one step; anything else is read line by line, which also names the first bad line.
     """
-    lines = raw.decode("ascii", errors="replace").splitlines()
-    numbers, records = [], []
-    for number, line in enumerate(lines, 1):
-        if line[58:68].strip():
-            if len(line) < FINALS_MIN_CHARS or line[57] not in "IP":
-                raise ValueError(f"line {number}: the record is cut short or misaligned")
-            numbers.append(number)
-            records.append(line)
-        elif line[15:].strip():  # only days past the end of the predictions lack UT1−UTC
-            raise ValueError(f"line {number}: the record is cut short or misaligned")
-    if len(records) < 2:
-        raise ValueError("no UT1−UTC values found")
-    columns = {}
-    for name, first, last, kind in (("mjd", 7, 15, float), ("dut1", 58, 68, float),
-                                    ("xp", 18, 27, float), ("yp", 37, 46, float),
-                                    ("yy", 0, 2, int), ("mm", 2, 4, int), ("dd", 4, 6, int)):
-        texts = [line[first:last] for line in records]
-        try:
-            columns[name] = np.array(texts, dtype=kind)
-        except ValueError:
-            bad = next(i for i, t in enumerate(texts) if not _reads_as(kind, t))
-            raise ValueError(
-                f"line {numbers[bad]}: {texts[bad].strip()!r} is not a number") from None
+    found = _columns_fixed(raw)
+    columns, numbers, flags = found if found is not None else _columns_by_line(raw)
     mjd, dut1 = columns["mjd"], columns["dut1"]
     year = np.where(columns["yy"] >= 73, 1900, 2000) + columns["yy"] - 1970
     month = np.clip(columns["mm"], 1, 12) - 1  # a month outside 1..12 fails the MJD match
@@ -101,10 +89,61 @@ def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
     jump = np.minimum(np.abs(step), np.abs(np.abs(step) - 1.0))  # leap seconds step by 1 s
     if np.any(jump >= 0.01):
         raise ValueError(f"line {numbers[int(np.argmax(jump >= 0.01)) + 1]}: UT1−UTC jumps")
-    flags = np.array([line[57] for line in records])
     observed = np.flatnonzero(flags == "I")
     last_obs = float(mjd[observed[-1]]) if observed.size else np.nan
     return EarthOrientation(mjd, dut1, columns["xp"], columns["yp"], last_obs, source)
+
+
+def _columns_fixed(raw: bytes):
+    """Columns, line numbers and I/P flags of a regular table, or None to read it by line."""
+    width = FINALS_LINE_BYTES
+    if not raw or len(raw) % width:
+        return None
+    grid = np.frombuffer(raw, np.uint8).reshape(-1, width)
+    text = grid[:, :-1]
+    if (grid[:, -1] != 10).any() or (text < 32).any() or (text > 126).any():
+        return None
+    has_ut1 = (grid[:, 58:68] != 32).any(axis=1)
+    if (~has_ut1 & (grid[:, 15:-1] != 32).any(axis=1)).any():
+        return None
+    records = grid[has_ut1]
+    flags = records[:, 57].view("S1").astype("U1")
+    if len(records) < 2 or not np.isin(flags, ["I", "P"]).all():
+        return None
+    columns = {}
+    for name, first, last, kind in FINALS_COLUMNS:
+        cells = np.ascontiguousarray(records[:, first:last]).view(f"S{last - first}").ravel()
+        try:
+            columns[name] = cells.astype(kind)
+        except ValueError:
+            return None
+    return columns, np.flatnonzero(has_ut1) + 1, flags
+
+
+def _columns_by_line(raw: bytes):
+    """Columns, line numbers and I/P flags, line by line; ValueError names a bad line."""
+    lines = raw.decode("ascii", errors="replace").splitlines()
+    numbers, records = [], []
+    for number, line in enumerate(lines, 1):
+        if line[58:68].strip():
+            if len(line) < FINALS_MIN_CHARS or line[57] not in "IP":
+                raise ValueError(f"line {number}: the record is cut short or misaligned")
+            numbers.append(number)
+            records.append(line)
+        elif line[15:].strip():  # only days past the end of the predictions lack UT1−UTC
+            raise ValueError(f"line {number}: the record is cut short or misaligned")
+    if len(records) < 2:
+        raise ValueError("no UT1−UTC values found")
+    columns = {}
+    for name, first, last, kind in FINALS_COLUMNS:
+        texts = [line[first:last] for line in records]
+        try:
+            columns[name] = np.array(texts, dtype=kind)
+        except ValueError:
+            bad = next(i for i, t in enumerate(texts) if not _reads_as(kind, t))
+            raise ValueError(
+                f"line {numbers[bad]}: {texts[bad].strip()!r} is not a number") from None
+    return columns, numbers, np.array([line[57] for line in records])
 
 
 def _reads_as(kind: type, text: str) -> bool:
@@ -115,9 +154,14 @@ def _reads_as(kind: type, text: str) -> bool:
     return True
 
 
+_handed: list[EarthOrientation] = []  # a table parsed by a worker, for the next call below
+
+
 @functools.cache
 def earth_orientation() -> EarthOrientation:
-    """The bundled IERS table, parsed once per process."""
+    """The bundled IERS table, parsed once per process (or handed over by a worker)."""
+    if _handed:
+        return _handed.pop()
     from skyplan.ephemeris import iers_finals_path
 
     path = iers_finals_path()
@@ -128,6 +172,14 @@ def earth_orientation() -> EarthOrientation:
             f"the bundled IERS table {path} is damaged or unreadable ({exc}); reinstall "
             "astropy-iers-data (pip install --force-reinstall astropy-iers-data)"
         ) from None
+
+
+def hand_over(table: EarthOrientation) -> None:
+    """Keep a table that a worker process parsed from the same file, instead of parsing it
+    again here (ignored once this process has its own)."""
+    if earth_orientation.cache_info().currsize == 0:
+        _handed[:] = [table]
+        earth_orientation()
 
 
 def unix_to_mjd(unix: np.ndarray) -> np.ndarray:

@@ -65,6 +65,10 @@ class TargetSet:
     def __len__(self) -> int:
         return len(self.names)
 
+    def rows(self, start: int, stop: int) -> TargetSet:
+        """Targets ``start`` to ``stop``, a block of the catalogue (views, not copies)."""
+        return TargetSet(*(getattr(self, f.name)[start:stop] for f in dataclasses.fields(self)))
+
 
 @dataclass(frozen=True)
 class WindowResult:
@@ -140,6 +144,7 @@ class Sky:
         self.slot = np.full(n, -1)
         self.slot[self.moving_rows] = np.arange(len(self.moving_rows))
         self.pressure, self.temperature, self.humidity = site.weather()
+        self._unit = None
 
     # ---- positions
     def radec(self, rows, t):
@@ -156,6 +161,17 @@ class Sky:
             ra[mv] = self.body_ra[k, i0] * (1 - w) + self.body_ra[k, i0 + 1] * w
             dec[mv] = self.body_dec[k, i0] * (1 - w) + self.body_dec[k, i0 + 1] * w
         return ra, dec
+
+    def unit(self, rows, t):
+        """Unit vectors (n, 3) of the places of ``rows`` at times ``t``, equinox based."""
+        rows = np.asarray(rows)
+        if not self.moving[rows].any():  # fixed targets: computed once per night
+            if self._unit is None:
+                self._unit = frames.unit_vectors(np.degrees(self.ra - self.eo),
+                                                 np.degrees(self.dec))
+            return self._unit[rows]
+        ra, dec = self.radec(rows, t)
+        return frames.unit_vectors(np.degrees(ra - self.eo), np.degrees(dec))
 
     def era_local(self, t):
         return self.era_mid + self.frame.along + SIDEREAL_RATE * (np.asarray(t) - self.t_mid)
@@ -284,10 +300,9 @@ def distance_margin(sky: Sky, body_t, body_ra_deg, body_dec_deg, gap_deg: float)
     vec = frames.unit_vectors(body_ra_deg, body_dec_deg)
 
     def f(rows, t):
-        ra, dec = sky.radec(rows, t)
         v = np.stack([np.interp(t, body_t, vec[:, i]) for i in range(3)], axis=-1)
         v /= np.linalg.norm(v, axis=-1, keepdims=True)
-        u = frames.unit_vectors(np.degrees(ra - sky.eo), np.degrees(dec))
+        u = sky.unit(rows, t)
         cosd = np.clip(np.sum(u * v, axis=-1), -1.0, 1.0)
         return np.degrees(np.arccos(cosd)) - gap_deg
 
@@ -350,6 +365,19 @@ def _alt_margin(sky: Sky, alt_app_deg: float):
 
 
 # ------------------------------------------------------------------ main
+
+
+def preload(targets: TargetSet) -> None:
+    """Load the data :func:`compute_windows` reads (ERFA, the IERS table; for the Sun, Moon,
+    planets and orbits the ephemeris too), so that forked workers share one copy."""
+    import erfa  # noqa: F401
+
+    from skyplan import ephemeris
+
+    timescales.earth_orientation()
+    if (targets.body != "").any():
+        ephemeris.planets()
+        ephemeris.timescale()
 
 
 def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Limits,
@@ -518,23 +546,37 @@ def _gap_intervals(sky, rows, t, ra_deg, dec_deg, gap_deg, span, motion_deg,
     def grid_margin(r, t_grid):
         v = np.stack([np.interp(t_grid, t, vec[:, i]) for i in range(3)], axis=-1)
         v /= np.linalg.norm(v, axis=-1, keepdims=True)
-        u = frames.unit_vectors(np.degrees(sky.ra[r] - sky.eo), np.degrees(sky.dec[r]))
-        return cos_gap - u @ v.T  # positive where farther than the gap
+        return cos_gap - sky.unit(r, None) @ v.T  # positive where farther than the gap
 
     near = _sampled(sky, rows[close], distance_margin(sky, t, ra_deg, dec_deg, gap_deg), span,
                     grid_margin)
     return far.union_rows(near)
 
 
+def _distance_at(sky, rows, when: float, body_t, ra_deg, dec_deg) -> np.ndarray:
+    """Angular distance (degrees) of targets ``rows`` from a body at one instant."""
+    vec = frames.unit_vectors(ra_deg, dec_deg)
+    v = np.array([np.interp(when, body_t, vec[:, i]) for i in range(3)])
+    v /= np.linalg.norm(v)
+    out = np.empty(len(rows))
+    mv = sky.moving[rows]
+    u = sky.unit(rows[~mv], None)
+    cosd = u[:, 0] * v[0] + u[:, 1] * v[1] + u[:, 2] * v[2]
+    out[~mv] = np.degrees(np.arccos(np.clip(cosd, -1.0, 1.0)))
+    if mv.any():
+        f = distance_margin(sky, body_t, ra_deg, dec_deg, 0.0)
+        out[mv] = f(rows[mv], np.full(int(mv.sum()), when))
+    return out
+
+
 def _distance_now(sky, rows, t, ra_deg, dec_deg) -> np.ndarray:
-    f = distance_margin(sky, t, ra_deg, dec_deg, 0.0)
-    return f(rows, np.full(len(rows), sky.t_mid))
+    return _distance_at(sky, rows, sky.t_mid, t, ra_deg, dec_deg)
 
 
 def _min_distance(sky, rows, tr, span) -> np.ndarray:
-    f = distance_margin(sky, tr.t, tr.sun_ra_deg, tr.sun_dec_deg, 0.0)
     times = (span[0], sky.t_mid, span[1]) if span[1] > span[0] else (sky.t_mid,)
-    return np.min([f(rows, np.full(len(rows), tt)) for tt in times], axis=0)
+    return np.min([_distance_at(sky, rows, tt, tr.t, tr.sun_ra_deg, tr.sun_dec_deg)
+                   for tt in times], axis=0)
 
 
 def _best(sky: Sky, windows: Intervals, transit: np.ndarray, n: int):

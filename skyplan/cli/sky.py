@@ -27,6 +27,9 @@ Refraction = typer.Option("bennett", "--refraction",
                           "(A tan z + B tan³ z).")
 
 
+SMALL_JSON = 2000  # targets: JSON up to this size is indented, for people as well as programs
+
+
 def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
                no_horizon_profile, airmass_model, refraction) -> dict:
     """The limit options of a command as keyword arguments of ``limits.build_limits``."""
@@ -36,15 +39,22 @@ def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_rang
                 refraction_model=refraction)
 
 
-def night_of(site, date_text, demo):
-    from skyplan import ephemeris, night, scenario, timeinput
+def night_date(site, date_text, demo):
+    """The local date whose evening starts the night, checked against the ephemeris span."""
+    from skyplan import ephemeris, scenario, timeinput
 
     if date_text is None and demo:
         date_text = scenario.DEMO_DATE
     date = timeinput.parse_night_date(date_text, site.tzinfo)
     start = timeinput.local_noon_unix(date, site.tzinfo)
     ephemeris.check_in_span(start, start + 86400.0, field="--date")
-    return night.compute_night(site, date)
+    return date
+
+
+def night_of(site, date_text, demo):
+    from skyplan import night
+
+    return night.compute_night(site, night_date(site, date_text, demo))
 
 
 @app.command("night")
@@ -72,32 +82,138 @@ def night_cmd(
 
 def load_targets(catalog, demo, skip_bad, elements=None):
     """The catalogue (or the demo's) as a TargetSet, names resolved."""
-    from skyplan import scenario, targets
-    from skyplan.errors import InputError
+    from skyplan import targets
+
+    path = _catalog_path(catalog, demo)
+    return targets.target_set(read_catalogue(path, skip_bad), orbits=_orbits(elements),
+                              source=path)
+
+
+def _catalog_path(catalog, demo):
+    from skyplan import scenario
 
     if catalog is None:
-        if not demo:
-            raise InputError("give a catalogue file (CSV, TSV, ECSV, VOTable, FITS) or --demo",
-                             field="CATALOG")
-        catalog = str(scenario.demo_path(scenario.DEMO_CATALOG))
-    orbits = ()
-    if elements:
-        from skyplan import orbits as orbit_mod
-
-        orbits = orbit_mod.read_elements(elements)
-    cat = targets.load_catalog(catalog, skip_bad=skip_bad)
-    return targets.target_set(cat, orbits=orbits, source=catalog)
+        return str(scenario.demo_path(scenario.DEMO_CATALOG)) if demo else None
+    return catalog
 
 
-def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw):
-    from skyplan import limits, windows
+def read_catalogue(path, skip_bad):
+    from skyplan import targets
+    from skyplan.errors import InputError
+
+    if path is None:
+        raise InputError("give a catalogue file (CSV, TSV, ECSV, VOTable, FITS) or --demo",
+                         field="CATALOG")
+    return targets.load_catalog(path, skip_bad=skip_bad)
+
+
+def _large_file(path) -> bool:
+    """Whether a catalogue file is large enough to be worth worker processes."""
+    import os
+
+    from skyplan import parallel
+
+    try:
+        return path is not None and os.path.getsize(path) >= parallel.WORTHWHILE_BYTES
+    except (OSError, ValueError):
+        return False  # the reader says what is wrong with the name
+
+
+def night_worker(catalog, demo):
+    """A worker to compute the night in while a large catalogue is read (else none)."""
+    from skyplan import parallel
+
+    count = parallel.worker_count()  # a bad SKYPLAN_WORKERS is reported whatever the size
+    large = _large_file(_catalog_path(catalog, demo))
+    return parallel.Workers(1 if large and count >= 2 else 0)
+
+
+def _night(site, day):
+    """The night, and the IERS table read for it (so that the parent need not read it)."""
+    from skyplan import night, timescales
+
+    return night.compute_night(site, day), timescales.earth_orientation()
+
+
+def window_inputs(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw,
+                  pool):
+    """Site, limits, night, targets and orbits of a windows run.
+
+    With workers (a large catalogue) the night is computed in one of them while the
+    catalogue is read here.  Problems and notices still come in the order of a plain run:
+    site, limits, date, the night (its data files), the elements file, the catalogue.
+    """
+    from skyplan import limits, notices, targets, timescales
+    from skyplan.errors import SkyplanError
 
     the_site = common.get_site(site, sites_file, demo)
     lim = limits.build_limits(the_site.limits, **limits_kw)
-    n = night_of(the_site, date, demo)
-    tset, ident = load_targets(catalog, demo, skip_bad, elements)
-    return the_site, windows.compute_windows(tset, the_site, n, lim, orbits=_orbits(elements)), \
-        ident
+    day = night_date(the_site, date, demo)
+    path = _catalog_path(catalog, demo)
+    pending = pool.run(_night, the_site, day)
+    problem = None
+    with notices.held() as catalogue_notes:
+        try:
+            orbits = _orbits(elements)
+            cat = read_catalogue(path, skip_bad)
+        except SkyplanError as exc:
+            problem = exc
+    n, table = pending.result()
+    timescales.hand_over(table)
+    catalogue_notes.release()
+    if problem is not None:
+        raise problem
+    tset, _ = targets.target_set(cat, orbits=orbits, source=path)
+    return the_site, lim, n, tset, orbits
+
+
+def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw):
+    from skyplan import windows
+
+    with night_worker(catalog, demo) as pool:
+        the_site, lim, n, tset, orbits = window_inputs(catalog, site, sites_file, demo, date,
+                                                       skip_bad, elements, limits_kw, pool)
+    return the_site, windows.compute_windows(tset, the_site, n, lim, orbits=orbits), \
+        tset.identifiers
+
+
+def window_blocks(fmt, the_site, n, lim, tset, orbits):
+    """The windows as JSON, NDJSON or CSV bytes, block by block of targets, each block
+    computed and encoded by a worker (or here, one after another, without workers)."""
+    import numpy.ma  # noqa: F401  (np.unique imports it on first use: here, once for all)
+    import orjson  # noqa: F401
+
+    from skyplan import parallel, windows
+    from skyplan.render import windowview
+
+    windows.preload(tset)  # loaded once, before the workers are forked
+    count = parallel.worker_count()
+    processes = count if count >= 2 and len(tset) >= parallel.PARALLEL_FROM else 0
+    with_identifier = bool((tset.identifiers != "").any())
+    bounds = parallel.block_bounds(len(tset), count)
+    context = (fmt, the_site, n, lim, orbits, tset, with_identifier)
+    blocks = _blocks(processes, context, bounds)
+    return blocks if fmt == "csv" else windowview.json_stream(blocks, ndjson=fmt == "ndjson")
+
+
+def _blocks(processes, context, bounds):
+    from skyplan import parallel
+
+    with parallel.Workers(min(processes, len(bounds)), shared=context) as pool:
+        yield from pool.map(_window_block, bounds)
+
+
+def _window_block(a, b) -> bytes:
+    """Targets ``a`` to ``b``: computed, then encoded (runs in a worker)."""
+    from skyplan import parallel, windows
+    from skyplan.render import windowview
+
+    fmt, the_site, n, lim, orbits, tset, with_identifier = parallel.shared()
+    res = windows.compute_windows(tset.rows(a, b), the_site, n, lim, orbits=orbits)
+    if fmt == "csv":
+        columns = windowview.csv_columns(list(res.lost_s), with_identifier=with_identifier)
+        return windowview.csv_block(res, columns, header=a == 0)
+    return windowview.json_block(res, ndjson=fmt == "ndjson")
 
 
 def _orbits(elements):
@@ -136,15 +252,22 @@ def windows_cmd(
     quiet: bool = common.QuietOpt,
 ) -> None:
     """Rise, transit, set and the observable windows of every target tonight."""
-    from skyplan import timeline
-    from skyplan.render import records, tables, windowview
-
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     limits_kw = limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
                            between, no_horizon_profile, airmass_model, refraction)
-    the_site, res, ident = window_result(catalog, site, sites_file, demo, date, skip_bad,
-                                         elements, limits_kw)
+    with night_worker(catalog, demo) as pool:
+        the_site, lim, n, tset, orbits = window_inputs(catalog, site, sites_file, demo, date,
+                                                       skip_bad, elements, limits_kw, pool)
+    small_json = fmt == "json" and len(tset) <= SMALL_JSON
+    if fmt != "table" and not small_json and len(tset):
+        # machine formats for large results: computed, encoded and written block by block
+        common.emit(window_blocks(fmt, the_site, n, lim, tset, orbits), out)
+        return
+    from skyplan import timeline, windows
+    from skyplan.render import records, tables, windowview
+
+    res = windows.compute_windows(tset, the_site, n, lim, orbits=orbits)
     if fmt == "table":
         import numpy as np
 
@@ -152,11 +275,10 @@ def windows_cmd(
         table = windowview.windows_table(res, the_site, codes, edges,
                                          color=common.is_terminal())
         common.emit(tables.render_text(table), out)
-        return
-    if fmt == "json" and len(res.names) <= 2000:  # small results: indented, for people too
+    elif small_json:  # indented, for people too
         recs = windowview.window_records(res, text_times=False)
         common.emit(records.to_json(recs, clean=False), out)
-    elif fmt in ("json", "ndjson"):
-        common.emit(windowview.json_chunks(res, ndjson=fmt == "ndjson"), out)
-    else:
+    elif fmt == "ndjson":  # no targets: no lines
+        common.emit(b"", out)
+    else:  # CSV with no targets: the header alone
         common.emit(windowview.csv_chunks(res), out)

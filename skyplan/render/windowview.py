@@ -100,16 +100,27 @@ def _window_records(res, times, a: int, b: int) -> list[dict]:
     return out
 
 
-def _float_tokens(a, places: int) -> list[bytes]:
-    """JSON number tokens (null for NaN and infinities) of a float column, one orjson call."""
+def _keyed(key: bytes, body: bytes, n: int) -> list[bytes]:
+    """Tokens ``key + value`` from the comma-separated values of one orjson array.
+
+    ``body`` must hold no comma but those between values.  The key goes in with two
+    whole-buffer operations instead of one concatenation per target.
+    """
+    if n == 0:
+        return []
+    return (key + body.replace(b",", b"\x00" + key)).split(b"\x00")
+
+
+def _float_tokens(key: bytes, a, places: int) -> list[bytes]:
+    """``key`` + JSON number (null for NaN and infinities) per value, one orjson call."""
     import orjson
 
-    a = np.round(np.asarray(a, dtype=float), places)
-    return orjson.dumps(a.tolist())[1:-1].split(b",") if len(a) else []
+    a = np.round(np.asarray(a, dtype=float), places)  # a new, contiguous array
+    return _keyed(key, orjson.dumps(a, option=orjson.OPT_SERIALIZE_NUMPY)[1:-1], len(a))
 
 
-def _time_tokens(unix) -> list[bytes]:
-    """JSON tokens of UTC instants: quoted ISO 8601 with Z to the second, or null."""
+def _time_tokens(key: bytes, unix) -> list[bytes]:
+    """``key`` + quoted ISO 8601 UTC instant with Z to the second (or null) per value."""
     import orjson
 
     u = np.round(np.asarray(unix, dtype=float))
@@ -117,29 +128,30 @@ def _time_tokens(unix) -> list[bytes]:
     stamps = np.where(ok, u, 0.0).astype("int64").astype("datetime64[s]")
     stamps[~ok] = np.datetime64("NaT")
     body = orjson.dumps(stamps.tolist(), option=orjson.OPT_NAIVE_UTC | orjson.OPT_UTC_Z)
-    return body[1:-1].split(b",") if len(u) else []
+    return _keyed(key, body[1:-1], len(u))
 
 
-def _text_tokens(values) -> list[bytes]:
-    """JSON string tokens; one orjson call for the column unless a value holds a comma."""
+def _text_tokens(key: bytes, values) -> list[bytes]:
+    """``key`` + JSON string per value; one orjson call unless a value holds a comma."""
     import orjson
 
     vals = list(values)
-    if any("," in v for v in vals):
-        return [orjson.dumps(v) for v in vals]
-    return orjson.dumps(vals)[1:-1].split(b",") if vals else []
+    if "," in "".join(vals):
+        return [key + orjson.dumps(v) for v in vals]
+    return _keyed(key, orjson.dumps(vals)[1:-1], len(vals))
 
 
-def _bool_tokens(a) -> list[bytes]:
-    return [b"true" if x else b"false" for x in np.asarray(a, bool).tolist()]
+def _bool_tokens(key: bytes, a) -> list[bytes]:
+    yes, no = key + b"true", key + b"false"
+    return [yes if x else no for x in np.asarray(a, bool).tolist()]
 
 
 def window_json_lines(res, a: int = 0, b: int | None = None) -> list[bytes]:
     """Compact JSON, one line per target (targets ``a`` to ``b``).
 
-    Byte for byte what orjson makes of :func:`window_records`, three times faster: each
-    column is encoded by one orjson call and split into tokens, and the records are joined
-    from the tokens, with no dictionary per target.
+    Byte for byte what orjson makes of :func:`window_records`, several times faster: each
+    column is encoded by one orjson call and split into tokens that carry their key, and
+    the records are joined from the tokens, with no dictionary per target.
     """
     import orjson
 
@@ -148,88 +160,116 @@ def window_json_lines(res, a: int = 0, b: int | None = None) -> list[bytes]:
     w = res.windows
     lo, hi = np.searchsorted(w.rows, [a, b])
     ws, we = w.start[lo:hi], w.end[lo:hi]
-    win = _joined([(b'{"start":', _time_tokens(ws)), (b',"end":', _time_tokens(we)),
-                   (b',"minutes":', _float_tokens((we - ws) / 60.0, 2))], b"}")
-    per_row = [b""] * n
+    win = _joined([_time_tokens(b'{"start":', ws), _time_tokens(b',"end":', we),
+                   _float_tokens(b',"minutes":', (we - ws) / 60.0, 2)], b"}")
+    per_row = [b',"windows":['] * n
     if hi > lo:
         bounds = np.searchsorted(w.rows[lo:hi] - a, np.arange(n + 1)).tolist()
         for i in np.nonzero(np.diff(bounds))[0].tolist():
-            per_row[i] = b",".join(win[bounds[i]:bounds[i + 1]])
-    lost = _joined([((b"," if j else b"") + b'"' + k.encode() + b'":',
-                     _float_tokens(res.lost_s[k][a:b] / 60.0, 2))
-                    for j, k in enumerate(res.lost_s)], b"") if res.lost_s else [b""] * n
+            per_row[i] = b',"windows":[' + b",".join(win[bounds[i]:bounds[i + 1]])
     ident = [b"" if not x else b',"identifier":' + orjson.dumps(x)
              for x in res.identifiers[a:b].tolist()]
-    fields = [
-        (b'{"name":', _text_tokens(res.names[a:b].tolist())),
-        (b',"ra_deg":', _float_tokens(res.ra_deg[a:b], 7)),
-        (b',"dec_deg":', _float_tokens(res.dec_deg[a:b], 7)),
-        (b',"rise":', _time_tokens(res.rise[a:b])),
-        (b',"transit":', _time_tokens(res.transit[a:b])),
-        (b',"set":', _time_tokens(res.set[a:b])),
-        (b',"transit_alt_deg":', _float_tokens(res.transit_alt_deg[a:b], 3)),
-        (b',"transit_airmass":', _float_tokens(res.transit_airmass[a:b], 4)),
-        (b',"windows":[', per_row),
-        (b'],"usable_minutes":', _float_tokens(res.usable_s[a:b] / 60.0, 2)),
-        (b',"best_time":', _time_tokens(res.best_time[a:b])),
-        (b',"best_airmass":', _float_tokens(res.best_airmass[a:b], 4)),
-        (b',"status":', _text_tokens(_status(res, a, b))),
-        (b',"lost_minutes":{', lost),
-        (b'},"near_sun":', _bool_tokens(res.near_sun[a:b])),
-        (b',"daylight_window":', _bool_tokens(res.daylight_window[a:b])),
-        (b',"sun_distance_deg":', _float_tokens(res.sun_distance_deg[a:b], 2)),
-        (b',"moon_distance_deg":', _float_tokens(res.moon_distance_deg[a:b], 2)),
-        (b"", ident),
+    columns = [
+        _text_tokens(b'{"name":', res.names[a:b].tolist()),
+        _float_tokens(b',"ra_deg":', res.ra_deg[a:b], 7),
+        _float_tokens(b',"dec_deg":', res.dec_deg[a:b], 7),
+        _time_tokens(b',"rise":', res.rise[a:b]),
+        _time_tokens(b',"transit":', res.transit[a:b]),
+        _time_tokens(b',"set":', res.set[a:b]),
+        _float_tokens(b',"transit_alt_deg":', res.transit_alt_deg[a:b], 3),
+        _float_tokens(b',"transit_airmass":', res.transit_airmass[a:b], 4),
+        per_row,
+        _float_tokens(b'],"usable_minutes":', res.usable_s[a:b] / 60.0, 2),
+        _time_tokens(b',"best_time":', res.best_time[a:b]),
+        _float_tokens(b',"best_airmass":', res.best_airmass[a:b], 4),
+        _text_tokens(b',"status":', _status(res, a, b)),
+        *_lost_columns(res, a, b),
+        _bool_tokens(b'},"near_sun":', res.near_sun[a:b]),
+        _bool_tokens(b',"daylight_window":', res.daylight_window[a:b]),
+        _float_tokens(b',"sun_distance_deg":', res.sun_distance_deg[a:b], 2),
+        _float_tokens(b',"moon_distance_deg":', res.moon_distance_deg[a:b], 2),
+        ident,
     ]
-    return _joined(fields, b"}")
+    return _joined(columns, b"}")
 
 
-def _joined(fields: list[tuple[bytes, list[bytes]]], tail: bytes) -> list[bytes]:
-    """Row by row: key, token, key, token, ..., tail."""
-    parts = []
-    for key, tokens in fields:
-        parts += [itertools.repeat(key), tokens]
-    parts.append(itertools.repeat(tail))
-    return list(map(b"".join, zip(*parts)))
+def _lost_columns(res, a: int, b: int) -> list:
+    """The ``lost_minutes`` object: one token column per limit (the first opens it)."""
+    keys = list(res.lost_s)
+    if not keys:
+        return [itertools.repeat(b',"lost_minutes":{')]
+    return [_float_tokens((b"," if j else b',"lost_minutes":{') + b'"' + k.encode() + b'":',
+                          res.lost_s[k][a:b] / 60.0, 2) for j, k in enumerate(keys)]
 
 
-def json_chunks(res, *, ndjson: bool, chunk: int = 50_000):
-    """The windows as JSON (an array) or NDJSON, produced a block of targets at a time so
-    that a million-target catalogue never holds all its records in memory at once."""
-    n = len(res.names)
+def _joined(columns: list, tail: bytes) -> list[bytes]:
+    """Row by row: the tokens of every column in order, then ``tail``."""
+    return list(map(b"".join, zip(*columns, itertools.repeat(tail))))
+
+
+def json_block(res, a: int = 0, b: int | None = None, *, ndjson: bool) -> bytes:
+    """Targets ``a`` to ``b`` as NDJSON lines, or as array members joined by commas."""
+    lines = window_json_lines(res, a, b)
+    return b"\n".join(lines) + b"\n" if ndjson else b",".join(lines)
+
+
+def json_stream(blocks, *, ndjson: bool):
+    """The whole document from blocks made by :func:`json_block`, in order: an array, or
+    NDJSON (the blocks as they are)."""
     if not ndjson:
         yield b"["
-    for k, a in enumerate(range(0, n, chunk)):
-        lines = window_json_lines(res, a, min(n, a + chunk))
-        if ndjson:
-            yield b"\n".join(lines) + b"\n"
-        else:
-            yield (b"," if k else b"") + b",".join(lines)
+    for k, block in enumerate(blocks):
+        if k and not ndjson:
+            yield b","
+        yield block
     if not ndjson:
         yield b"]\n"
 
 
-def csv_chunks(res, *, chunk: int = 50_000):
-    """The windows as CSV, one row per target (windows as START/END pairs joined by ';',
-    lost minutes as ``lost_<limit>_min`` columns), a block of targets at a time."""
+def json_chunks(res, *, ndjson: bool, chunk: int = 50_000):
+    """The windows as JSON (an array) or NDJSON, produced a block of targets at a time so
+    that a million-target result never holds all its records in memory at once."""
+    n = len(res.names)
+    return json_stream((json_block(res, a, min(n, a + chunk), ndjson=ndjson)
+                        for a in range(0, n, chunk)), ndjson=ndjson)
+
+
+CSV_BASE_COLUMNS = ("name", "ra_deg", "dec_deg", "rise", "transit", "set", "transit_alt_deg",
+                    "transit_airmass", "usable_minutes", "best_time", "best_airmass", "status",
+                    "near_sun", "daylight_window", "sun_distance_deg", "moon_distance_deg",
+                    "windows")
+
+
+def csv_columns(lost_keys, *, with_identifier: bool) -> list[str]:
+    """The CSV header: the record's fields (``identifier`` second when any target has one,
+    windows as START/END pairs joined by ';'), then ``lost_<limit>_min`` per limit."""
+    head = list(CSV_BASE_COLUMNS)
+    if with_identifier:
+        head.insert(1, "identifier")
+    return head + [f"lost_{k}_min" for k in lost_keys]
+
+
+def csv_block(res, columns: list[str], a: int = 0, b: int | None = None, *,
+              header: bool) -> bytes:
+    """Targets ``a`` to ``b`` as CSV rows, with the header line when ``header``."""
     from skyplan.render import records
 
+    recs = window_records(res, start=a, stop=b)
+    flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
+             "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
+             **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
+    text = records.to_csv(flat, columns)
+    return text if header else text.split(b"\n", 1)[1]
+
+
+def csv_chunks(res, *, chunk: int = 50_000):
+    """The windows as CSV, one row per target, a block of targets at a time."""
     n = len(res.names)
-    columns = None
+    columns = csv_columns(list(res.lost_s), with_identifier=bool((res.identifiers != "").any()))
+    if n == 0:
+        yield csv_block(res, columns, header=True)
     for a in range(0, n, chunk):
-        recs = window_records(res, start=a, stop=min(n, a + chunk))
-        flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
-                 "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
-                 **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
-        if columns is None:
-            columns = list(flat[0]) if flat else []
-            if "identifier" not in columns and (res.identifiers != "").any():
-                columns.insert(1, "identifier")
-            yield records.to_csv(flat, columns)
-        else:
-            yield records.to_csv(flat, columns).split(b"\n", 1)[1]  # without the header
-    if columns is None:
-        yield records.to_csv([], ["name"])
+        yield csv_block(res, columns, a, min(n, a + chunk), header=a == 0)
 
 
 def _status(res, a: int = 0, b: int | None = None) -> list[str]:
