@@ -80,15 +80,6 @@ def night_cmd(
         common.emit(tables.render_text(nightview.night_table(n, the_site)), out)
 
 
-def load_targets(catalog, demo, skip_bad, elements=None):
-    """The catalogue (or the demo's) as a TargetSet, names resolved."""
-    from skyplan import targets
-
-    path = _catalog_path(catalog, demo)
-    return targets.target_set(read_catalogue(path, skip_bad), orbits=_orbits(elements),
-                              source=path)
-
-
 def _catalog_path(catalog, demo):
     from skyplan import scenario
 
