@@ -214,6 +214,7 @@ def parse_column(
     *,
     colon_scale: float | None = None,
     unsigned: bool = False,
+    decimals: np.ndarray | None = None,
 ) -> tuple[np.ndarray, dict[int, str]]:
     """Parse a column of text into float64, fast for plain decimal numbers.
 
@@ -225,14 +226,22 @@ def parse_column(
     Repeated texts are parsed once.  Empty entries (blank text, None, NaN numbers) give NaN
     without an error.
 
+    ``decimals``, when given, takes the place of the first conversion: the entries already
+    read as numbers by a reader that gives exactly what ``float`` gives for each text, and
+    NaN exactly where the entry is empty.  Only the entries that fail ``valid`` are then
+    parsed one by one.
+
     Returns the values and ``{row index: message}`` for the entries that could not be read
     (NaN in the array).
     """
     n = len(values)
-    try:
-        out = np.array(values, dtype=np.float64)
-    except (TypeError, ValueError):
-        out = None
+    if decimals is not None:
+        out = np.array(decimals, dtype=np.float64)
+    else:
+        try:
+            out = np.array(values, dtype=np.float64)
+        except (TypeError, ValueError):
+            out = None
     if (out is None or out.shape != (n,)) and colon_scale is not None:
         out = _colon_column(values, colon_scale, unsigned)
     if out is None or out.shape != (n,):
@@ -241,6 +250,8 @@ def parse_column(
     if valid is not None:
         with np.errstate(invalid="ignore"):
             redo |= ~valid(out)
+    if decimals is not None:
+        redo &= ~np.isnan(decimals)  # empty entries: NaN, as the loop below would give
     errors: dict[int, str] = {}
     seen: dict[str, float | str] = {}
     for i in np.flatnonzero(redo).tolist():
@@ -263,14 +274,26 @@ def parse_column(
     return out, errors
 
 
-def parse_ra_column(values: Sequence[object]) -> tuple[np.ndarray, dict[int, str]]:
-    """Right ascensions in degrees (NaN where empty or bad) and ``{row index: message}``."""
-    return parse_column(values, parse_ra_deg, _ra_ok, colon_scale=15.0, unsigned=True)
+def parse_ra_column(
+    values: Sequence[object], *, decimals: np.ndarray | None = None
+) -> tuple[np.ndarray, dict[int, str]]:
+    """Right ascensions in degrees (NaN where empty or bad) and ``{row index: message}``.
+
+    ``decimals``: see :func:`parse_column`.
+    """
+    return parse_column(
+        values, parse_ra_deg, _ra_ok, colon_scale=15.0, unsigned=True, decimals=decimals
+    )
 
 
-def parse_dec_column(values: Sequence[object]) -> tuple[np.ndarray, dict[int, str]]:
-    """Declinations in degrees (NaN where empty or bad) and ``{row index: message}``."""
-    return parse_column(values, parse_dec_deg, _dec_ok, colon_scale=1.0)
+def parse_dec_column(
+    values: Sequence[object], *, decimals: np.ndarray | None = None
+) -> tuple[np.ndarray, dict[int, str]]:
+    """Declinations in degrees (NaN where empty or bad) and ``{row index: message}``.
+
+    ``decimals``: see :func:`parse_column`.
+    """
+    return parse_column(values, parse_dec_deg, _dec_ok, colon_scale=1.0, decimals=decimals)
 
 
 def _check_places(places: int) -> int:

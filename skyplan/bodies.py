@@ -41,7 +41,7 @@ def sf_time(unix):
 
 @functools.lru_cache(maxsize=16)
 def observer(lat_deg: float, lon_deg: float, elevation_m: float):
-    from skyfield.api import wgs84
+    from skyfield.toposlib import wgs84
 
     return ephemeris.planets()["earth"] + wgs84.latlon(lat_deg, lon_deg, elevation_m)
 

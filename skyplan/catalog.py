@@ -38,7 +38,8 @@ Columns with other names are ignored and listed in :attr:`CatalogRead.ignored_co
 Checks: |proper motion| below 100000 mas/yr, parallax >= 0, |radial velocity| below the
 speed of light, exposure > 0, priority a whole number from 0 to 1000000, Julian epochs from
 J1000 to J3000 (``B``-prefixed Besselian epochs are refused), fields at most 1000 characters,
-no control characters in names and notes; at most 5,000,000 rows (constants below).
+no control characters in names and notes; at most 5,000,000 rows (the limits are
+constants in :mod:`skyplan.delimited`).
 
 Every bad field is collected as an :class:`~skyplan.errors.InputError` naming the file, line
 and column; they are raised together as :class:`~skyplan.errors.InputErrors`, or, with
@@ -49,26 +50,21 @@ evaluated, and XML with a DOCTYPE or entity declaration is refused before parsin
 
 from __future__ import annotations
 
-import csv
 import io
 import re
 import warnings
 from collections import Counter
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from operator import methodcaller
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from skyplan import notices
+from skyplan import decimaltext, delimited, notices
 from skyplan.angles import parse_column, parse_dec_column, parse_ra_column
 from skyplan.errors import InputError, InputErrors
 
-MAX_FIELD_CHARS = 1000  # longer fields are refused (per row)
-MAX_ROWS = 5_000_000  # more data rows than this refuses the whole file
-MAX_FILE_BYTES = 1 << 30  # larger text files are refused before reading
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)
 EPOCH_RANGE_JYEAR = (1000.0, 3000.0)  # accepted Julian epoch years, inclusive
@@ -91,6 +87,7 @@ _ALIASES: dict[str, tuple[str, ...]] = {
 }
 _FIELD_OF_HEADER = {alias: key for key, aliases in _ALIASES.items() for alias in aliases}
 _REQUIRED = ("name", "ra_deg", "dec_deg")
+_TEXT_FIELDS = ("name", "notes")
 
 # Units of numeric columns in astropy tables (astropy unit strings).
 _UNITS = {
@@ -106,7 +103,6 @@ _UNITS = {
 # Characters that must not reach a terminal inside a name or note: C0/C1 controls (newline
 # and tab included), line/paragraph separators and bidirectional overrides.
 _UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
-_BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 _DELIMITED = {".csv": ",", ".tsv": "\t", ".txt": None}
 _ASTROPY = {
@@ -203,6 +199,8 @@ class _Columns:
     in_lines: bool  # whether ``where`` holds text lines
     ignored: list[str]
     problems: dict[int, list[tuple[str | None, str]]]  # row -> [(column, message)]
+    trimmed: bool = False  # every text is printable ASCII without a space at either end
+    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see decimaltext.read_decimals
 
 
 def read_catalog(path: str | Path, *, skip_bad: bool = False) -> CatalogRead:
@@ -233,224 +231,13 @@ def read_catalog(path: str | Path, *, skip_bad: bool = False) -> CatalogRead:
 # Text formats
 
 
-def _read_text(path: Path, source: str) -> str:
-    """The whole file as text; InputError naming the line of the first non-UTF-8 byte."""
-    try:
-        size = path.stat().st_size
-        if size > MAX_FILE_BYTES:
-            raise InputError(
-                f"file is {size} bytes; catalogues of at most {MAX_FILE_BYTES} bytes are read",
-                file=source,
-            )
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from exc
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data.count(b"\n", 0, exc.start) + 1
-        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
-        if exc.reason == "unexpected end of data":
-            raise InputError(
-                f"the file ends inside a UTF-8 character (column {column}): it was cut short",
-                file=source,
-                line=line,
-            ) from None
-        raise InputError(
-            f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
-            "save the file as UTF-8",
-            file=source,
-            line=line,
-        ) from None
-    if text.strip() and not text.endswith(("\n", "\r")):
-        notices.add(
-            f"{source}: the file does not end with a line break; if it was cut short, its "
-            f"last row (line {text.count(chr(10)) + 1}) is incomplete"
-        )
-    return text
-
-
-def _is_content(line: str, blank_chars: str) -> bool:
-    """Whether a line starting a row holds data: not blank, not a comment, not separators only.
-
-    Rows of separators only (",,,," as spreadsheets export them) hold nothing and are skipped
-    like blank lines.
-    """
-    stripped = line.lstrip()
-    return bool(stripped) and stripped[0] != "#" and bool(line.strip(blank_chars))
-
-
-class _LineFeed:
-    """Feeds a csv reader, skipping comment and blank lines between rows.
-
-    ``row_start`` is the physical (1-based) line on which the current row began; ``lineno``
-    the last line read.  Lines inside a quoted multi-line field are passed through as they are.
-    """
-
-    def __init__(self, lines: list[str], delimiter: str) -> None:
-        self._lines = lines
-        self._blank_chars = _BLANK + delimiter
-        self.lineno = 0
-        self.row_start = 0
-        self.at_row_start = True
-
-    def lines(self) -> Iterator[str]:
-        for line in self._lines:
-            self.lineno += 1
-            if self.at_row_start:
-                if not _is_content(line, self._blank_chars):
-                    continue
-                self.row_start = self.lineno
-                self.at_row_start = False
-            yield line
-
-
-def _too_many_rows(source: str, line: int) -> InputError:
-    return InputError(f"more than {MAX_ROWS} rows; split the catalogue", file=source, line=line)
-
-
-def _csv_error(source: str, delimiter: str, exc: csv.Error, line: int) -> InputError:
-    return InputError(f"malformed {delimiter!r}-separated text: {exc}", file=source, line=line)
-
-
-def _content_lines(text: str, lines: list[str], delimiter: str, source: str) -> range | list[int]:
-    """Indices of the lines that hold rows (header included), for text without quotes.
-
-    When no line starts with white space, ``#`` or the delimiter (found by one scan of the
-    text), every line holds a row; otherwise each line is looked at.
-    """
-    lone_cr = text.count("\r") != text.count("\r\n")  # old Mac line ends: look at each line
-    first = text[:1]
-    if lone_cr or not first or first.isspace() or first in ("#", delimiter):
-        plain = False
-    else:
-        plain = re.search(rf"\n[\s#{re.escape(delimiter)}]", text) is None
-    if plain:
-        content: range | list[int] = range(len(lines))
-    else:
-        blank_chars = _BLANK + delimiter
-        content = [i for i, line in enumerate(lines) if _is_content(line, blank_chars)]
-    if len(content) > MAX_ROWS + 1:  # the header is not a data row
-        raise _too_many_rows(source, content[MAX_ROWS + 1] + 1)
-    return content
-
-
-@dataclass
-class _Grid:
-    """Cells of a delimited file by column, before any checking."""
-
-    header: list[str]
-    header_line: int
-    columns: list[Sequence[str]]
-    where: np.ndarray  # line of each row
-    row_chars: np.ndarray  # characters in each row, separators included
-    problems: dict[int, list[tuple[str | None, str]]]
-
-
-def _split_regular(lines: list[str], content: range | list[int], delimiter: str) -> _Grid | None:
-    """Fast split of text without quote characters, if every row has the header's width.
-
-    Without quotes a row is simply its line split at the delimiter, exactly as :mod:`csv`
-    reads it; the whole body is split at once and sliced into columns.  Returns None when
-    some row has a different number of fields (the csv path then reports it).
-    """
-    header = lines[content[0]].rstrip("\r\n").split(delimiter)
-    width = len(header)
-    if isinstance(content, range):  # every line holds a row
-        body = lines[1:]
-        where = np.arange(2, len(lines) + 1, dtype=np.int64)
-    else:
-        body = [lines[i] for i in content[1:]]
-        where = np.array(content[1:], dtype=np.int64) + 1
-    if body and set(map(methodcaller("count", delimiter), body)) != {width - 1}:
-        return None
-    joined = "".join(body).replace("\r\n", "\n").replace("\r", "\n").removesuffix("\n")
-    cells = joined.replace("\n", delimiter).split(delimiter) if body else []
-    if len(cells) != width * len(body):
-        return None
-    columns: list[Sequence[str]] = [cells[k::width] for k in range(width)]
-    row_chars = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
-    return _Grid(header, content[0] + 1, columns, where, row_chars, {})
-
-
-def _split_rows(rows: list[list[str]], starts: list[int]) -> _Grid:
-    """Rows from :mod:`csv` as columns; short rows padded, long rows reported."""
-    header, body = rows[0], rows[1:]
-    width = len(header)
-    problems: dict[int, list[tuple[str | None, str]]] = {}
-    lengths = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
-    for i in np.flatnonzero(lengths != width).tolist():
-        if lengths[i] < width:  # missing trailing fields are empty
-            body[i] = body[i] + [""] * (width - int(lengths[i]))
-        else:
-            message = (
-                f"row has {lengths[i]} fields but the header has {width} "
-                "(quote fields that contain the separator)"
-            )
-            problems.setdefault(i, []).append((None, message))
-            body[i] = body[i][:width]
-    columns = list(zip(*body, strict=True)) if body else [() for _ in header]
-    row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
-    where = np.array(starts[1:], dtype=np.int64)
-    return _Grid(header, starts[0], columns, where, row_chars, problems)
-
-
-def _rows_one_per_line(
-    lines: list[str], content: range | list[int], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text without quote characters, where every content line is one row."""
-    reader = csv.reader([lines[i] for i in content], delimiter=delimiter)
-    try:
-        rows = list(reader)
-    except csv.Error as exc:
-        raise _csv_error(source, delimiter, exc, content[reader.line_num - 1] + 1) from None
-    return rows, [i + 1 for i in content]
-
-
-def _rows_quoted(
-    lines: list[str], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text that may quote fields across lines; each row keeps its first line."""
-    feed = _LineFeed(lines, delimiter)
-    reader = csv.reader(feed.lines(), delimiter=delimiter)
-    rows: list[list[str]] = []
-    starts: list[int] = []
-    try:
-        for row in reader:
-            feed.at_row_start = True
-            rows.append(row)
-            starts.append(feed.row_start)
-            if len(rows) > MAX_ROWS + 1:  # the header is not a data row
-                raise _too_many_rows(source, feed.row_start)
-    except csv.Error as exc:
-        raise _csv_error(source, delimiter, exc, feed.lineno) from None
-    return rows, starts
-
-
 def _read_delimited(path: Path, source: str, delimiter: str | None) -> _Columns:
-    text = _read_text(path, source)
-    lines = io.StringIO(text, newline="").readlines()
-    if delimiter is None:  # .txt: tab if the header line has one
-        header = next((line for line in lines if (s := line.lstrip()) and s[0] != "#"), "")
-        delimiter = "\t" if "\t" in header else ","
-    grid = None
-    if '"' in text:
-        rows, starts = _rows_quoted(lines, delimiter, source)
-        if rows:
-            grid = _split_rows(rows, starts)
-    else:
-        content = _content_lines(text, lines, delimiter, source)
-        if content:
-            grid = _split_regular(lines, content, delimiter)
-            if grid is None:
-                grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source))
-    if grid is None:
-        raise InputError("no header line (expected columns name, ra, dec)", file=source)
-    return _columns_from_grid(source, grid)
+    return _columns_from_grid(source, delimited.read_grid(path, source, delimiter))
+
 
 
 def _too_long(size: int) -> str:
-    return f"field is {size} characters long; at most {MAX_FIELD_CHARS} are read"
+    return f"field is {size} characters long; at most {delimited.MAX_FIELD_CHARS} are read"
 
 
 def _map_headers(
@@ -493,16 +280,30 @@ def _map_headers(
     return positions, headers, ignored
 
 
-def _columns_from_grid(source: str, grid: _Grid) -> _Columns:
+def _columns_from_grid(source: str, grid: delimited.Grid) -> _Columns:
     """Map the header and check field sizes."""
     positions, headers, ignored = _map_headers(source, grid.header, grid.header_line)
     problems = grid.problems
-    for i in np.flatnonzero(grid.row_chars > MAX_FIELD_CHARS).tolist():
+    for i in grid.wide_rows.tolist():
         for name, column in zip(grid.header, grid.columns, strict=True):
-            if len(column[i]) > MAX_FIELD_CHARS:
+            if len(column[i]) > delimited.MAX_FIELD_CHARS:
                 problems.setdefault(i, []).append((name.strip(), _too_long(len(column[i]))))
-    values = {key: grid.columns[pos] for key, pos in positions.items()}
-    return _Columns(source, headers, values, grid.where, True, ignored, problems)
+    values: dict[str, Sequence[str]] = {}
+    decimals: dict[str, np.ndarray] = {}
+    for key, pos in positions.items():
+        column = grid.columns[pos]
+        if isinstance(column, delimited.Cells):
+            numbers = None
+            if key not in _TEXT_FIELDS:
+                numbers = decimaltext.read_decimals(column.data, column.start, column.end)
+            if numbers is None:
+                column = column.texts()
+            else:  # the text of a cell is made only if it is read again
+                decimals[key] = numbers
+        values[key] = column
+    return _Columns(
+        source, headers, values, grid.where, True, ignored, problems, grid.trimmed, decimals
+    )
 
 
 # ---------------------------------------------------------------------------------------
@@ -629,8 +430,9 @@ def _read_table(path: Path, source: str, fmt: str, label: str) -> _Columns:
             raise InputError(f"cannot read as {label}: {message}", file=source) from None
     for warning in caught[:3]:
         notices.add(f"{source}: {label} reader: {' '.join(str(warning.message).split())[:160]}")
-    if len(table) > MAX_ROWS:
-        raise InputError(f"more than {MAX_ROWS} rows; split the catalogue", file=source)
+    if len(table) > delimited.MAX_ROWS:
+        raise InputError(f"more than {delimited.MAX_ROWS} rows; split the catalogue",
+                         file=source)
     positions, headers, ignored = _map_headers(source, table.colnames, None)
     problems: dict[int, list[tuple[str | None, str]]] = {}
     values = {
@@ -644,7 +446,7 @@ def _read_table(path: Path, source: str, fmt: str, label: str) -> _Columns:
         where, in_lines = lines, True
     for key in ("name", "notes"):
         for i, text in enumerate(values.get(key, ())):
-            if len(str(text)) > MAX_FIELD_CHARS:
+            if len(str(text)) > delimited.MAX_FIELD_CHARS:
                 problems.setdefault(i, []).append((headers[key], _too_long(len(str(text)))))
     return _Columns(source, headers, values, where, in_lines, ignored, problems)
 
@@ -733,24 +535,32 @@ _DEFAULTS = {
 
 
 def _text_column(
-    values: Sequence[str], header: str, what: str, problems: dict, *, required: bool
+    values: Sequence[str],
+    header: str,
+    what: str,
+    problems: dict,
+    *,
+    required: bool,
+    trimmed: bool = False,
 ) -> np.ndarray:
-    """Stripped text as an object array, with empty (if required) and unprintable checked."""
-    texts = list(map(str.strip, values))
-    if _UNPRINTABLE.search("".join(texts)):
+    """Stripped text as an object array, with empty (if required) and unprintable checked.
+
+    ``trimmed`` tells that the texts are known to be printable ASCII without a space at
+    either end: there is nothing to strip or to look for.
+    """
+    texts = values if trimmed else list(map(str.strip, values))
+    if not trimmed and _UNPRINTABLE.search("".join(texts)):
         for i, text in enumerate(texts):
             match = _UNPRINTABLE.search(text)
             if match:
                 problems.setdefault(i, []).append(
                     (header, f"{what} contains the control character U+{ord(match.group()):04X}")
                 )
-    if required:
+    if required and not all(texts):
         lengths = np.fromiter(map(len, texts), dtype=np.int64, count=len(texts))
         for i in np.flatnonzero(lengths == 0).tolist():
             problems.setdefault(i, []).append((header, f"empty {what}"))
-    out = np.empty(len(texts), dtype=object)
-    out[:] = texts
-    return out
+    return np.fromiter(texts, dtype=object, count=len(texts))
 
 
 def _build(columns: _Columns, *, skip_bad: bool) -> CatalogRead:
@@ -762,14 +572,17 @@ def _build(columns: _Columns, *, skip_bad: bool) -> CatalogRead:
         for i, message in errors.items():
             problems.setdefault(i, []).append((headers[key], message))
 
-    names = _text_column(columns.values["name"], headers["name"], "name", problems, required=True)
-    notes_text = (
-        _text_column(columns.values["notes"], headers["notes"], "note", problems, required=False)
-        if "notes" in columns.values
-        else np.full(n, "", dtype=object)
-    )
-    ra, ra_errors = parse_ra_column(columns.values["ra_deg"])
-    dec, dec_errors = parse_dec_column(columns.values["dec_deg"])
+    def text(key: str, what: str, required: bool) -> np.ndarray:
+        if key not in columns.values:
+            return np.full(n, "", dtype=object)
+        return _text_column(columns.values[key], headers[key], what, problems,
+                            required=required, trimmed=columns.trimmed)
+
+    names = text("name", "name", required=True)
+    notes_text = text("notes", "note", required=False)
+    decimals = columns.decimals
+    ra, ra_errors = parse_ra_column(columns.values["ra_deg"], decimals=decimals.get("ra_deg"))
+    dec, dec_errors = parse_dec_column(columns.values["dec_deg"], decimals=decimals.get("dec_deg"))
     note(ra_errors, "ra_deg")
     note(dec_errors, "dec_deg")
     ra_empty = np.isnan(ra)
@@ -796,7 +609,9 @@ def _build(columns: _Columns, *, skip_bad: bool) -> CatalogRead:
         if key not in columns.values:
             numbers[key] = np.full(n, _DEFAULTS[key])
             continue
-        values, errors = parse_column(columns.values[key], parse_one, ok)
+        values, errors = parse_column(
+            columns.values[key], parse_one, ok, decimals=decimals.get(key)
+        )
         note(errors, key)
         empty = np.isnan(values)
         empty[list(errors)] = False

@@ -88,15 +88,23 @@ def _check_kernel(kernel, path: Path) -> None:
             continue
         _, _, rsize, n = daf.read_array(segment.end_i - 3, segment.end_i)
         n, rsize = int(n), int(rsize)
-        if n < 1 or rsize < 5 or segment.end_i - segment.start_i + 1 != n * rsize + 4:
+        if n < 1 or rsize < 5 or (rsize - 2) % 3 \
+                or segment.end_i - segment.start_i + 1 != n * rsize + 4:
             raise _damaged(path, f"segment of body {segment.target} has a bad directory")
-        words = np.asarray(daf.map_array(segment.start_i, segment.end_i - 4))
-        coefficients = words.reshape(n, rsize)[:, 2:].reshape(n, 3, -1)
-        if not np.isfinite(coefficients).all():
+        records = np.asarray(daf.map_array(segment.start_i, segment.end_i - 4)).reshape(n, rsize)
+        # each record's x, y, z at the end (T_k(+1) = 1) and the start (T_k(-1) = (-1)^k) of
+        # its interval, in one matrix product; a NaN or infinite coefficient makes them so too
+        degree = (rsize - 2) // 3
+        weights = np.zeros((rsize, 6))
+        for axis in range(3):
+            rows = slice(2 + axis * degree, 2 + (axis + 1) * degree)
+            weights[rows, axis] = 1.0
+            weights[rows, 3 + axis] = (-1.0) ** np.arange(degree)
+        with np.errstate(all="ignore"):  # non-numbers are reported below
+            ends_starts = records @ weights
+        if not np.isfinite(ends_starts).all():
             raise _damaged(path, f"segment of body {segment.target} holds non-numbers")
-        sign = (-1.0) ** np.arange(coefficients.shape[2])  # T_k(-1) = (-1)^k, T_k(+1) = 1
-        ends = coefficients.sum(axis=2)
-        starts = (coefficients * sign).sum(axis=2)
+        ends, starts = ends_starts[:, :3], ends_starts[:, 3:]
         if n > 1 and np.abs(ends[:-1] - starts[1:]).max() > CONTINUITY_KM:
             raise _damaged(path, f"segment of body {segment.target} does not join up")
 
@@ -104,14 +112,13 @@ def _check_kernel(kernel, path: Path) -> None:
 @functools.cache
 def planets():
     """The DE421 kernel as a skyfield ``SpiceKernel``, loaded and checked once."""
-    from skyfield.api import Loader
+    from skyfield.jpllib import SpiceKernel  # not skyfield.api: it imports the network code
 
     path = skyfield_data_dir() / "de421.bsp"
     if not path.is_file():
         raise DataError(f"the bundled ephemeris is missing: {path}; reinstall skyfield-data")
     try:
-        loader = Loader(str(path.parent), verbose=False)
-        kernel = loader("de421.bsp")
+        kernel = SpiceKernel(str(path))
         kernel["earth"]  # a file without the Earth is no use
         _check_kernel(kernel, path)
     except DataError:

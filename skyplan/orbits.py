@@ -438,7 +438,7 @@ def _kepler_orbit(element: OrbitElements):
 
 def _observed(element: OrbitElements, unix_times, lat_deg, lon_deg, elevation_m):
     """skyfield Astrometric position of the orbit (light time included), or None if no times."""
-    from skyfield.api import wgs84
+    from skyfield.toposlib import wgs84
 
     from skyplan.ephemeris import check_in_span, planets, timescale
     from skyplan.timescales import jd_tt

@@ -7,8 +7,10 @@ byte what one process writes (a test checks this).
 
 Workers are forked: they start with everything the parent has loaded (modules, data
 tables, the catalogue itself), so a block of targets is sent as two row numbers.  Results
-travel pickled.  Only Linux forks here: elsewhere, with one core, for small catalogues, or
-with ``SKYPLAN_WORKERS=1``, the same calls run in the process itself, one after another.
+travel pickled, except the text of a block, which a worker puts in memory shared with the
+parent (mapped before the fork) for the parent to write from.  Only Linux forks here:
+elsewhere, with one core, for small catalogues, or with ``SKYPLAN_WORKERS=1``, the same
+calls run in the process itself, one after another.
 
 A worker never prints: its notices come back with its result and are recorded in the
 parent; an error raised in a worker is raised again in the parent, unchanged.  A worker
@@ -22,6 +24,7 @@ import os
 import signal
 import sys
 import warnings
+from collections import deque
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
@@ -29,12 +32,15 @@ from skyplan import notices
 from skyplan.errors import InputError, SkyplanError
 
 WORKERS_ENV = "SKYPLAN_WORKERS"
-MIN_BLOCK = 5_000  # targets: smaller blocks cost more in fixed overheads than they gain
-MAX_BLOCK = 50_000  # targets: bounds a worker's memory (about 120 MiB per block)
+MIN_BLOCK = 2_500  # targets: smaller blocks cost more in fixed overheads than they gain
+MAX_BLOCK = 25_000  # targets: bounds a worker's memory (about 60 MiB per block)
+BLOCKS_PER_WORKER = 4  # small blocks: a fresh worker's first, slower block is short, the
+# last block to finish is short, and the blocks spread evenly over the workers
 WORTHWHILE_BYTES = 2_000_000  # catalogue files from this size (~50,000 targets) use workers
 PARALLEL_FROM = 20_000  # targets: fewer are done here (forking the workers costs ~20 ms)
 
 _shared: Any = None  # what the workers of the current pool were forked with
+_arena: _Arena | None = None  # shared memory the workers of the current pool put bytes in
 
 
 class WorkerLost(SkyplanError):
@@ -71,12 +77,13 @@ def _can_fork() -> bool:
 def block_bounds(n: int, workers: int) -> list[tuple[int, int]]:
     """Consecutive ``(start, stop)`` row ranges covering ``0..n``.
 
-    About two blocks per worker (so that writing one block overlaps computing the next),
-    each of ``MIN_BLOCK`` to ``MAX_BLOCK`` targets; sizes differ by at most one target.
+    About ``BLOCKS_PER_WORKER`` blocks per worker (so that writing one block overlaps
+    computing the next), each of ``MIN_BLOCK`` to ``MAX_BLOCK`` targets; sizes differ by at
+    most one target.
     """
     if n <= 0:
         return []
-    want = -(-n // max(1, 2 * workers))
+    want = -(-n // max(1, BLOCKS_PER_WORKER * workers))
     size = min(MAX_BLOCK, max(MIN_BLOCK, want))
     fewest = -(-n // MAX_BLOCK)  # no block above MAX_BLOCK
     most = max(1, n // MIN_BLOCK)  # none below MIN_BLOCK (unless there is only one)
@@ -89,17 +96,24 @@ class Workers:
     """``processes`` worker processes for one run, or none (0): calls then run here.
 
     ``shared`` is handed to the workers as they are forked (read it with :func:`shared`),
-    so a large object they all need is not sent with every call.  Use as a context
-    manager: leaving it stops the workers, at once if an error is on its way out.
+    so a large object they all need is not sent with every call; ``result_bytes`` makes
+    room for bytes results in shared memory (:meth:`stream`).  Use as a context manager:
+    leaving it stops the workers, at once if an error is on its way out.  ``last`` (no
+    pool is forked after this one) lets them exit while the run goes on.
     """
 
-    def __init__(self, processes: int, shared: Any = None) -> None:
-        global _shared
+    def __init__(self, processes: int, shared: Any = None, result_bytes: int = 0,
+                 last: bool = False) -> None:
+        global _shared, _arena
         self.processes = processes
+        self.last = last
         self._pool = None
         _shared = shared
+        _arena = None
         if processes >= 1:
-            self._pool = _start(processes)  # forked here, with ``_shared`` set
+            if result_bytes > 0:
+                _arena = _Arena.make(2 * processes, result_bytes)
+            self._pool = _start(processes)  # forked here, with ``_shared`` and ``_arena`` set
 
     def run(self, call: Callable[..., Any], *args: Any) -> _Outcome:
         """Start ``call(*args)`` and return at once; ``.result()`` waits for it."""
@@ -117,6 +131,35 @@ class Workers:
         for future in futures:
             yield _Outcome(future).result()
 
+    def stream(self, call: Callable[..., Any], jobs: Iterable[tuple]) -> Iterator[Any]:
+        """Like :meth:`map`, for calls that return bytes of up to ``result_bytes``.
+
+        Such results come back through memory shared with the workers instead of a pipe
+        (no pickling, no copies through the kernel) and are handed on as memoryviews,
+        each valid until the next result is asked for: write it, do not keep it.  At most
+        two calls per process are under way, each with its own part of that memory.
+        """
+        arena = _arena
+        if self._pool is None or arena is None:
+            yield from self.map(call, jobs)
+            return
+        waiting = list(jobs)[::-1]
+        under_way: deque = deque()
+        for slot in range(min(arena.slots, len(waiting))):
+            under_way.append((slot, self._pool.submit(_run_into, call, waiting.pop(), slot)))
+        while under_way:
+            slot, future = under_way.popleft()
+            value = _Outcome(future).result()
+            if isinstance(value, _InArena):
+                view = arena.view(slot, value.size)
+                yield view
+                view.release()
+            else:
+                yield value
+            if waiting:
+                under_way.append((slot, self._pool.submit(_run_into, call, waiting.pop(),
+                                                          slot)))
+
     def __enter__(self) -> Workers:
         return self
 
@@ -125,13 +168,18 @@ class Workers:
         return False
 
     def close(self, abort: bool = False) -> None:
-        global _shared
+        global _shared, _arena
         _shared = None
+        arena, _arena = _arena, None
         pool, self._pool = self._pool, None
         if pool is None:
             return
         if not abort:
-            pool.shutdown(wait=True)
+            # the last pool of a run lets its workers wind down while the run ends (the
+            # interpreter waits for them at exit); an earlier one is gone before the next forks
+            pool.shutdown(wait=not self.last)
+            if arena is not None:
+                arena.close()
             return
         processes = list((getattr(pool, "_processes", None) or {}).values())
         pool.shutdown(wait=False, cancel_futures=True)
@@ -188,6 +236,49 @@ class _Outcome:
 # ------------------------------------------------------------------ the machinery
 
 
+class _InArena:
+    """What a worker sends back for a result it put in the shared memory: its size."""
+
+    def __init__(self, size: int) -> None:
+        self.size = size
+
+
+class _Arena:
+    """Anonymous shared memory, mapped before the workers fork: ``slots`` parts of
+    ``slot_bytes`` each.  Pages are only taken as they are written."""
+
+    def __init__(self, memory, slots: int, slot_bytes: int) -> None:
+        self.memory = memory
+        self.slots = slots
+        self.slot_bytes = slot_bytes
+
+    @classmethod
+    def make(cls, slots: int, slot_bytes: int) -> _Arena | None:
+        import mmap
+
+        try:
+            return cls(mmap.mmap(-1, slots * slot_bytes), slots, slot_bytes)
+        except (OSError, ValueError, OverflowError):
+            return None  # results then travel through the pipe
+
+    def put(self, slot: int, data) -> bool:
+        if len(data) > self.slot_bytes:
+            return False
+        start = slot * self.slot_bytes
+        self.memory[start:start + len(data)] = data
+        return True
+
+    def view(self, slot: int, size: int) -> memoryview:
+        start = slot * self.slot_bytes
+        return memoryview(self.memory)[start:start + size]
+
+    def close(self) -> None:
+        try:
+            self.memory.close()
+        except BufferError:
+            pass  # a view is still held somewhere: the memory goes when that does
+
+
 def _start(count: int):
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
@@ -225,6 +316,15 @@ def _run_call(call, args):
     except BaseException as exc:  # everything goes back to the parent, which decides
         return "error", _portable(exc), notices.take()
     return "ok", value, notices.take()
+
+
+def _run_into(call, args, slot: int):
+    """Run in a worker: like :func:`_run_call`, with a bytes result put in the arena."""
+    kind, value, said = _run_call(call, args)
+    if kind == "ok" and isinstance(value, bytes) and _arena is not None \
+            and _arena.put(slot, value):
+        value = _InArena(len(value))
+    return kind, value, said
 
 
 def _portable(exc: BaseException) -> BaseException:

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import notices
+from skyplan import decimaltext, notices
 from skyplan.errors import DataError
 
 DAY_S = 86400.0
@@ -111,12 +111,23 @@ def _columns_fixed(raw: bytes):
     if len(records) < 2 or not np.isin(flags, ["I", "P"]).all():
         return None
     columns = {}
+    line_start = np.flatnonzero(has_ut1) * width
     for name, first, last, kind in FINALS_COLUMNS:
-        cells = np.ascontiguousarray(records[:, first:last]).view(f"S{last - first}").ravel()
-        try:
-            columns[name] = cells.astype(kind)
-        except ValueError:
-            return None
+        cells = records[:, first:last]
+        lead = np.argmax(cells != ord(" "), axis=1)  # right-aligned numbers
+        values = decimaltext.read_decimals(grid.reshape(-1), line_start + first + lead,
+                                           line_start + last)
+        if values is None:  # not plain decimals: numpy's reader takes it or refuses it
+            text = np.ascontiguousarray(cells).view(f"S{last - first}").ravel()
+            try:
+                values = text.astype(float)
+            except ValueError:
+                return None
+        if kind is int:
+            if (values != np.round(values)).any():
+                return None
+            values = values.astype(np.int64)
+        columns[name] = values
     return columns, np.flatnonzero(has_ut1) + 1, flags
 
 

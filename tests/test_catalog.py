@@ -8,6 +8,7 @@ Target names and values are invented test data.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -16,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from skyplan import catalog as catalog_module
+from skyplan import decimaltext, delimited
 from skyplan.catalog import Catalog, read_catalog
 from skyplan.errors import InputError, InputErrors
 
@@ -248,11 +250,11 @@ def test_encoding_control_characters_and_sizes(tmp_path: Path, monkeypatch) -> N
     with pytest.raises(InputErrors, match="control character"):
         read_catalog(write(tmp_path, "esc.csv", "name,ra,dec\nbad\x1b[31m,1,2\n"))
 
-    huge = "x" * (catalog_module.MAX_FIELD_CHARS + 1)
+    huge = "x" * (delimited.MAX_FIELD_CHARS + 1)
     with pytest.raises(InputErrors, match="characters long"):
         read_catalog(write(tmp_path, "long.csv", f"name,ra,dec,notes\na,1,2,{huge}\n"))
 
-    monkeypatch.setattr(catalog_module, "MAX_ROWS", 3)
+    monkeypatch.setattr(delimited, "MAX_ROWS", 3)  # the limit of text files
     rows = "".join(f"t{i},1,2\n" for i in range(4))
     with pytest.raises(InputError, match="more than 3 rows"):
         read_catalog(write(tmp_path, "many.csv", "name,ra,dec\n" + rows))
@@ -447,3 +449,144 @@ def test_fuzz_only_input_errors(tmp_path: Path, data: bytes, skip_bad: bool) -> 
     assert ((cat.ra_deg[known] >= 0) & (cat.ra_deg[known] < 360)).all()
     assert (np.abs(cat.dec_deg[known]) <= 90).all()
     assert all(name for name in cat.name)
+
+
+def _decimal_cells(texts: list[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Bytes of texts each followed by a comma, and where each text starts and ends."""
+    data = np.frombuffer("".join(t + "," for t in texts).encode(), dtype=np.uint8)
+    end = np.flatnonzero(data == ord(","))
+    start = np.zeros_like(end)
+    start[1:] = end[:-1] + 1
+    return data, start, end
+
+
+# Texts that Python's float() reads (or refuses) in ways a decimal reader could get wrong.
+# The reference is float() itself: a correctly rounded conversion (David Gay's algorithm),
+# which is what the general path gives for every entry.
+_PLAIN_TEXTS = [
+    "0.1", "0.3", "2.675", "1.15", "-0", "+7", "5.", ".5", "-.5", "+.5", "007.50",
+    "229.306207", "-35.093468", "359.999999999999", "-89.9999999999999",
+    "123456789012345", ".000000000000001", "999999999999999", "",
+]
+_OTHER_TEXTS = [
+    "1e3", " 12.5 ", "inf", "nan", "-inf", "1_000", "１２", "٣", "12:30:00", ".", "+", "-",
+    "1.2.3", "1-2", "++1", "J2015.5", "0x10", "1234567890123456", "0.000000000000001",
+    "1.0000000000000002", "12345678901234567", "\xa01", "1\x00", " ",
+]
+
+
+@pytest.mark.parametrize("text", _PLAIN_TEXTS + _OTHER_TEXTS)
+def test_decimal_reader_gives_what_float_gives(text: str) -> None:
+    numbers = decimaltext.read_decimals(*_decimal_cells([text]))
+    if text not in _PLAIN_TEXTS:
+        assert numbers is None  # left to the general path
+        return
+    assert numbers is not None
+    if text == "":
+        assert np.isnan(numbers[0])  # an empty cell: NaN, as the general path gives
+    else:
+        assert numbers[0].tobytes() == np.float64(float(text)).tobytes()  # bit for bit
+    # one text that is not a plain decimal sends the whole column to the general path
+    assert decimaltext.read_decimals(*_decimal_cells([text, "1e3"])) is None
+
+
+_DIGIT_RUN = st.text(st.sampled_from(list("0123456789")), max_size=10)
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(
+        st.one_of(
+            st.tuples(st.sampled_from(["", "+", "-"]), _DIGIT_RUN, st.booleans(), _DIGIT_RUN).map(
+                lambda p: p[0] + p[1] + ("." if p[2] else "") + p[3]
+            ),
+            st.floats(allow_nan=False, allow_infinity=False).map(repr),
+            st.text(st.sampled_from(list("0123456789.+-e _")), max_size=18),
+        ),
+        max_size=8,
+    )
+)
+def test_decimal_reader_agrees_with_float(texts: list[str]) -> None:
+    numbers = decimaltext.read_decimals(*_decimal_cells(texts))
+    plain = [
+        t == "" or (re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)", t) and sum(map(str.isdigit, t)) <= 15)
+        for t in texts
+    ]
+    assert (numbers is not None) == all(plain)
+    if numbers is not None:
+        # Python's float() is the reference: bit-for-bit equal values, NaN for empty cells
+        expected = np.array([float(t) if t else np.nan for t in texts], dtype=np.float64)
+        assert numbers.tobytes() == expected.tobytes()
+
+
+def _outcome(path: Path, skip_bad: bool) -> tuple:
+    """What reading a file gives: every column bit for bit, skipped rows, or the errors."""
+    try:
+        read = read_catalog(path, skip_bad=skip_bad)
+    except InputErrors as exc:
+        return ("errors", [(p.message, p.line, p.field) for p in exc.problems])
+    except InputError as exc:
+        return ("error", exc.message, exc.line, exc.field)
+    cat = read.catalog
+    columns = [
+        [(type(x), x) for x in a.tolist()] if a.dtype == object else (a.dtype, a.tobytes())
+        for a in (getattr(cat, f) for f in catalog_module._ARRAY_FIELDS)
+    ]
+    skipped = [(e.message, e.line, e.field) for e in read.skipped]
+    return ("read", columns, skipped, read.duplicates, read.ignored_columns)
+
+
+_NUMBER_TEXT = st.one_of(
+    st.floats(-400, 400, allow_nan=False).flatmap(
+        lambda x: st.sampled_from([f"{x:.6f}", f"{x:.0f}", repr(x), f"{x:+.3f}", f"{x:.15f}"])
+    ),
+    st.sampled_from(
+        ["", "", "0", "-0", ".5", "5.", "1e3", " 12.5", "12:30:00", "nan", "x", "J2015.5",
+         "2000", "1_000", "３", "360", "-90.0000001"]
+    ),
+)
+_NAME_TEXT = st.text(st.sampled_from(list("ab 1é\x1b.")), max_size=5)
+
+
+@settings(
+    max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(
+    st.lists(
+        st.tuples(_NAME_TEXT, _NUMBER_TEXT, _NUMBER_TEXT, _NUMBER_TEXT, _NUMBER_TEXT),
+        max_size=10,
+    ),
+    st.sampled_from([",", "\t"]),
+    st.booleans(),
+)
+def test_fast_path_reads_what_the_general_path_reads(
+    tmp_path: Path, rows, delimiter: str, skip_bad: bool
+) -> None:
+    # A quote character anywhere in a file (here in a last comment line, which moves no
+    # row) sends it through the csv module and the per-entry parsers: the reference here.
+    header = delimiter.join(["name", "ra", "dec", "pmra", "epoch"])
+    text = header + "\n" + "".join(delimiter.join(row) + "\n" for row in rows)
+    suffix = ".csv" if delimiter == "," else ".tsv"
+    fast = tmp_path / f"fast{suffix}"
+    fast.write_text(text, encoding="utf-8")
+    general = tmp_path / f"general{suffix}"
+    general.write_text(text + '# "\n', encoding="utf-8")
+    assert _outcome(fast, skip_bad) == _outcome(general, skip_bad)
+
+
+def test_plain_decimal_columns_are_read_at_once(tmp_path: Path, monkeypatch) -> None:
+    read_at_once = []
+
+    def spy(data, start, end):
+        numbers = real(data, start, end)
+        read_at_once.append(numbers is not None)
+        return numbers
+
+    real = decimaltext.read_decimals
+    monkeypatch.setattr(decimaltext, "read_decimals", spy)
+    path = write(tmp_path, "p.csv", "name,ra,dec,epoch\na,10.5,-20.25,J2000\nb,400,+7,2015.5\n")
+    with pytest.raises(InputErrors) as info:
+        read_catalog(path)
+    assert read_at_once == [True, True, False]  # ra, dec at once; "J2000" is not a decimal
+    (problem,) = info.value.problems  # 400 is out of range: its text is named as written
+    assert (problem.line, problem.field) == (3, "ra") and "'400'" in problem.message

@@ -503,9 +503,9 @@ def test_votable_with_entities_is_refused(tmp_path: Path, capsys: pytest.Capture
 
 def test_over_long_fields_are_named(tmp_path: Path, capsys: pytest.CaptureFixture[str],
                                     monkeypatch: pytest.MonkeyPatch) -> None:
-    from skyplan import catalog
+    from skyplan import delimited
 
-    monkeypatch.setattr(catalog, "MAX_FIELD_CHARS", 12)
+    monkeypatch.setattr(delimited, "MAX_FIELD_CHARS", 12)
     path = tmp_path / "long.csv"
     path.write_text("name,ra,dec,notes\nShort,10,20,fine\nLong,10,20," + "n" * 40 + "\n")
     status, _, err = run(capsys, "windows", str(path), "--demo")
@@ -521,9 +521,9 @@ def test_over_long_fields_are_named(tmp_path: Path, capsys: pytest.CaptureFixtur
 @pytest.mark.parametrize("quoted", [False, True])
 def test_too_many_rows_are_refused(tmp_path: Path, capsys: pytest.CaptureFixture[str],
                                    monkeypatch: pytest.MonkeyPatch, quoted: bool) -> None:
-    from skyplan import catalog
+    from skyplan import delimited
 
-    monkeypatch.setattr(catalog, "MAX_ROWS", 3)
+    monkeypatch.setattr(delimited, "MAX_ROWS", 3)
     path = tmp_path / "rows.csv"
     name = '"T{}"' if quoted else "T{}"
     path.write_text("name,ra,dec\n" + "".join(f"{name.format(i)},10,20\n" for i in range(5)))
@@ -536,9 +536,9 @@ def test_too_many_rows_in_a_votable(tmp_path: Path, capsys: pytest.CaptureFixtur
                                     monkeypatch: pytest.MonkeyPatch) -> None:
     from astropy.table import Table
 
-    from skyplan import catalog
+    from skyplan import delimited
 
-    monkeypatch.setattr(catalog, "MAX_ROWS", 3)
+    monkeypatch.setattr(delimited, "MAX_ROWS", 3)
     path = tmp_path / "rows.vot"
     Table({"name": [f"T{i}" for i in range(5)], "ra": [10.0] * 5, "dec": [20.0] * 5}).write(
         path, format="votable")
@@ -550,9 +550,9 @@ def test_too_many_rows_in_a_votable(tmp_path: Path, capsys: pytest.CaptureFixtur
 def test_oversized_file_is_refused_before_reading(
         tmp_path: Path, capsys: pytest.CaptureFixture[str],
         monkeypatch: pytest.MonkeyPatch) -> None:
-    from skyplan import catalog
+    from skyplan import delimited
 
-    monkeypatch.setattr(catalog, "MAX_FILE_BYTES", 100)
+    monkeypatch.setattr(delimited, "MAX_FILE_BYTES", 100)
     path = tmp_path / "big.csv"
     path.write_text("name,ra,dec\n" + "T,10,20\n" * 20)
     status, _, err = run(capsys, "windows", str(path), "--demo")

@@ -222,3 +222,28 @@ def test_a_long_result_is_flushed_ahead_and_written_whole(
     output.write_atomic(tmp_path / "big.txt", iter(pieces))
     assert (tmp_path / "big.txt").read_bytes() == b"".join(pieces)
     assert calls  # some of it was flushed before the end
+
+
+def _letters(k: int, size: int) -> bytes:
+    return bytes([65 + k % 26]) * size
+
+
+def test_bytes_results_come_back_through_shared_memory_in_order() -> None:
+    """Two workers, at most four results under way in four parts of shared memory: each part
+    is used again only after its result was handed on; a result too large for its part comes
+    back through the pipe instead, unchanged."""
+    jobs = [(k, 1000 + 7 * k) for k in range(12)] + [(12, 5000)]  # the last is too large
+    with parallel.Workers(2, result_bytes=4096) as pool:
+        got = []
+        for piece in pool.stream(_letters, jobs):
+            got.append(bytes(piece))  # a copy: the view is only valid until the next
+        last_through_pipe = isinstance(piece, bytes)
+    assert got == [_letters(k, size) for k, size in jobs]
+    assert last_through_pipe  # it did not fit its part of the shared memory
+
+
+def test_a_view_kept_past_its_turn_is_released() -> None:
+    with parallel.Workers(2, result_bytes=4096) as pool:
+        pieces = list(pool.stream(_letters, [(0, 10), (1, 10)]))
+    with pytest.raises(ValueError):
+        bytes(pieces[0])  # not silently overwritten data: an error

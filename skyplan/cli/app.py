@@ -65,6 +65,31 @@ def _register() -> None:
     from skyplan.cli import commands  # noqa: F401  (registers the commands on ``app``)
 
 
+def _command(argv: list[str] | None):
+    """The click command typer builds from ``app``, with plain option conversion.
+
+    When the first argument names a command, only that command is built (typer reads the
+    signature of every function it builds, a few milliseconds each); the full set is built
+    for anything else (``--help``, ``--version``, an unknown or misspelt command).
+    """
+    import copy
+
+    from skyplan.cli import plainparams
+
+    args = sys.argv[1:] if argv is None else argv
+    wanted = args[0] if args else None
+    chosen = copy.copy(app)
+    chosen.registered_commands = [
+        c for c in app.registered_commands
+        if (c.name or c.callback.__name__.replace("_", "-")) == wanted]
+    chosen.registered_groups = [g for g in app.registered_groups if g.name == wanted]
+    if not chosen.registered_commands and not chosen.registered_groups:
+        chosen = app
+    command = typer.main.get_command(chosen)
+    plainparams.install(command)
+    return command
+
+
 def _click_module():
     """The click that typer runs on (recent typer releases carry their own copy)."""
     try:
@@ -132,7 +157,7 @@ def main(argv: list[str] | None = None) -> None:
     status = errors.EXIT_OK
     with _SignalGuard(), warnings.catch_warnings(record=True) as caught:
         try:
-            result = app(args=argv, standalone_mode=False, prog_name="skyplan")
+            result = _command(argv)(args=argv, standalone_mode=False, prog_name="skyplan")
             status = result if isinstance(result, int) else errors.EXIT_OK
         except errors.SkyplanError as exc:
             if debug:

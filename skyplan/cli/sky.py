@@ -175,9 +175,10 @@ def window_blocks(fmt, the_site, n, lim, tset, orbits):
     import orjson  # noqa: F401
 
     from skyplan import parallel, windows
-    from skyplan.render import windowview
+    from skyplan.render import bytegrid, windowview
 
     windows.preload(tset)  # loaded once, before the workers are forked
+    bytegrid.preload()
     count = parallel.worker_count()
     processes = count if count >= 2 and len(tset) >= parallel.PARALLEL_FROM else 0
     with_identifier = bool((tset.identifiers != "").any())
@@ -187,11 +188,16 @@ def window_blocks(fmt, the_site, n, lim, tset, orbits):
     return blocks if fmt == "csv" else windowview.json_stream(blocks, ndjson=fmt == "ndjson")
 
 
+BLOCK_BYTES_PER_TARGET = 1024  # room for a block's text in shared memory (about 500 used)
+
+
 def _blocks(processes, context, bounds):
     from skyplan import parallel
 
-    with parallel.Workers(min(processes, len(bounds)), shared=context) as pool:
-        yield from pool.map(_window_block, bounds)
+    room = max(b - a for a, b in bounds) * BLOCK_BYTES_PER_TARGET + (1 << 20)
+    with parallel.Workers(min(processes, len(bounds)), shared=context,
+                          result_bytes=room, last=True) as pool:
+        yield from pool.stream(_window_block, bounds)
 
 
 def _window_block(a, b) -> bytes:

@@ -1,0 +1,96 @@
+"""Plain conversion for the text and number options, without typer's validator layer.
+
+Recent typer releases convert every option through a pydantic validator that they build on
+first use, and importing pydantic alone takes about a quarter of a second: on every run,
+whatever the command.  Our options are text, numbers and flags, which need no more than
+``str``, ``float``, ``int`` and ``bool``; they get a converter of their own here, before parsing.
+Any other option (a list, a path, one with a custom parser or bounds) keeps typer's.
+
+Only typer's parameter objects that carry an unset ``_runtime_param`` are touched, so a
+typer without that layer (older or newer) is left exactly as it is.
+"""
+
+from __future__ import annotations
+
+_KINDS = {str: "text", float: "number", int: "whole number", bool: "yes or no"}
+_BOOLS = {"1": True, "true": True, "yes": True, "on": True,
+          "0": False, "false": False, "no": False, "off": False}
+
+
+class PlainConversion:
+    """Converts one option's text to ``str``, ``float``, ``int`` or ``bool`` (None stays
+    None)."""
+
+    def __init__(self, kind: type) -> None:
+        self.kind = kind
+
+    def coerce(self, value, param=None, ctx=None):
+        if value is None:
+            return None
+        if type(value) is self.kind:
+            return value
+        if self.kind is float and type(value) is int:
+            return float(value)
+        try:
+            if self.kind is bool:
+                return _BOOLS[str(value).strip().lower()]
+            return self.kind(value)
+        except (KeyError, TypeError, ValueError):
+            from typer import BadParameter
+
+            raise BadParameter(f"{value!r} is not a {_KINDS[self.kind]}", ctx=ctx,
+                               param=param) from None
+
+
+def _plain_kind(param) -> type | None:
+    """The type to convert ``param`` to here, or None to leave it to typer."""
+    if getattr(param, "_runtime_param", False) is not None:
+        return None  # not a typer parameter of the kind this knows, or already set
+    desc = getattr(param, "type_descriptor", None)
+    info = getattr(desc, "parameter_info", None)
+    if desc is None or info is None or getattr(desc, "file_annotation", None) is not None:
+        return None
+    if getattr(info, "parser", None) is not None or getattr(info, "click_type", None):
+        return None
+    if getattr(info, "min", None) is not None or getattr(info, "max", None) is not None:
+        return None
+    if getattr(param, "multiple", False) or getattr(param, "nargs", 1) != 1:
+        return None
+    return desc.annotation if desc.annotation in _KINDS else None
+
+
+def _give(param) -> bool:
+    kind = _plain_kind(param)
+    if kind is not None:
+        param._runtime_param = PlainConversion(kind)
+    return kind is not None
+
+
+def _with_help_option(cmd) -> None:
+    """The ``--help`` flag is made per run when parsing starts: converted here as well."""
+    made = getattr(cmd, "get_help_option", None)
+    if made is None:
+        return
+
+    def get_help_option(ctx):
+        option = made(ctx)
+        if option is not None:
+            _give(option)
+        return option
+
+    cmd.get_help_option = get_help_option
+
+
+def install(command) -> int:
+    """Give every plain option of ``command`` and its subcommands our conversion.
+
+    Returns how many options were given it (for the tests).
+    """
+    done = 0
+    stack = [command]
+    while stack:
+        cmd = stack.pop()
+        stack.extend(getattr(cmd, "commands", {}).values())
+        _with_help_option(cmd)
+        done += sum(_give(param) for param in getattr(cmd, "params", ()))
+    return done
