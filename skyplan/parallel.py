@@ -107,27 +107,41 @@ class Workers:
         global _shared, _arena
         self.processes = processes
         self.last = last
+        self.result_bytes = result_bytes
         self._pool = None
+        self._children: list[_Child] = []
         _shared = shared
         _arena = None
-        if processes >= 1:
-            if result_bytes > 0:
-                _arena = _Arena.make(2 * processes, result_bytes)
-            self._pool = _start(processes)  # forked here, with ``_shared`` and ``_arena`` set
+
+    def _executor(self):
+        """The pool of worker processes, forked on first use (``_shared`` is set by then)."""
+        global _arena
+        if self._pool is None and self.processes >= 1:
+            if self.result_bytes > 0:
+                _arena = _Arena.make(2 * self.processes, self.result_bytes)
+            self._pool = _start(self.processes)
+        return self._pool
 
     def run(self, call: Callable[..., Any], *args: Any) -> _Outcome:
-        """Start ``call(*args)`` and return at once; ``.result()`` waits for it."""
-        if self._pool is None:
+        """Start ``call(*args)`` and return at once; ``.result()`` waits for it.
+
+        With workers, the call runs in a process forked for it at once: it inherits the
+        call and its arguments, so it starts without waiting for this process to send them.
+        """
+        if self.processes < 1:
             return _Outcome.now(call, args)
-        return _Outcome(self._pool.submit(_run_call, call, args))
+        child = _fork(call, args)
+        self._children.append(child)
+        return _Outcome(child)
 
     def map(self, call: Callable[..., Any], jobs: Iterable[tuple]) -> Iterator[Any]:
         """``call(*job)`` for every job, results in order, handed on as they arrive."""
-        if self._pool is None:
+        pool = self._executor()
+        if pool is None:
             for job in jobs:
                 yield _Outcome.now(call, job).result()
             return
-        futures = [self._pool.submit(_run_call, call, job) for job in jobs]
+        futures = [pool.submit(_run_call, call, job) for job in jobs]
         for future in futures:
             yield _Outcome(future).result()
 
@@ -139,14 +153,15 @@ class Workers:
         each valid until the next result is asked for: write it, do not keep it.  At most
         two calls per process are under way, each with its own part of that memory.
         """
+        pool = self._executor()
         arena = _arena
-        if self._pool is None or arena is None:
+        if pool is None or arena is None:
             yield from self.map(call, jobs)
             return
         waiting = list(jobs)[::-1]
         under_way: deque = deque()
         for slot in range(min(arena.slots, len(waiting))):
-            under_way.append((slot, self._pool.submit(_run_into, call, waiting.pop(), slot)))
+            under_way.append((slot, pool.submit(_run_into, call, waiting.pop(), slot)))
         while under_way:
             slot, future = under_way.popleft()
             value = _Outcome(future).result()
@@ -157,8 +172,7 @@ class Workers:
             else:
                 yield value
             if waiting:
-                under_way.append((slot, self._pool.submit(_run_into, call, waiting.pop(),
-                                                          slot)))
+                under_way.append((slot, pool.submit(_run_into, call, waiting.pop(), slot)))
 
     def __enter__(self) -> Workers:
         return self
@@ -171,6 +185,9 @@ class Workers:
         global _shared, _arena
         _shared = None
         arena, _arena = _arena, None
+        for child in self._children:
+            child.stop()  # any whose result was not taken
+        self._children = []
         pool, self._pool = self._pool, None
         if pool is None:
             return
@@ -219,8 +236,7 @@ class _Outcome:
             try:
                 kind, value, said = self._future.result()
             except BrokenProcessPool:
-                raise WorkerLost("a worker process died before finishing its work (out of "
-                                 f"memory? try {WORKERS_ENV}=1 or a smaller catalogue)") from None
+                raise _lost() from None
             self._future = None
             for line in said:
                 notices.add(line)
@@ -233,7 +249,74 @@ class _Outcome:
         return self._value
 
 
+def _lost() -> WorkerLost:
+    return WorkerLost("a worker process died before finishing its work (out of memory? try "
+                      f"{WORKERS_ENV}=1 or a smaller catalogue)")
+
+
 # ------------------------------------------------------------------ the machinery
+
+
+class _Child:
+    """One call in a process forked for it; its outcome comes back pickled through a pipe.
+
+    ``result()`` gives what :func:`_run_call` returns, as a pool's future would.
+    """
+
+    def __init__(self, call, args) -> None:
+        read, write = os.pipe()
+        self.pid = os.fork()
+        if self.pid == 0:  # the child: run, send, and leave without any clean-up of the parent's
+            try:
+                os.close(read)
+                _worker_start()
+                with open(write, "wb") as pipe:
+                    pipe.write(_pickled(_run_call(call, args)))
+            finally:
+                os._exit(0)
+        os.close(write)
+        self.read = read
+
+    def result(self):
+        import pickle
+
+        chunks = []
+        try:
+            while chunk := os.read(self.read, 1 << 20):
+                chunks.append(chunk)
+        finally:
+            self.stop()
+        if not chunks:
+            raise _lost()
+        return pickle.loads(b"".join(chunks))
+
+    def stop(self) -> None:
+        """Reap the child, killing it first if it is still at work."""
+        if self.pid:
+            try:
+                if os.waitpid(self.pid, os.WNOHANG) == (0, 0):
+                    os.kill(self.pid, signal.SIGKILL)
+                    os.waitpid(self.pid, 0)
+            except ChildProcessError:
+                pass
+            self.pid = 0
+        if self.read >= 0:
+            os.close(self.read)
+            self.read = -1
+
+
+def _fork(call, args) -> _Child:
+    return _Child(call, args)
+
+
+def _pickled(outcome) -> bytes:
+    import pickle
+
+    try:
+        return pickle.dumps(outcome, protocol=pickle.HIGHEST_PROTOCOL)
+    except Exception as exc:  # an outcome that cannot travel: say so instead
+        kind, value, said = outcome
+        return pickle.dumps(("error", RuntimeError(f"unsendable result: {exc}"), said))
 
 
 class _InArena:

@@ -59,19 +59,25 @@ def catalogue(tmp_path: Path) -> Path:
 
 @pytest.fixture
 def small_thresholds(monkeypatch: pytest.MonkeyPatch) -> list[int]:
-    """Workers for any catalogue, blocks of at most 700 targets; records every pool."""
+    """Workers for any catalogue, blocks of at most 700 targets; records every pool and
+    every process forked for a single call."""
     monkeypatch.setattr(parallel, "WORTHWHILE_BYTES", 1)
     monkeypatch.setattr(parallel, "PARALLEL_FROM", 1)
     monkeypatch.setattr(parallel, "MIN_BLOCK", 1)
     monkeypatch.setattr(parallel, "MAX_BLOCK", 700)
     pools: list[int] = []
-    start = parallel._start
+    start, fork = parallel._start, parallel._fork
 
     def recorded(count: int):
         pools.append(count)
         return start(count)
 
+    def forked(call, args):
+        pools.append(1)  # one process, forked for one call
+        return fork(call, args)
+
     monkeypatch.setattr(parallel, "_start", recorded)
+    monkeypatch.setattr(parallel, "_fork", forked)
     return pools
 
 
@@ -247,3 +253,31 @@ def test_a_view_kept_past_its_turn_is_released() -> None:
         pieces = list(pool.stream(_letters, [(0, 10), (1, 10)]))
     with pytest.raises(ValueError):
         bytes(pieces[0])  # not silently overwritten data: an error
+
+
+def _refuse_the_date() -> None:
+    raise InputError("no such night", field="--date")
+
+
+def _die_at_once() -> None:
+    os._exit(3)
+
+
+def _unsendable():
+    return lambda: None  # a function made here cannot be pickled
+
+
+def test_a_single_call_runs_in_a_process_forked_for_it() -> None:
+    import time
+
+    with parallel.Workers(1) as pool:
+        assert pool.run(pow, 2, 10).result() == 1024
+        with pytest.raises(InputError, match="no such night"):
+            pool.run(_refuse_the_date).result()
+        with pytest.raises(parallel.WorkerLost):
+            pool.run(_die_at_once).result()
+        with pytest.raises(RuntimeError, match="unsendable"):
+            pool.run(_unsendable).result()
+        started = time.perf_counter()
+        pool.run(time.sleep, 60)  # never waited for: stopped when the pool closes
+    assert time.perf_counter() - started < 10
