@@ -49,6 +49,18 @@ def test_decimals_match_orjson_for_any_float(values: list[float], places: int) -
     assert rows(g.decimals(values, places)) == reference_numbers(values, places)
 
 
+@pytest.mark.parametrize("places", [1, 2, 3, 4, 7])
+def test_decimals_as_text_match_python_repr(places: int) -> None:
+    """The csv module writes ``str(float)``: Python's repr (exponent below 1e-4)."""
+    rng = np.random.default_rng(10 + places)
+    values = np.concatenate([EDGES, [1e-4, 9.9e-5, 1.5e-4, -1e-4], rng.uniform(-400, 400, 2000),
+                             10 ** rng.uniform(-9, 17, 2000)])
+    with np.errstate(over="ignore", invalid="ignore"):
+        rounded = np.round(values, places).tolist()
+    want = [repr(v).encode() if np.isfinite(v) else b"" for v in rounded]
+    assert rows(g.decimals(values, places, text=True)) == want
+
+
 def reference_instants(unix) -> list[bytes]:
     u = np.round(np.asarray(unix, float))
     ok = np.isfinite(u)
@@ -68,6 +80,13 @@ def test_instants_match_orjson() -> None:
         [-3e10, -6.3e10, 3e11],  # years 1019, before 1000 and after 9999: written by orjson
     ])
     assert rows(g.instants(values)) == reference_instants(values)
+
+
+def test_instants_as_text_match_numpy() -> None:
+    values = np.array([1.78e9 + 0.5, 1.78e9 + 86399.4, np.nan, -6.3e10, 3e11])
+    stamps = np.round(values[[0, 1, 3, 4]]).astype(np.int64).astype("datetime64[s]")
+    text = [s.encode() + b"Z" for s in np.datetime_as_string(stamps, unit="s").tolist()]
+    assert rows(g.instants(values, text=True)) == [text[0], text[1], b"", text[2], text[3]]
 
 
 def test_instants_all_null_and_empty() -> None:

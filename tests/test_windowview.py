@@ -39,6 +39,25 @@ def test_fast_json_is_byte_identical(results, chunk) -> None:
         assert lines == records.to_ndjson(reference)
 
 
+def csv_from_records(res, columns: list[str]) -> bytes:
+    """The reference: the record dictionaries flattened and written by the csv module."""
+    recs = windowview.window_records(res)
+    flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
+             "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
+             **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
+    return records.to_csv(flat, columns)
+
+
+@pytest.mark.parametrize("chunk", [1, 3, 50_000])
+def test_fast_csv_is_byte_identical(results, chunk) -> None:
+    for res in results:
+        with_identifier = bool((res.identifiers != "").any())
+        columns = windowview.csv_columns(list(res.lost_s), with_identifier=with_identifier)
+        fast = b"".join(windowview.csv_chunks(res, chunk=chunk))
+        assert fast == csv_from_records(res, columns)
+    assert b'"Comma, Star"' in fast and b'"Quote ""Q"" Star"' in fast  # quoted as csv does
+
+
 def test_records_keep_the_user_name_and_add_the_identifier(results) -> None:
     recs = windowview.window_records(results[1])
     by_name = {r["name"]: r for r in recs}

@@ -31,6 +31,7 @@ import numpy as np
 
 MAX_EXACT = 10**15  # below this many units of the last place a decimal reads back exactly
 MIN_POSITIONAL = 1e-5  # orjson writes smaller magnitudes with an exponent
+MIN_POSITIONAL_TEXT = 1e-4  # Python's repr (and so the csv module) from here on
 
 
 def words(text: bytes) -> np.ndarray:
@@ -63,8 +64,13 @@ def _groups(count: int) -> range:
     return range(-(-count // 3))
 
 
-def decimals(x, places: int) -> list[np.ndarray]:
-    """``numpy.round(x, places)`` as orjson writes it: positional, shortest, or ``null``."""
+def decimals(x, places: int, *, text: bool = False) -> list[np.ndarray]:
+    """``numpy.round(x, places)`` as orjson writes it: positional, shortest, or ``null``.
+
+    ``text``: as Python's ``repr`` writes it instead (the csv module's numbers), and
+    nothing for NaN and infinities (an empty CSV field).  ``repr`` gives the same digits
+    (the shortest that read back, David Gay's algorithm) and is positional from 1e-4 to 1e16.
+    """
     if places < 1:
         raise ValueError("places must be at least 1")
     with np.errstate(over="ignore", invalid="ignore"):  # as orjson gets them: inf, NaN
@@ -73,7 +79,8 @@ def decimals(x, places: int) -> list[np.ndarray]:
     magnitude = np.abs(r)
     finite = np.isfinite(r)
     with np.errstate(invalid="ignore"):
-        fast = finite & ((magnitude == 0.0) | ((magnitude >= MIN_POSITIONAL)
+        smallest = MIN_POSITIONAL_TEXT if text else MIN_POSITIONAL
+        fast = finite & ((magnitude == 0.0) | ((magnitude >= smallest)
                                                & (magnitude * scale < MAX_EXACT)))
     units = np.rint(np.where(fast, magnitude, 0.0) * scale).astype(np.int64)
     whole, part = np.divmod(units, scale)
@@ -94,19 +101,20 @@ def decimals(x, places: int) -> list[np.ndarray]:
         group, below = part // lower % 1000, part % lower
         padded, short = (_POINT_PADDED, _POINT_SHORT) if i == 0 else (_PADDED, _SHORT)
         columns.append(np.where(below > 0, padded[group], short[group]))
-    columns = _nulls(columns, finite)
+    columns = _nulls(columns, finite, 0 if text else NULL)
     odd = np.flatnonzero(finite & ~fast)
     if len(odd):
         import orjson
 
-        columns = _put_rows(columns, odd, [orjson.dumps(v) for v in r[odd].tolist()])
+        write = (lambda v: repr(v).encode()) if text else orjson.dumps
+        columns = _put_rows(columns, odd, [write(v) for v in r[odd].tolist()])
     return columns
 
 
-def _nulls(columns: list[np.ndarray], finite: np.ndarray) -> list[np.ndarray]:
+def _nulls(columns: list[np.ndarray], finite: np.ndarray, null: int) -> list[np.ndarray]:
     if finite.all():
         return columns
-    return [np.where(finite, c, NULL if k == 0 else 0) for k, c in enumerate(columns)]
+    return [np.where(finite, c, null if k == 0 else 0) for k, c in enumerate(columns)]
 
 
 def _put_rows(columns: list[np.ndarray], rows: np.ndarray, tokens: list[bytes]):
@@ -156,22 +164,21 @@ def preload() -> None:
     _clock()
 
 
-_CLOSE = _word(b'Z"')
-
-
-def instants(unix) -> list[np.ndarray]:
+def instants(unix, *, text: bool = False) -> list[np.ndarray]:
     """POSIX seconds as ``"YYYY-MM-DDTHH:MM:SSZ"`` (rounded to the second), NaN as ``null``.
 
     The calendar comes from numpy's datetime64 (proleptic Gregorian, no leap seconds, as
     POSIX time and ISO 8601 UTC stamps written from it are): each date in the range is
     written once, and each time of day is read from a table of the 86,400 seconds.  Years
-    outside 1000–9999 are handed to orjson.
+    outside 1000–9999 are handed to orjson.  ``text``: without quotes, NaN as nothing (a
+    CSV field), other years as numpy writes them.
     """
+    quote, null = (b"", 0) if text else (b'"', NULL)
     u = np.round(np.asarray(unix, dtype=np.float64))
     n = len(u)
     finite = np.isfinite(u)
     if not finite.any():
-        return [np.full(n, NULL, dtype=np.uint32)]
+        return [np.full(n, null, dtype=np.uint32)]
     seconds = np.where(finite, u, u[finite][0]).astype(np.int64)
     day, of_day = np.divmod(seconds, 86400)
     first, last = int(day.min()), int(day.max())
@@ -181,20 +188,24 @@ def instants(unix) -> list[np.ndarray]:
         days, index = np.unique(day, return_inverse=True)
     year = days.astype("datetime64[D]").astype("datetime64[Y]").astype(np.int64) + 1970
     plain = (year >= 1000) & (year <= 9999)
-    text = np.datetime_as_string(np.where(plain, days, 0).astype("datetime64[D]"), unit="D")
-    dates = (np.char.add(np.char.add(b'"', text.astype("S10")), b"T").astype("S12")
+    day_text = np.datetime_as_string(np.where(plain, days, 0).astype("datetime64[D]"),
+                                     unit="D")
+    dates = (np.char.add(np.char.add(quote, day_text.astype("S10")), b"T").astype("S12")
              .view(np.uint32).reshape(len(days), 3))
     clock = _clock()
     columns = [dates[:, 0][index], dates[:, 1][index], dates[:, 2][index],
-               clock[0][of_day], clock[1][of_day], np.full(n, _CLOSE, dtype=np.uint32)]
-    columns = _nulls(columns, finite)
+               clock[0][of_day], clock[1][of_day],
+               np.full(n, _word(b"Z" + quote), dtype=np.uint32)]
+    columns = _nulls(columns, finite, null)
     odd = np.flatnonzero(finite & ~plain[index])
     if len(odd):
         import orjson
 
-        moments = seconds[odd].astype("datetime64[s]").tolist()
+        stamps = seconds[odd].astype("datetime64[s]")
         columns = _put_rows(columns, odd, [
-            orjson.dumps(m, option=orjson.OPT_NAIVE_UTC | orjson.OPT_UTC_Z) for m in moments])
+            s.encode() + b"Z" for s in np.datetime_as_string(stamps, unit="s").tolist()
+        ] if text else [orjson.dumps(m, option=orjson.OPT_NAIVE_UTC | orjson.OPT_UTC_Z)
+                        for m in stamps.tolist()])
     return columns
 
 

@@ -242,15 +242,71 @@ def csv_columns(lost_keys, *, with_identifier: bool) -> list[str]:
 
 def csv_block(res, columns: list[str], a: int = 0, b: int | None = None, *,
               header: bool) -> bytes:
-    """Targets ``a`` to ``b`` as CSV rows, with the header line when ``header``."""
-    from skyplan.render import records
+    """Targets ``a`` to ``b`` as CSV rows, with the header line when ``header``.
 
-    recs = window_records(res, start=a, stop=b)
-    flat = [{**{k: v for k, v in r.items() if k not in ("windows", "lost_minutes")},
-             "windows": ";".join(f"{w['start']}/{w['end']}" for w in r["windows"]),
-             **{f"lost_{k}_min": v for k, v in r["lost_minutes"].items()}} for r in recs]
-    text = records.to_csv(flat, columns)
-    return text if header else text.split(b"\n", 1)[1]
+    Byte for byte what :func:`skyplan.render.records.to_csv` makes of the flattened
+    :func:`window_records` (Python's csv module: numbers as ``repr`` writes them, empty
+    fields for missing values), written column by column into byte grids.
+    """
+    b = len(res.names) if b is None else b
+    head = (",".join(columns) + "\n").encode() if header else b""
+    with_identifier = "identifier" in columns
+    return head + b"".join(_csv_piece(res, s, min(b, s + PIECE), with_identifier)
+                           for s in range(a, b, PIECE))
+
+
+def _csv_fields(values: list[str]) -> list[bytes]:
+    """Each value as the csv module writes a field (quoted only when it must be)."""
+    import csv
+    import io
+
+    if not any(c in "".join(values) for c in ',"\r\n'):
+        return [v.encode() for v in values]
+    out = []
+    for v in values:
+        buffer = io.StringIO()
+        csv.writer(buffer, lineterminator="\n").writerow([v, ""])
+        out.append(buffer.getvalue()[:-2].encode())  # without the empty field and the "\n"
+    return out
+
+
+def _csv_piece(res, a: int, b: int, with_identifier: bool) -> bytes:
+    """One row per target: the fields up to ``windows``, one grid row per window, the rest."""
+    from skyplan.render import bytegrid as g
+
+    n = b - a
+    w = res.windows
+    lo, hi = np.searchsorted(w.rows, [a, b])
+    rows, ws, we = w.rows[lo:hi] - a, w.start[lo:hi], w.end[lo:hi]
+    first = np.ones(hi - lo, dtype=bool)
+    first[1:] = rows[1:] != rows[:-1]
+    win = g.assemble(hi - lo, [g.choice(first, b"", b";"), g.instants(ws, text=True), b"/",
+                               g.instants(we, text=True)])
+    width = win.shape[1]
+
+    def number(values, places: int) -> list:
+        return [b",", g.decimals(values, places, text=True)]
+
+    def instant(values) -> list:
+        return [b",", g.instants(values, text=True)]
+
+    identifier = [b",", g.texts(_csv_fields(res.identifiers[a:b].tolist()))] \
+        if with_identifier else []
+    head = g.assemble(n, [
+        g.texts(_csv_fields(res.names[a:b].tolist())), *identifier,
+        *number(res.ra_deg[a:b], 7), *number(res.dec_deg[a:b], 7),
+        *instant(res.rise[a:b]), *instant(res.transit[a:b]), *instant(res.set[a:b]),
+        *number(res.transit_alt_deg[a:b], 3), *number(res.transit_airmass[a:b], 4),
+        *number(res.usable_s[a:b] / 60.0, 2), *instant(res.best_time[a:b]),
+        *number(res.best_airmass[a:b], 4),
+        b",", g.texts(_csv_fields(_status(res, a, b))),
+        b",", g.choice(res.near_sun[a:b], b"True", b"False"),
+        b",", g.choice(res.daylight_window[a:b], b"True", b"False"),
+        *number(res.sun_distance_deg[a:b], 2), *number(res.moon_distance_deg[a:b], 2), b",",
+    ], multiple=width)
+    lost = [part for k in res.lost_s for part in number(res.lost_s[k][a:b] / 60.0, 2)]
+    tail = g.assemble(n, [*lost, b"\n"], multiple=width)
+    return g.squeeze(g.nest(head, win, rows, tail))
 
 
 def csv_chunks(res, *, chunk: int = 50_000):
