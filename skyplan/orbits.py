@@ -51,6 +51,7 @@ import datetime as dt
 import functools
 import math
 import re
+import warnings
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -66,6 +67,7 @@ GAUSS_K = 0.01720209895  # au^1.5 / day (IAU 1976)
 AU_KM = 149597870.700  # IAU 2012 Resolution B2
 DAY_S = 86400.0
 GM_SUN_KM3_S2 = GAUSS_K**2 * AU_KM**3 / DAY_S**2
+CIRCULAR_ECCENTRICITY = 1e-12  # what e = 0 is computed with (see _kepler_orbit)
 
 KIND_MINOR_PLANET = "minor planet"
 KIND_COMET = "comet"
@@ -418,7 +420,9 @@ def _kepler_orbit(element: OrbitElements):
     from skyplan.ephemeris import timescale
 
     ts = timescale()
-    e = element.eccentricity
+    # skyfield's solver of Kepler's equation divides by e: a circular orbit (e = 0, only
+    # ever hand-made) is given e = 1e-12 instead, which moves it by under a metre per au
+    e = max(element.eccentricity, CIRCULAR_ECCENTRICITY)
     semilatus = element.perihelion_distance_au * (1.0 + e)
     if element.mean_anomaly_deg is not None:
         orbit = _KeplerOrbit._from_mean_anomaly(
@@ -459,7 +463,12 @@ def _observed(element: OrbitElements, unix_times, lat_deg, lon_deg, elevation_m)
                              field="site")
         observer = observer + wgs84.latlon(lat_deg, lon_deg, elevation_m=elevation_m)
     t = timescale().tt_jd(*jd_tt(unix))
-    return observer.at(t).observe(eph["sun"] + _kepler_orbit(element))
+    with warnings.catch_warnings():
+        # skyfield's Kepler propagation sets an array's shape in place, which numpy >= 2.5
+        # deprecates; harmless here (the result is the same), and no concern of the user's
+        warnings.filterwarnings("ignore", category=DeprecationWarning,
+                                message="Setting the shape on a NumPy array")
+        return observer.at(t).observe(eph["sun"] + _kepler_orbit(element))
 
 
 def orbit_positions(

@@ -1,8 +1,9 @@
 """Using every core: forked worker processes for the steps of a large run (Linux).
 
-A run over a large catalogue uses workers twice: the night is computed in one while the
-catalogue is read, and then the catalogue is cut into blocks of consecutive targets, each
-computed and encoded in a worker.  Results come back in order, so the output is byte for
+A run over a large catalogue uses workers twice: the night is computed in a process forked
+for it (:meth:`Workers.run`) while the catalogue is read, and then the catalogue is cut into
+blocks of consecutive targets, each computed and encoded by a pool of workers
+(:meth:`Workers.stream`).  Results come back in order, so the output is byte for
 byte what one process writes (a test checks this).
 
 Workers are forked: they start with everything the parent has loaded (modules, data
@@ -20,6 +21,7 @@ leave Ctrl-C and SIGTERM to the parent, which stops them, and die with the paren
 
 from __future__ import annotations
 
+import contextlib
 import os
 import signal
 import sys
@@ -40,6 +42,8 @@ WORTHWHILE_BYTES = 2_000_000  # catalogue files from this size (~50,000 targets)
 PARALLEL_FROM = 20_000  # targets: fewer are done here (forking the workers costs ~20 ms)
 
 _shared: Any = None  # what the workers of the current pool were forked with
+_winding_down: list = []  # pools left to stop on their own (``last``, or stopped by an
+# error): joined before the next fork
 _arena: _Arena | None = None  # shared memory the workers of the current pool put bytes in
 
 
@@ -195,6 +199,8 @@ class Workers:
             # the last pool of a run lets its workers wind down while the run ends (the
             # interpreter waits for them at exit); an earlier one is gone before the next forks
             pool.shutdown(wait=not self.last)
+            if self.last:
+                _winding_down.append(pool)
             if arena is not None:
                 arena.close()
             return
@@ -205,6 +211,7 @@ class Workers:
                 process.kill()
             except (OSError, AttributeError):
                 pass
+        _winding_down.append(pool)  # its thread notices the killed workers and ends
 
 
 def shared() -> Any:
@@ -264,8 +271,10 @@ class _Child:
     """
 
     def __init__(self, call, args) -> None:
+        _settle()
         read, write = os.pipe()
-        self.pid = os.fork()
+        with _quiet_fork():
+            self.pid = os.fork()
         if self.pid == 0:  # the child: run, send, and leave without any clean-up of the parent's
             try:
                 os.close(read)
@@ -367,16 +376,35 @@ def _start(count: int):
     from concurrent.futures import ProcessPoolExecutor
 
     context = multiprocessing.get_context("fork")
-    with warnings.catch_warnings():
-        # Python >= 3.12 warns that forking a multi-threaded process may deadlock.  The
-        # only other threads are the numerical library's idle pool (fork-safe) and the
-        # executor's own; the workers run our code only.
-        warnings.filterwarnings("ignore", category=DeprecationWarning,
-                                message=".*multi-threaded.*fork")
+    _settle()
+    with _quiet_fork():
         pool = ProcessPoolExecutor(max_workers=count, mp_context=context,
                                    initializer=_worker_start)
         pool.submit(int)  # fork every worker now, while ``_shared`` is set
     return pool
+
+
+def _settle() -> None:
+    """Wait for earlier pools that were left to stop on their own.
+
+    A child forked while a pool's own thread holds one of its locks would wait for that
+    lock forever if it ever took it (when its copy of the pool is collected, say): fork
+    only when no such thread runs.  A command forks its last pool last, so this costs it
+    nothing; a program that runs several commands waits here.
+    """
+    while _winding_down:
+        _winding_down.pop().shutdown(wait=True)
+
+
+@contextlib.contextmanager
+def _quiet_fork():
+    """Python >= 3.12 warns that forking a multi-threaded process may deadlock.  The only
+    other threads are the numerical library's idle pool (fork-safe) and an executor's own;
+    the children run our code only."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", category=DeprecationWarning,
+                                message=".*multi-threaded.*fork")
+        yield
 
 
 def _worker_start() -> None:

@@ -65,7 +65,7 @@ def reference_instants(unix) -> list[bytes]:
     u = np.round(np.asarray(unix, float))
     ok = np.isfinite(u)
     stamps = np.where(ok, u, 0.0).astype(np.int64).astype("datetime64[s]")
-    stamps[~ok] = np.datetime64("NaT")
+    stamps[~ok] = np.datetime64("NaT", "s")
     return [orjson.dumps(m, option=orjson.OPT_NAIVE_UTC | orjson.OPT_UTC_Z)
             for m in stamps.tolist()]
 

@@ -380,3 +380,17 @@ def test_apparent_place_of_date_against_erfa_rotation(site):
     v = erfa.s2c(math.radians(gra[0]), math.radians(gdec[0]))
     ra_ref, dec_ref = erfa.c2s(erfa.pnm06a(t.jd1, t.jd2) @ v)
     assert sep_arcsec(ra[0], dec[0], math.degrees(ra_ref) % 360, math.degrees(dec_ref)) < 0.001
+
+
+def test_a_circular_orbit_is_computed_not_refused():
+    """e = 0 (only ever hand-made): skyfield's Kepler solver divides by e, so the orbit is
+    computed with e = 1e-12; against the two-body reference above (Meeus ch. 30) with e = 0."""
+    import dataclasses
+
+    el = dataclasses.replace(parse_line(CERES), eccentricity=0.0)
+    times = np.array([unix(2020, 6, 17), unix(2021, 1, 2, 22)])
+    ra, dec, dist = orbit_positions(el, times)
+    for i, t in enumerate(times):
+        ref = _reference_radec(el, t)
+        assert sep_arcsec(ra[i], dec[i], ref[0], ref[1]) < 1.0
+        assert dist[i] == pytest.approx(ref[2], rel=1e-7)

@@ -34,7 +34,7 @@ def _datetimes(unix: np.ndarray) -> list:
     u = np.round(np.asarray(unix, dtype=float))
     ok = np.isfinite(u)
     stamps = np.where(ok, u, 0.0).astype("int64").astype("datetime64[s]")
-    stamps[~ok] = np.datetime64("NaT")
+    stamps[~ok] = np.datetime64("NaT", "s")
     return stamps.tolist()
 
 
