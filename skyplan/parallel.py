@@ -290,12 +290,18 @@ class _Child:
         import pickle
 
         chunks = []
+        status = 0
         try:
             while chunk := os.read(self.read, 1 << 20):
                 chunks.append(chunk)
+            try:
+                _, status = os.waitpid(self.pid, 0)  # it leaves once it has written
+            except ChildProcessError:
+                pass
+            self.pid = 0
         finally:
             self.stop()
-        if not chunks:
+        if not chunks or status != 0:  # killed before or while it wrote
             raise _lost()
         return pickle.loads(b"".join(chunks))
 

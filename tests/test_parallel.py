@@ -281,3 +281,19 @@ def test_a_single_call_runs_in_a_process_forked_for_it() -> None:
         started = time.perf_counter()
         pool.run(time.sleep, 60)  # never waited for: stopped when the pool closes
     assert time.perf_counter() - started < 10
+
+
+def _large_result() -> bytes:
+    return b"x" * (8 << 20)  # far more than a pipe holds: the child waits to write it
+
+
+def test_a_child_killed_while_it_sends_is_lost_not_misread() -> None:
+    import signal
+    import time
+
+    with parallel.Workers(1) as pool:
+        outcome = pool.run(_large_result)
+        time.sleep(0.3)
+        os.kill(outcome._future.pid, signal.SIGKILL)  # the forked process (internal)
+        with pytest.raises(parallel.WorkerLost):
+            outcome.result()
