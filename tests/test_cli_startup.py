@@ -37,6 +37,28 @@ def test_a_windows_run_converts_its_options_without_pydantic(tmp_path) -> None:
     assert "pydantic" not in loaded and (tmp_path / "w.json").stat().st_size > 0
 
 
+def test_a_find_run_converts_its_names_without_pydantic() -> None:
+    app_module._register()
+    if plainparams.install(typer.main.get_command(app_module.app)) == 0:
+        pytest.skip("this typer release converts options without a validator layer")
+    assert "pydantic" not in loaded_after("find", "M 42", "Vega")
+
+
+def test_lists_of_texts() -> None:
+    texts = plainparams.TextList()
+    assert texts.coerce(("M 42", "Vega")) == ["M 42", "Vega"] and texts.coerce(None) == ()
+    with pytest.raises(typer.BadParameter):
+        texts.coerce("M 42")
+
+
+def test_a_missing_name_is_one_line_and_status_2(capsys) -> None:
+    with pytest.raises(SystemExit) as stop:
+        app_module.main(["find"])
+    assert stop.value.code == 2
+    assert capsys.readouterr().err.strip().splitlines() == [
+        "skyplan: Missing argument 'name'. (see 'skyplan find --help')"]
+
+
 def conversion(kind: type) -> plainparams.PlainConversion:
     return plainparams.PlainConversion(kind)
 
