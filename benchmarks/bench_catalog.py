@@ -12,8 +12,8 @@ from pathlib import Path
 
 import numpy as np
 
-from skyplan.angles import format_dms_array, format_hms_array, parse_ra_column
-from skyplan.catalog import read_catalog
+from skyplan.inputs.angles import format_dms_array, format_hms_array, parse_ra_column
+from skyplan.inputs.catalog import read_catalog
 
 
 def best_of(fn, repeat: int = 3) -> tuple[float, float]:

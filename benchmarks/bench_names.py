@@ -5,7 +5,7 @@
 A column of invented queries mixes Messier numbers, NGC and IC numbers, HIP numbers and IAU
 star names in varied spelling ("m 31", "NGC0224", "hip 27989", "vega"), with about 1% of
 names that resolve to nothing.  Reports, each in a fresh process so the indexes are really
-built: the time to import skyplan.names and resolve the whole column the first time; then,
+built: the time to import skyplan.names.resolve and resolve the whole column the first time; then,
 in this process, the repeat time for the same column and the time of single ``resolve``
 calls.
 """
@@ -23,7 +23,7 @@ import numpy as np
 
 def invented_queries(n: int, seed: int) -> list[str]:
     """Names in mixed spelling; about 1% are unknown on purpose."""
-    from skyplan.names import STAR_NAMES_PATH
+    from skyplan.names.resolve import STAR_NAMES_PATH
 
     rng = np.random.default_rng(seed)
     stars = [line.split(",")[0] for line in STAR_NAMES_PATH.read_text().splitlines()[1:]]
@@ -57,7 +57,7 @@ def first_use_seconds(n: int, seed: int) -> tuple[float, float]:
         "from bench_names import invented_queries\n"
         f"q = invented_queries({n}, {seed})\n"
         "t, c = time.perf_counter(), time.process_time()\n"
-        "from skyplan.names import resolve_many\n"
+        "from skyplan.names.resolve import resolve_many\n"
         "resolve_many(q)\n"
         "print(time.perf_counter() - t, time.process_time() - c)\n"
     )
@@ -80,7 +80,7 @@ def main() -> None:
           f"wall min {min(walls):.3f} s, median {statistics.median(walls):.3f} s; "
           f"CPU min {min(cpus):.3f} s")
 
-    from skyplan.names import resolve, resolve_many
+    from skyplan.names.resolve import resolve, resolve_many
 
     queries = invented_queries(args.names, args.seed)
     resolve_many(queries)

@@ -28,8 +28,8 @@ import time
 
 import numpy as np
 
-from skyplan import scheduling
-from skyplan.scheduling import PlanOptions, PlanRequest, SlewModel, make_plan
+from skyplan.planning import dispatch as scheduling
+from skyplan.planning.dispatch import PlanOptions, PlanRequest, SlewModel, make_plan
 
 EXPOSURE_P = [0.2, 0.25, 0.25, 0.2, 0.1]
 SIDEREAL_RATE = 1.00273790935  # sidereal hours per solar hour (IERS Conventions 2010, ch. 5)

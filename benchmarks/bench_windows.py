@@ -52,7 +52,11 @@ print(f"RESULT {t1 - t0:.3f} {peak_mib:.1f} {code} {worker_mib:.1f}")
 
 RUN_ENGINE = r"""
 import sys, time, datetime as dt
-from skyplan import limits, night, sites, targets, windows
+from skyplan.inputs import limits
+from skyplan.engine import night
+from skyplan.inputs import sites
+from skyplan.inputs import targets
+from skyplan.engine import windows
 site = sites.parse_site_spec(sys.argv[2])
 cat = targets.load_catalog(sys.argv[1])
 tset, _ = targets.target_set(cat)
@@ -68,7 +72,7 @@ print(f"RESULT {best:.3f}")
 
 RUN_ASTROPY = r"""
 import sys, time, numpy as np
-from skyplan.ephemeris import configure_astropy_offline
+from skyplan.engine.ephemeris import configure_astropy_offline
 configure_astropy_offline()
 import astropy.units as u
 from astropy.coordinates import AltAz, EarthLocation, SkyCoord

@@ -1,4 +1,4 @@
-"""Tests for skyplan.angles: reading and writing sexagesimal angles.
+"""Tests for skyplan.inputs.angles: reading and writing sexagesimal angles.
 
 Reference values come from the definitions (1 h of right ascension = 15 deg, 1 deg = 60 arcmin
 = 3600 arcsec), worked out by hand in the comments, and from astropy's Angle parser and
@@ -15,7 +15,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from skyplan.angles import (
+from skyplan.inputs.angles import (
     MAX_ANGLE_CHARS,
     format_dms,
     format_dms_array,

@@ -1,4 +1,4 @@
-"""Tests for skyplan.catalog: reading target lists.
+"""Tests for skyplan.inputs.catalog: reading target lists.
 
 Expected coordinates follow from the sexagesimal definitions (1 h = 15 deg, 1 deg = 3600
 arcsec), worked out in the comments.  Tables in ECSV, VOTable and FITS are written with
@@ -16,10 +16,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from skyplan import catalog as catalog_module
-from skyplan import decimaltext, delimited
-from skyplan.catalog import Catalog, read_catalog
 from skyplan.errors import InputError, InputErrors
+from skyplan.inputs import catalog as catalog_module
+from skyplan.inputs import decimaltext, delimited
+from skyplan.inputs.catalog import Catalog, read_catalog
 
 # 05:35:17.3 = (5 + 35/60 + 17.3/3600) * 15 deg = 83.8220833 deg
 RA_A = (5 + 35 / 60 + 17.3 / 3600) * 15

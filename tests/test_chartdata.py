@@ -1,4 +1,4 @@
-"""Tests for skyplan.chartdata: the chart scenes against independent computations.
+"""Tests for skyplan.engine.chartdata: the chart scenes against independent computations.
 
 References:
 - astropy (general-purpose reference library): ICRS -> AltAz with ERFA refraction, the Sun,
@@ -24,10 +24,11 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pytest
 
-from skyplan import chartdata, sites
-from skyplan.limits import Limits
-from skyplan.scene import TWILIGHT_STATES, Visit
-from skyplan.windows import TargetSet, compute_windows
+from skyplan.engine import chartdata
+from skyplan.engine.scene import TWILIGHT_STATES, Visit
+from skyplan.engine.windows import TargetSet, compute_windows
+from skyplan.inputs import sites
+from skyplan.inputs.limits import Limits
 
 # An invented site in the south of Spain, with its own weather.
 SITE = sites.Site("Test Ridge", 38.2, -2.9, 1300.0, zone="Europe/Madrid", pressure_hpa=870.0,
@@ -54,7 +55,7 @@ def astropy_frame(site, unix, refracted: bool):
     from astropy.coordinates import AltAz, EarthLocation
     from astropy.time import Time
 
-    from skyplan.ephemeris import configure_astropy_offline
+    from skyplan.engine.ephemeris import configure_astropy_offline
 
     configure_astropy_offline()
     loc = EarthLocation.from_geodetic(site.lon_deg * u.deg, site.lat_deg * u.deg,

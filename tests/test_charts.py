@@ -21,16 +21,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from skyplan.errors import InputError
-from skyplan.projection import project
-from skyplan.render.charts import (
-    altitude_figure,
-    draw_altitude,
-    draw_sky,
-    moon_lit_outline,
-    sky_figure,
-)
-from skyplan.scene import (
+from skyplan.engine.scene import (
     AltitudeScene,
     MoonMark,
     SkyLine,
@@ -41,6 +32,15 @@ from skyplan.scene import (
     TwilightEdges,
     Visit,
 )
+from skyplan.errors import InputError
+from skyplan.render.charts import (
+    altitude_figure,
+    draw_altitude,
+    draw_sky,
+    moon_lit_outline,
+    sky_figure,
+)
+from skyplan.render.projection import project
 
 SVG = "{http://www.w3.org/2000/svg}"
 XLINK = "{http://www.w3.org/1999/xlink}"

@@ -19,9 +19,10 @@ import erfa
 import numpy as np
 import pytest
 
-from skyplan import notices, scenario
+from skyplan import notices
 from skyplan.cli import app
-from skyplan.ephemeris import configure_astropy_offline
+from skyplan.engine.ephemeris import configure_astropy_offline
+from skyplan.inputs import scenario
 
 configure_astropy_offline()
 

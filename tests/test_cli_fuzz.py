@@ -24,9 +24,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from skyplan import scenario
 from skyplan.cli import app
-from skyplan.ephemeris import configure_astropy_offline
+from skyplan.engine.ephemeris import configure_astropy_offline
+from skyplan.inputs import scenario
 
 configure_astropy_offline()
 

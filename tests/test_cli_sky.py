@@ -15,8 +15,8 @@ import re
 import numpy as np
 import pytest
 
-from skyplan import bodies, ephemeris
 from skyplan.cli.app import main
+from skyplan.engine import bodies, ephemeris
 
 ISO_Z = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ$")
 DEMO_LAT, DEMO_LON, DEMO_ELEV = 38.2140, -2.8830, 1310.0  # the demo site file (invented site)

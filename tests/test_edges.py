@@ -25,8 +25,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from skyplan import ephemeris, notices
+from skyplan import notices
 from skyplan.cli import app
+from skyplan.engine import ephemeris
 from skyplan.errors import EXIT_BAD_INPUT, EXIT_NOTHING_OBSERVABLE
 
 ephemeris.configure_astropy_offline()
@@ -274,7 +275,7 @@ def test_before_1960_a_note_says_utc_did_not_exist(capsys) -> None:
 def test_bodies_and_stars_share_one_ut1_beyond_the_table() -> None:
     """skyfield's UT1 (the Sun, the Moon) and ours (fixed targets) agree beyond the table,
     where skyfield by itself would extrapolate ΔT and drift by seconds by 2050."""
-    from skyplan import bodies, timescales
+    from skyplan.engine import bodies, timescales
 
     when = np.array([unix("2045-03-01T00:00Z"), unix("1910-03-01T00:00Z")])
     t = bodies.sf_time(when)

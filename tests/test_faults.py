@@ -30,8 +30,9 @@ from pathlib import Path
 
 import pytest
 
-from skyplan import bodies, ephemeris, notices, output, scenario, timescales
+from skyplan import notices
 from skyplan.cli import app
+from skyplan.engine import bodies, ephemeris, timescales
 from skyplan.errors import (
     EXIT_FAILURE,
     EXIT_INTERRUPTED,
@@ -39,6 +40,8 @@ from skyplan.errors import (
     EXIT_TERMINATED,
     OutputError,
 )
+from skyplan.inputs import scenario
+from skyplan.render import output
 
 DEMO_CATALOG = scenario.demo_path(scenario.DEMO_CATALOG)
 PYTHON = sys.executable
@@ -83,7 +86,7 @@ def test_sigkill_while_writing_through_write_atomic_keeps_the_old_file(tmp_path:
     target.write_bytes(OLD)
     script = textwrap.dedent(f"""
         import os, sys, time
-        from skyplan import output
+        from skyplan.render import output
         def slow_fsync(fd):
             print("writing", flush=True)
             time.sleep(60)
@@ -142,7 +145,7 @@ def test_signals_end_the_run_cleanly(tmp_path: Path, signum: int, status: int,
     target.write_bytes(OLD)
     script = textwrap.dedent(f"""
         import sys, time
-        from skyplan import output
+        from skyplan.render import output
         from skyplan.cli import app, common
         def slow_fsync(fd):
             print("writing", flush=True)
@@ -503,7 +506,7 @@ def test_votable_with_entities_is_refused(tmp_path: Path, capsys: pytest.Capture
 
 def test_over_long_fields_are_named(tmp_path: Path, capsys: pytest.CaptureFixture[str],
                                     monkeypatch: pytest.MonkeyPatch) -> None:
-    from skyplan import delimited
+    from skyplan.inputs import delimited
 
     monkeypatch.setattr(delimited, "MAX_FIELD_CHARS", 12)
     path = tmp_path / "long.csv"
@@ -521,7 +524,7 @@ def test_over_long_fields_are_named(tmp_path: Path, capsys: pytest.CaptureFixtur
 @pytest.mark.parametrize("quoted", [False, True])
 def test_too_many_rows_are_refused(tmp_path: Path, capsys: pytest.CaptureFixture[str],
                                    monkeypatch: pytest.MonkeyPatch, quoted: bool) -> None:
-    from skyplan import delimited
+    from skyplan.inputs import delimited
 
     monkeypatch.setattr(delimited, "MAX_ROWS", 3)
     path = tmp_path / "rows.csv"
@@ -536,7 +539,7 @@ def test_too_many_rows_in_a_votable(tmp_path: Path, capsys: pytest.CaptureFixtur
                                     monkeypatch: pytest.MonkeyPatch) -> None:
     from astropy.table import Table
 
-    from skyplan import delimited
+    from skyplan.inputs import delimited
 
     monkeypatch.setattr(delimited, "MAX_ROWS", 3)
     path = tmp_path / "rows.vot"
@@ -550,7 +553,7 @@ def test_too_many_rows_in_a_votable(tmp_path: Path, capsys: pytest.CaptureFixtur
 def test_oversized_file_is_refused_before_reading(
         tmp_path: Path, capsys: pytest.CaptureFixture[str],
         monkeypatch: pytest.MonkeyPatch) -> None:
-    from skyplan import delimited
+    from skyplan.inputs import delimited
 
     monkeypatch.setattr(delimited, "MAX_FILE_BYTES", 100)
     path = tmp_path / "big.csv"

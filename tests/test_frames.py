@@ -1,4 +1,4 @@
-"""Tests for skyplan.frames and skyplan.conversion: rotations, apparent and observed places.
+"""Tests for engine.frames and engine.convert: rotations, apparent and observed places.
 
 References: Meeus, *Astronomical Algorithms* (2nd ed., 1998), ch. 13; the Hipparcos Catalogue
 (ESA 1997, SP-1200, vol. 1, §1.5.3); Kaplan (2005), USNO Circular 179; astropy and skyfield
@@ -15,9 +15,10 @@ import pytest
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
-from skyplan import conversion, frames
-from skyplan.ephemeris import configure_astropy_offline, planets, timescale
-from skyplan.sites import Site
+from skyplan.engine import convert as conversion
+from skyplan.engine import frames
+from skyplan.engine.ephemeris import configure_astropy_offline, planets, timescale
+from skyplan.inputs.sites import Site
 
 configure_astropy_offline()
 
@@ -172,7 +173,7 @@ def test_meeus_13b_venus_through_the_engine() -> None:
     # Measured 0.39″; asserted 1″.
     import erfa
 
-    from skyplan import timescales
+    from skyplan.engine import timescales
 
     ut1_unix = unix_of("1987-04-10T19:21:00")
     unix = ut1_unix
@@ -392,7 +393,7 @@ def test_horizon_place_against_astropy_and_skyfield(
 
 
 def test_refraction_erfa_against_astropy(sample: Sample, astropy_places: dict) -> None:
-    from skyplan import refraction
+    from skyplan.engine import refraction
 
     r = refraction.refraction_deg(sample.alt, model="erfa", **WEATHER)
     az_a, alt_a = astropy_places["refracted"]
@@ -433,7 +434,7 @@ def positions(lon: float, lat: float) -> conversion.PositionList:
 
 
 def there_and_back(lon, lat, frame, unix, eq=2000.0, of_date=False):
-    """icrs → frame → icrs through :func:`skyplan.conversion.convert` (no site needed)."""
+    """icrs → frame → icrs through :func:`skyplan.engine.convert.convert` (no site needed)."""
     go = conversion.ConversionRequest("icrs", frame, unix, None, eq, of_date)
     back = dataclasses.replace(go, from_frame=frame, to_frame="icrs")
     mid = conversion.convert(positions(lon, lat), go)

@@ -11,8 +11,8 @@ import numpy as np
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from skyplan import events
-from skyplan.intervals import Intervals, complement, intersect
+from skyplan.engine import events
+from skyplan.engine.intervals import Intervals, complement, intersect
 
 N_ROWS = 4
 SPAN = (0, 40)  # integer end points; probes sit on the half-integers between them

@@ -1,4 +1,4 @@
-"""Tests for skyplan.names: offline target names and space motion.
+"""Tests for skyplan.names.resolve: offline target names and space motion.
 
 References: published catalogue positions (SIMBAD/NED, Harris 1996 globular-cluster catalogue,
 marked "(from memory)" where recalled), the IAU Catalog of Star Names (its J2000 positions,
@@ -14,9 +14,9 @@ import time
 import numpy as np
 import pytest
 
-from skyplan import names
 from skyplan.errors import InputError
-from skyplan.names import (
+from skyplan.names import resolve as names
+from skyplan.names.resolve import (
     STAR_NAMES_PATH,
     hipparcos_records,
     normalise,
@@ -288,7 +288,7 @@ def _astropy_coord(ra, dec, pmra, pmdec, plx, rv, jyear):
 def test_propagate_to_epoch_against_astropy():
     from astropy.time import Time
 
-    from skyplan.ephemeris import configure_astropy_offline
+    from skyplan.engine.ephemeris import configure_astropy_offline
 
     configure_astropy_offline()
     # Hipparcos-2 entries with large proper motion (Arcturus, Rigil Kentaurus, Vega, Polaris)
@@ -313,7 +313,7 @@ def test_apparent_place_of_a_catalogue_star_against_astropy():
     from astropy.coordinates import CIRS
     from astropy.time import Time
 
-    from skyplan.ephemeris import configure_astropy_offline
+    from skyplan.engine.ephemeris import configure_astropy_offline
 
     configure_astropy_offline()
     # Arcturus: 2.3"/yr proper motion, 89 mas parallax; date 2025-06-01 00:00 UTC

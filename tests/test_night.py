@@ -1,7 +1,7 @@
-"""Reference tests of skyplan.night: sunset, twilights, the Moon, polar nights, the date line.
+"""Reference tests of engine.night: sunset, twilights, the Moon, polar nights, the date line.
 
 References, named beside each check: skyfield's almanac (Rhodes 2019, ASCL 1907.024) on the
-bundled DE421 with the timescale of :mod:`skyplan.ephemeris` — ``find_risings`` /
+bundled DE421 with the timescale of :mod:`skyplan.engine.ephemeris` — ``find_risings`` /
 ``find_settings`` (the Sun's upper limb at −50′, the Moon's at −34′ minus its semi-diameter:
 the same definitions as ours), ``dark_twilight_day`` (−6°, −12°, −18°), ``find_transits``;
 Meeus, *Astronomical Algorithms* (2nd ed., 1998), eqs. 48.1–48.3 for the Moon's phase;
@@ -16,9 +16,9 @@ import functools
 import numpy as np
 import pytest
 
-from skyplan import bodies, ephemeris, night, windows
-from skyplan.limits import Limits
-from skyplan.sites import Site, nautical_zone
+from skyplan.engine import bodies, ephemeris, night, windows
+from skyplan.inputs.limits import Limits
+from skyplan.inputs.sites import Site, nautical_zone
 
 SUN_TOL_S = 5.0
 MOON_TOL_S = 30.0

@@ -1,4 +1,4 @@
-"""Tests for skyplan.orbits: MPC one-line elements and positions from Kepler orbits.
+"""Tests for skyplan.inputs.orbits: MPC one-line elements and positions from Kepler orbits.
 
 References:
 * Element lines: MPC MPCORB.DAT (1) Ceres, epoch 2020-05-31, and CometEls.txt lines for
@@ -26,8 +26,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from skyplan.errors import InputError
-from skyplan.names import find_orbit, resolve
-from skyplan.orbits import (
+from skyplan.inputs.orbits import (
     GAUSS_K,
     OrbitElements,
     apparent_radec_of_date,
@@ -40,6 +39,7 @@ from skyplan.orbits import (
     unpack_number,
     unpack_provisional,
 )
+from skyplan.names.resolve import find_orbit, resolve
 
 CERES = (
     "00001    3.4   0.15 K205V 162.68631   73.73161   80.28698   10.58862  0.0775571  0.21406009"
@@ -178,7 +178,7 @@ def test_every_bad_line_is_reported(tmp_path):
 
 
 def test_reading_stops_after_many_bad_lines(monkeypatch):
-    import skyplan.orbits as orbits
+    import skyplan.inputs.orbits as orbits
 
     monkeypatch.setattr(orbits, "MAX_PROBLEMS", 5)
     with pytest.raises(InputError) as info:
@@ -193,7 +193,7 @@ def test_limits_on_line_length_and_count(tmp_path, monkeypatch):
     with pytest.raises(InputError, match="longer than 300") as info:
         read_elements(long_line)
     assert info.value.line == 1
-    import skyplan.orbits as orbits
+    import skyplan.inputs.orbits as orbits
 
     monkeypatch.setattr(orbits, "MAX_LINES", 3)
     many = tmp_path / "many.txt"
@@ -277,7 +277,7 @@ def _reference_radec(el, unix_time, lat=None, lon=None, elevation_m=0.0):
     from astropy.time import Time
     from skyfield.api import wgs84
 
-    from skyplan.ephemeris import planets, timescale
+    from skyplan.engine.ephemeris import planets, timescale
 
     eph, ts = planets(), timescale()
     t = Time(unix_time, format="unix", scale="utc").tt
@@ -296,7 +296,7 @@ def _reference_radec(el, unix_time, lat=None, lon=None, elevation_m=0.0):
 @pytest.mark.parametrize("line", [CERES, HALE_BOPP, PANSTARRS])
 @pytest.mark.parametrize("site", [None, (-30.2446, -70.7494, 2200.0), (52.0, 4.4, 0.0)])
 def test_positions_against_independent_two_body(line, site):
-    from skyplan.ephemeris import configure_astropy_offline
+    from skyplan.engine.ephemeris import configure_astropy_offline
 
     configure_astropy_offline()
     el = parse_line(line)
@@ -367,7 +367,7 @@ def test_apparent_place_of_date_against_erfa_rotation(site):
     import erfa
     from astropy.time import Time
 
-    from skyplan.ephemeris import configure_astropy_offline
+    from skyplan.engine.ephemeris import configure_astropy_offline
 
     configure_astropy_offline()
     el = parse_line(HALE_BOPP)

@@ -18,8 +18,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from skyplan import limits, night, output, parallel, scenario, sites, targets, timescales, windows
+from skyplan import parallel
 from skyplan.cli.app import main
+from skyplan.engine import night, timescales, windows
 from skyplan.errors import (
     EXIT_BAD_INPUT,
     EXIT_FAILURE,
@@ -27,7 +28,8 @@ from skyplan.errors import (
     InputErrors,
     OutputError,
 )
-from skyplan.render import windowview
+from skyplan.inputs import limits, scenario, sites, targets
+from skyplan.render import output, windowview
 
 N_RANDOM = 3000
 
@@ -184,7 +186,7 @@ def test_errors_survive_the_trip_from_a_worker() -> None:
 
 def test_iers_table_read_in_one_step_matches_the_line_reader() -> None:
     """The bundled finals2000A.all (IERS ReadMe.finals2000A layout), both readers."""
-    from skyplan import ephemeris
+    from skyplan.engine import ephemeris
 
     raw = ephemeris.iers_finals_path().read_bytes()
     fast = timescales._columns_fixed(raw)

@@ -1,4 +1,4 @@
-"""Tests for skyplan.projection: the zenith-centred stereographic projection of the sky.
+"""Tests for skyplan.render.projection: the zenith-centred stereographic projection of the sky.
 
 References:
 - Snyder, J. P. (1987), Map Projections — A Working Manual, USGS Prof. Paper 1395, ch. 21
@@ -19,7 +19,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from skyplan.projection import horizon_radius, project, project_circle, unproject
+from skyplan.render.projection import horizon_radius, project, project_circle, unproject
 
 ALT = st.floats(-80.0, 90.0, allow_nan=False)
 AZ = st.floats(0.0, 360.0, allow_nan=False, exclude_max=True)

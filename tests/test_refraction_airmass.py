@@ -1,4 +1,4 @@
-"""Tests for skyplan.refraction and skyplan.airmass.
+"""Tests for skyplan.engine.refraction and skyplan.engine.airmass.
 
 References: Meeus, *Astronomical Algorithms* (2nd ed., 1998), ch. 16 (Bennett 1982 and
 Sæmundsson 1986); ERFA eraRefco/eraAtioq through astropy; Kasten & Young (1989), Applied
@@ -10,8 +10,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from skyplan import airmass, refraction
-from skyplan.ephemeris import configure_astropy_offline
+from skyplan.engine import airmass, refraction
+from skyplan.engine.ephemeris import configure_astropy_offline
 
 configure_astropy_offline()
 

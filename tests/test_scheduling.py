@@ -1,4 +1,4 @@
-"""Tests of the night plan (skyplan.scheduling, skyplan.optimise).
+"""Tests of the night plan (skyplan.planning.dispatch, skyplan.planning.optimiser).
 
 The rules every plan must obey are checked from their definitions, recomputed here
 independently of the engine: visits never overlap, each whole visit (slew, setup, exposure)
@@ -22,13 +22,7 @@ import pytest
 
 from skyplan import notices
 from skyplan.errors import InputError
-from skyplan.optimise import (
-    TOP_EXCESS_TOLERANCE,
-    build_slot_model,
-    reserve_greedy,
-    solve_lexicographic,
-)
-from skyplan.scheduling import (
+from skyplan.planning.dispatch import (
     REASONS,
     PlanOptions,
     PlanRequest,
@@ -36,6 +30,12 @@ from skyplan.scheduling import (
     _Night,
     make_plan,
     typical_slew_s,
+)
+from skyplan.planning.optimiser import (
+    TOP_EXCESS_TOLERANCE,
+    build_slot_model,
+    reserve_greedy,
+    solve_lexicographic,
 )
 
 T0 = 1_750_000_000.0

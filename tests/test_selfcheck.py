@@ -7,8 +7,8 @@ import json
 
 import pytest
 
-from skyplan import selfcheck
 from skyplan.cli.app import main
+from skyplan.engine import selfcheck
 from skyplan.errors import EXIT_SELFCHECK
 
 

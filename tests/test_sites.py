@@ -1,4 +1,4 @@
-"""Tests for skyplan.sites: specs, sites files, horizons, zones, the standard atmosphere."""
+"""Tests for skyplan.inputs.sites: specs, sites files, horizons, zones, the standard atmosphere."""
 
 from __future__ import annotations
 
@@ -11,9 +11,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from skyplan import notices, sites
+from skyplan import notices
 from skyplan.errors import InputError, InputErrors
-from skyplan.sites import (
+from skyplan.inputs import sites
+from skyplan.inputs.sites import (
     NO_SITE_MESSAGE,
     HorizonProfile,
     Site,

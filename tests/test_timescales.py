@@ -1,4 +1,4 @@
-"""Tests for skyplan.timescales and skyplan.sidereal: UT1, TT, Julian dates, sidereal time.
+"""Tests for engine.timescales and engine.sidereal: UT1, TT, Julian dates, sidereal time.
 
 References: Meeus, *Astronomical Algorithms* (2nd ed., 1998), ch. 12; the IERS tables and
 IERS Bulletin C; ERFA called directly; astropy and skyfield as independent implementations.
@@ -13,8 +13,9 @@ import erfa
 import numpy as np
 import pytest
 
-from skyplan import notices, sidereal, timescales
-from skyplan.ephemeris import configure_astropy_offline, timescale
+from skyplan import notices
+from skyplan.engine import sidereal, timescales
+from skyplan.engine.ephemeris import configure_astropy_offline, timescale
 
 configure_astropy_offline()
 

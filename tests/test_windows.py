@@ -3,7 +3,7 @@
 References, named beside each check: Meeus, *Astronomical Algorithms* (2nd ed., 1998),
 example 15.a; skyfield's almanac searches (Rhodes 2019, ASCL 1907.024) on the bundled DE421;
 astropy's ICRS → AltAz transform (ERFA).  Every comparison uses the timescale and ephemeris
-of :mod:`skyplan.ephemeris`, and astropy is configured offline first.
+of :mod:`skyplan.engine.ephemeris`, and astropy is configured offline first.
 """
 
 from __future__ import annotations
@@ -16,9 +16,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from skyplan import bodies, ephemeris, night, windows
-from skyplan.limits import ORDER, Limits
-from skyplan.sites import HorizonProfile, Site, nautical_zone
+from skyplan.engine import bodies, ephemeris, night, windows
+from skyplan.inputs.limits import ORDER, Limits
+from skyplan.inputs.sites import HorizonProfile, Site, nautical_zone
 
 
 def target_set(ra_deg, dec_deg, *, pm_ra=None, pm_dec=None, parallax=None, rv=None,

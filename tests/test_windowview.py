@@ -10,7 +10,8 @@ import datetime as dt
 import numpy as np
 import pytest
 
-from skyplan import limits, night, scenario, sites, targets, windows
+from skyplan.engine import night, windows
+from skyplan.inputs import limits, scenario, sites, targets
 from skyplan.render import records, windowview
 
 

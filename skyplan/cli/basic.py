@@ -25,7 +25,8 @@ def clock(
     quiet: bool = common.QuietOpt,
 ) -> None:
     """UTC, local time, UT1, TT, Julian dates and sidereal times at a site."""
-    from skyplan import sidereal, timeinput
+    from skyplan.engine import sidereal
+    from skyplan.inputs import timeinput
     from skyplan.render import tables
 
     common.set_quiet(quiet)
@@ -43,7 +44,7 @@ def clock(
 
 
 def _check_span(unix: float) -> None:
-    from skyplan.ephemeris import check_in_span
+    from skyplan.engine.ephemeris import check_in_span
 
     check_in_span(unix, unix, field="--at")
 
@@ -83,7 +84,9 @@ def convert(
     quiet: bool = common.QuietOpt,
 ) -> None:
     """Convert positions between frames (ICRS, FK5, apparent, horizon, ecliptic, galactic)."""
-    from skyplan import conversion, frames, targets, timeinput
+    from skyplan.engine import convert as conversion
+    from skyplan.engine import frames
+    from skyplan.inputs import targets, timeinput
     from skyplan.render import records, tables
 
     common.set_quiet(quiet)
@@ -142,7 +145,7 @@ def sites_list(
     demo: bool = common.DemoOpt,
 ) -> None:
     """List the sites in the sites file."""
-    from skyplan import scenario, sites
+    from skyplan.inputs import scenario, sites
     from skyplan.render import tables
 
     path = Path(sites_file) if sites_file else (
@@ -163,7 +166,7 @@ def sites_show(
     fmt: str = typer.Option("table", "--format", "-f", help="table, json or toml."),
 ) -> None:
     """Show one site: position, zone, weather, horizon profile and default limits."""
-    from skyplan import sites
+    from skyplan.inputs import sites
     from skyplan.render import records, tables
 
     fmt = common.check_format(fmt, ("table", "json", "toml"))
@@ -179,7 +182,7 @@ def sites_show(
 @sites_app.command("check")
 def sites_check(file: Path = typer.Argument(..., help="Sites file to check.")) -> None:
     """Check a sites file and report every problem with its line."""
-    from skyplan import sites
+    from skyplan.inputs import sites
 
     problems = sites.check_sites_file(file)
     if len(problems) == 1:
@@ -196,7 +199,7 @@ def selfcheck(
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
 ) -> None:
     """Check the installation offline against reference cases with known answers."""
-    from skyplan import selfcheck as checks
+    from skyplan.engine import selfcheck as checks
     from skyplan.errors import SelfcheckFailed
     from skyplan.render import records, tables
 

@@ -49,7 +49,7 @@ def _chart_path(out: str) -> Path:
 
 def _catalogue(catalog, demo, skip_bad, elements):
     """(TargetSet, priorities, orbits) from a catalogue file or the demo programme."""
-    from skyplan import scenario, targets
+    from skyplan.inputs import scenario, targets
 
     if catalog is None:
         if not demo:
@@ -58,7 +58,7 @@ def _catalogue(catalog, demo, skip_bad, elements):
         catalog = str(scenario.demo_path(scenario.DEMO_CATALOG))
     orbits = ()
     if elements:
-        from skyplan import orbits as orbit_mod
+        from skyplan.inputs import orbits as orbit_mod
 
         orbits = orbit_mod.read_elements(elements)
     cat = targets.load_catalog(catalog, skip_bad=skip_bad)
@@ -106,7 +106,8 @@ def sky_chart(
     quiet: bool = common.QuietOpt,
 ) -> None:
     """The whole sky at one instant: targets, Moon, planets, equator, ecliptic, horizon."""
-    from skyplan import chartdata, ephemeris, limits, scenario, timeinput
+    from skyplan.engine import chartdata, ephemeris
+    from skyplan.inputs import limits, scenario, timeinput
     from skyplan.render import charts
 
     common.set_quiet(quiet)
@@ -161,7 +162,8 @@ def altitude_chart(
     quiet: bool = common.QuietOpt,
 ) -> None:
     """Altitude against local time over one night, with twilight, the Moon and limits."""
-    from skyplan import chartdata, limits, windows
+    from skyplan.engine import chartdata, windows
+    from skyplan.inputs import limits
     from skyplan.render import charts
 
     common.set_quiet(quiet)
@@ -231,10 +233,11 @@ def _from_plan(plan_path: str, site_opt, sites_file, demo):
 
     import numpy as np
 
-    from skyplan import bodies, ephemeris, frames, timeinput
-    from skyplan.night import compute_night
-    from skyplan.scene import Visit
-    from skyplan.windows import TargetSet
+    from skyplan.engine import bodies, ephemeris, frames
+    from skyplan.engine.night import compute_night
+    from skyplan.engine.scene import Visit
+    from skyplan.engine.windows import TargetSet
+    from skyplan.inputs import timeinput
 
     try:
         doc = json.loads(Path(plan_path).read_text(encoding="utf-8"))
@@ -299,7 +302,7 @@ def _plan_limits(value) -> dict:
 
 
 def _plan_site(value, plan_path, site_opt, sites_file, demo):
-    from skyplan import sites
+    from skyplan.inputs import sites
 
     if site_opt is not None or demo:
         return common.get_site(site_opt, sites_file, demo)
@@ -324,7 +327,7 @@ def _plan_site(value, plan_path, site_opt, sites_file, demo):
 
 
 def _plan_date(value, plan_path, zone):
-    from skyplan import timeinput
+    from skyplan.inputs import timeinput
 
     if isinstance(value, dict):
         value = value.get("date")
@@ -334,7 +337,7 @@ def _plan_date(value, plan_path, zone):
 
 
 def _observation(rec, i, plan_path, zone):
-    from skyplan import timeinput
+    from skyplan.inputs import timeinput
 
     where = f"observations[{i}]"
     if not isinstance(rec, dict):

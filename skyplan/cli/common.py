@@ -34,7 +34,7 @@ OutOpt = typer.Option(
 
 def get_site(site: str | None, sites_file: str | None, demo: bool):
     """The Site for a command: the demo's, a named one, or coordinates."""
-    from skyplan import scenario, sites
+    from skyplan.inputs import scenario, sites
 
     if demo and site is None:
         return sites.find_site(scenario.DEMO_SITE, scenario.demo_path("sites.toml"))
@@ -61,7 +61,7 @@ def emit(data, out: str | None) -> None:
     results).  A reader that closes the pipe early (``| head``) or a closed stdout is an
     :class:`OutputError` (status 4): the result was not delivered whole.
     """
-    from skyplan.output import chunks, write_atomic
+    from skyplan.render.output import chunks, write_atomic
 
     raw = data.encode() if isinstance(data, str) else data
     if out is not None:
@@ -89,7 +89,7 @@ def _write_stdout(raw: bytes) -> None:
     A buffered write to a pipe whose reader has gone can report a short count instead of
     raising; writing to the descriptor directly and checking each count leaves no gap.
     """
-    from skyplan.output import write_all
+    from skyplan.render.output import write_all
 
     sys.stdout.flush()
     stream = sys.stdout.buffer

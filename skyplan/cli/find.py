@@ -21,13 +21,15 @@ def find_cmd(
     """What a target name resolves to: catalogue, identifiers, position, motion, magnitude."""
     from zoneinfo import ZoneInfo
 
-    from skyplan import ephemeris, lookup, timeinput
+    from skyplan.engine import ephemeris
+    from skyplan.engine import find as lookup
+    from skyplan.inputs import timeinput
     from skyplan.render import findview, records, tables
 
     fmt = common.check_format(fmt, ("table", "json"))
     orbits = ()
     if elements:
-        from skyplan import orbits as orbit_mod
+        from skyplan.inputs import orbits as orbit_mod
 
         orbits = orbit_mod.read_elements(elements)
     unix = timeinput.parse_instant(at, ZoneInfo("UTC"))

@@ -61,8 +61,9 @@ def plan_cmd(
 
     Exit status 0 with a plan, 2 for bad input, 3 when nothing is observable tonight.
     """
-    from skyplan import planning, scheduling
     from skyplan.errors import InputError
+    from skyplan.planning import build as planning
+    from skyplan.planning import dispatch as scheduling
     from skyplan.render import planview, records, tables
 
     common.set_quiet(quiet)
@@ -96,7 +97,7 @@ def plan_cmd(
     if fmt == "table":
         codes = edges = None
         if plan.visits:
-            from skyplan import timeline
+            from skyplan.engine import timeline
 
             edges, codes = timeline.visit_timeline_codes(
                 res, [v.target for v in plan.visits], [v.exposure_start for v in plan.visits],
@@ -133,7 +134,7 @@ def _rates(text: str) -> tuple[float, float]:
 
 def _catalog_columns(catalog, demo, skip_bad):
     """Priority and exposure per target, from the same catalogue the windows came from."""
-    from skyplan import scenario, targets
+    from skyplan.inputs import scenario, targets
 
     path = catalog or str(scenario.demo_path(scenario.DEMO_CATALOG))
     cat = targets.load_catalog(path, skip_bad=skip_bad)

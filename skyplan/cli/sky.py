@@ -41,7 +41,8 @@ def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_rang
 
 def night_date(site, date_text, demo):
     """The local date whose evening starts the night, checked against the ephemeris span."""
-    from skyplan import ephemeris, scenario, timeinput
+    from skyplan.engine import ephemeris
+    from skyplan.inputs import scenario, timeinput
 
     if date_text is None and demo:
         date_text = scenario.DEMO_DATE
@@ -52,7 +53,7 @@ def night_date(site, date_text, demo):
 
 
 def night_of(site, date_text, demo):
-    from skyplan import night
+    from skyplan.engine import night
 
     return night.compute_night(site, night_date(site, date_text, demo))
 
@@ -81,7 +82,7 @@ def night_cmd(
 
 
 def _catalog_path(catalog, demo):
-    from skyplan import scenario
+    from skyplan.inputs import scenario
 
     if catalog is None:
         return str(scenario.demo_path(scenario.DEMO_CATALOG)) if demo else None
@@ -89,8 +90,8 @@ def _catalog_path(catalog, demo):
 
 
 def read_catalogue(path, skip_bad):
-    from skyplan import targets
     from skyplan.errors import InputError
+    from skyplan.inputs import targets
 
     if path is None:
         raise InputError("give a catalogue file (CSV, TSV, ECSV, VOTable, FITS) or --demo",
@@ -121,7 +122,7 @@ def night_worker(catalog, demo):
 
 def _night(site, day):
     """The night, and the IERS table read for it (so that the parent need not read it)."""
-    from skyplan import night, timescales
+    from skyplan.engine import night, timescales
 
     return night.compute_night(site, day), timescales.earth_orientation()
 
@@ -134,8 +135,10 @@ def window_inputs(catalog, site, sites_file, demo, date, skip_bad, elements, lim
     catalogue is read here.  Problems and notices still come in the order of a plain run:
     site, limits, date, the night (its data files), the elements file, the catalogue.
     """
-    from skyplan import limits, notices, targets, timescales
+    from skyplan import notices
+    from skyplan.engine import timescales
     from skyplan.errors import SkyplanError
+    from skyplan.inputs import limits, targets
 
     the_site = common.get_site(site, sites_file, demo)
     lim = limits.build_limits(the_site.limits, **limits_kw)
@@ -159,7 +162,7 @@ def window_inputs(catalog, site, sites_file, demo, date, skip_bad, elements, lim
 
 
 def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw):
-    from skyplan import windows
+    from skyplan.engine import windows
 
     with night_worker(catalog, demo) as pool:
         the_site, lim, n, tset, orbits = window_inputs(catalog, site, sites_file, demo, date,
@@ -174,7 +177,8 @@ def window_blocks(fmt, the_site, n, lim, tset, orbits):
     import numpy.ma  # noqa: F401  (np.unique imports it on first use: here, once for all)
     import orjson  # noqa: F401
 
-    from skyplan import parallel, windows
+    from skyplan import parallel
+    from skyplan.engine import windows
     from skyplan.render import bytegrid, windowview
 
     windows.preload(tset)  # loaded once, before the workers are forked
@@ -202,7 +206,8 @@ def _blocks(processes, context, bounds):
 
 def _window_block(a, b) -> bytes:
     """Targets ``a`` to ``b``: computed, then encoded (runs in a worker)."""
-    from skyplan import parallel, windows
+    from skyplan import parallel
+    from skyplan.engine import windows
     from skyplan.render import windowview
 
     fmt, the_site, n, lim, orbits, tset, with_identifier = parallel.shared()
@@ -216,7 +221,7 @@ def _window_block(a, b) -> bytes:
 def _orbits(elements):
     if not elements:
         return ()
-    from skyplan import orbits as orbit_mod
+    from skyplan.inputs import orbits as orbit_mod
 
     return orbit_mod.read_elements(elements)
 
@@ -261,7 +266,7 @@ def windows_cmd(
         # machine formats for large results: computed, encoded and written block by block
         common.emit(window_blocks(fmt, the_site, n, lim, tset, orbits), out)
         return
-    from skyplan import timeline, windows
+    from skyplan.engine import timeline, windows
     from skyplan.render import records, tables, windowview
 
     res = windows.compute_windows(tset, the_site, n, lim, orbits=orbits)

@@ -1,8 +1,8 @@
 """Charts: the whole sky at one instant, and altitude against local time over the night.
 
-Renderers only format: every position comes from a :mod:`skyplan.scene` object filled by
+Renderers only format: every position comes from a :mod:`skyplan.engine.scene` object filled by
 the engine; the only geometry here is the chart projection itself
-(:mod:`skyplan.projection`) and the sec z airmass scale of the altitude chart's second axis.
+(:mod:`skyplan.render.projection`) and the sec z airmass scale of the altitude chart's second axis.
 
 matplotlib is imported lazily and used through its object-oriented ``Figure`` and the Agg
 canvas, so no GUI is ever touched.  Output is deterministic: SVG without a date and with a
@@ -23,9 +23,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan import projection
+from skyplan.engine.scene import TWILIGHT_STATES, AltitudeScene, MoonMark, SkyScene
 from skyplan.errors import InputError
-from skyplan.scene import TWILIGHT_STATES, AltitudeScene, MoonMark, SkyScene
+from skyplan.render import projection
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
@@ -791,7 +791,7 @@ def _save(fig: Figure, path: Path, fmt: str, dpi: int) -> ChartFile:
     """Render to memory, then write atomically (an interrupted run keeps the old picture)."""
     import io
 
-    from skyplan.output import write_atomic
+    from skyplan.render.output import write_atomic
 
     metadata = {"Date": None} if fmt == "svg" else {"Software": None}
     buffer = io.BytesIO()

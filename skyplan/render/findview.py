@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from skyplan.angles import format_dms, format_hms
+from skyplan.inputs.angles import format_dms, format_hms
+from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import _table
-from skyplan.timeinput import iso_utc
 
 
 def found_record(f) -> dict:

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from zoneinfo import ZoneInfo
 
-from skyplan.angles import format_hms
+from skyplan.inputs.angles import format_hms
+from skyplan.inputs.timeinput import iso_local, iso_utc
 from skyplan.render.tables import _table
-from skyplan.timeinput import iso_local, iso_utc
 
 
 def night_record(n, site) -> dict:

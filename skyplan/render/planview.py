@@ -6,9 +6,9 @@ import datetime as dt
 from zoneinfo import ZoneInfo
 
 from skyplan import __version__
+from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import _table, site_record
 from skyplan.render.windowview import _hhmm
-from skyplan.timeinput import iso_utc
 
 SCHEMA = "skyplan.plan/1"
 SAFETY = ("Advice only: the telescope's own limits, interlocks and the site's rules come first. "

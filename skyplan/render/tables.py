@@ -6,7 +6,7 @@ import io
 
 import numpy as np
 
-from skyplan.angles import format_dms, format_dms_array, format_hms, format_hms_array
+from skyplan.inputs.angles import format_dms, format_dms_array, format_hms, format_hms_array
 
 
 def render_text(renderable) -> str:
@@ -94,7 +94,7 @@ def conversion_records(res) -> list[dict]:
     req = res.request
     klon, klat = _KEYS[req.to_frame]
     site = site_record(req.site, brief=True) if req.site is not None else None
-    from skyplan.timeinput import iso_utc
+    from skyplan.inputs.timeinput import iso_utc
 
     when = iso_utc(req.unix, places=3) if req.unix is not None else None
     p = res.positions
@@ -133,7 +133,7 @@ def conversion_table(res):
     if req.site is not None and req.to_frame in ("horizon", "apparent"):
         bits.append(f"site {req.site.name}")
     if req.unix is not None:
-        from skyplan.timeinput import iso_utc
+        from skyplan.inputs.timeinput import iso_utc
 
         bits.append(iso_utc(req.unix))
     caption = None

@@ -6,8 +6,8 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
+from skyplan.engine.timeline import BLOCKED, DOWN, LIGHT, PLANNED, USABLE
 from skyplan.render.tables import _table
-from skyplan.timeline import BLOCKED, DOWN, LIGHT, PLANNED, USABLE
 
 # characters read without colour and in log files; colour is only a help on a terminal
 TIMELINE_CHARS = {USABLE: "#", BLOCKED: "-", DOWN: ".", LIGHT: " ", PLANNED: "@"}
@@ -334,7 +334,7 @@ def windows_document(res, site, records: list[dict]) -> dict:
     from skyplan.render.tables import site_record
 
     return {
-        "schema": "skyplan.windows/1",
+        "schema": "skyplan.engine.windows/1",
         "site": site_record(site, brief=True),
         "night": night_record(res.night, site),
         "limits": res.limits.as_record(),

@@ -4,7 +4,7 @@
   checked when it is opened (whole DAF records, every coefficient finite, neighbouring
   Chebyshev records meeting end to end) so that a damaged file is named instead of giving
   wrong places;
-* a skyfield ``Timescale`` whose ΔT = TT − UT1 comes from :mod:`skyplan.timescales`, so
+* a skyfield ``Timescale`` whose ΔT = TT − UT1 comes from :mod:`skyplan.engine.timescales`, so
   skyfield (the Sun, the Moon, planets, orbits) and our ERFA-based code (fixed targets,
   sidereal time) turn every instant with the same UT1 — inside the IERS table and beyond it;
 * astropy's IERS configuration: no automatic downloads, bundled tables only.
@@ -138,13 +138,13 @@ def iers_finals_path() -> Path:
 
 
 def delta_t_s(tt_jd: np.ndarray) -> np.ndarray:
-    """ΔT = TT − UT1 in seconds at Julian dates of TT, from :mod:`skyplan.timescales`.
+    """ΔT = TT − UT1 in seconds at Julian dates of TT, from :mod:`skyplan.engine.timescales`.
 
     TT = UTC + (TAI − UTC) + 32.184 s (IAU 1991 Resolution A4) and UT1 = UTC + (UT1 − UTC),
     so ΔT = (TAI − UTC) + 32.184 s − (UT1 − UTC).  UTC is found from TT by two passes over
     the leap-second table (one pass can land on the wrong side of a leap second).
     """
-    from skyplan import timescales
+    from skyplan.engine import timescales
 
     tt_unix = (np.asarray(tt_jd, dtype=float) - UNIX_EPOCH_JD) * 86400.0 - TT_MINUS_TAI_S
     tai_utc = timescales.tai_minus_utc_s(tt_unix - 37.0)
@@ -155,11 +155,11 @@ def delta_t_s(tt_jd: np.ndarray) -> np.ndarray:
 
 @functools.cache
 def timescale():
-    """A skyfield Timescale on the same UT1 and polar motion as :mod:`skyplan.timescales`."""
+    """A skyfield Timescale on the same UT1 and polar motion as :mod:`skyplan.engine.timescales`."""
     from skyfield.data import iers
     from skyfield.timelib import Timescale
 
-    from skyplan.timescales import earth_orientation
+    from skyplan.engine.timescales import earth_orientation
 
     eo = earth_orientation()
     _, _, leap_dates, leap_offsets = iers.build_timescale_arrays(eo.mjd, eo.dut1_s)

@@ -1,4 +1,4 @@
-"""What the charts show: the engine side that fills :mod:`skyplan.scene` for one site.
+"""What the charts show: the engine side that fills :mod:`skyplan.engine.scene` for one site.
 
 * :func:`sky_scene` — the whole sky at one instant: the targets (apparent, refracted with the
   limits' model) and whether every limit holds for them then, the celestial equator and the
@@ -7,13 +7,13 @@
 * :func:`altitude_scene` — altitude against local time over one night: the targets, the
   Moon, the twilight edges, the limits and the planned visits.
 
-Targets go through :class:`skyplan.windows.Sky` (vectorised over (target, time) pairs), so
+Targets go through :class:`skyplan.engine.windows.Sky` (vectorised over (target, time) pairs), so
 the charts show exactly the places the windows are computed from; whether the limits hold
-at an instant is read off the windows of :func:`skyplan.windows.compute_windows`.
+at an instant is read off the windows of :func:`skyplan.engine.windows.compute_windows`.
 
 The two great circles are geometric lines of the sky of date, turned into horizon
 coordinates with the same observed-place step as the targets (ERFA ``eraAtioq`` as
-transcribed in :func:`skyplan.frames.cirs_to_horizon`), then refracted like them:
+transcribed in :func:`skyplan.engine.frames.cirs_to_horizon`), then refracted like them:
 
 * the celestial equator is δ = 0 in the CIRS, whose equator is the true equator of date
   (the equator of the Celestial Intermediate Pole; IERS Conventions 2010, §5.4.4);
@@ -33,10 +33,9 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from skyplan import bodies, frames, refraction
-from skyplan import night as night_mod
-from skyplan.limits import Limits
-from skyplan.scene import (
+from skyplan.engine import bodies, frames, refraction
+from skyplan.engine import night as night_mod
+from skyplan.engine.scene import (
     TWILIGHT_STATES,
     AltitudeScene,
     MoonMark,
@@ -48,7 +47,8 @@ from skyplan.scene import (
     TwilightEdges,
     Visit,
 )
-from skyplan.windows import Sky, TargetSet, WindowResult, compute_windows
+from skyplan.engine.windows import Sky, TargetSet, WindowResult, compute_windows
+from skyplan.inputs.limits import Limits
 
 __all__ = [
     "CURVE_STEP_S",
@@ -78,7 +78,7 @@ CURVE_STEP_S = 300.0
 #: Spacing of the samples along the equator and the ecliptic: a 1° chord departs from its
 #: arc by at most 1 − cos 0.5° ≈ 4e-5 rad, invisible on any chart.
 LINE_STEP_DEG = 1.0
-# Sun altitudes that end day, civil, nautical and astronomical twilight (skyplan.night).
+# Sun altitudes that end day, civil, nautical and astronomical twilight (skyplan.engine.night).
 _STATE_EDGES_DEG = (night_mod.SUNSET_ALT_DEG, *night_mod.TWILIGHTS.values())
 
 
@@ -86,9 +86,9 @@ _STATE_EDGES_DEG = (night_mod.SUNSET_ALT_DEG, *night_mod.TWILIGHTS.values())
 
 
 def twilight_state(sun_alt_deg: float) -> str:
-    """The darkness (one of :data:`skyplan.scene.TWILIGHT_STATES`) for a Sun altitude.
+    """The darkness (one of :data:`skyplan.engine.scene.TWILIGHT_STATES`) for a Sun altitude.
 
-    The edges are those of :mod:`skyplan.night`: sunset at −0°50′, then −6°, −12° and −18°
+    The edges are those of :mod:`skyplan.engine.night`: sunset at −0°50′, then −6°, −12° and −18°
     (Explanatory Supplement 2013, §15.3).
     """
     return TWILIGHT_STATES[sum(sun_alt_deg < edge for edge in _STATE_EDGES_DEG)]

@@ -1,4 +1,4 @@
-"""The observer's limits: plain data, validated at the edge, evaluated by :mod:`skyplan.windows`.
+"""The observer's limits: plain data, validated at the edge, evaluated by engine.windows.
 
 Defaults (used when neither the command line nor the site file sets a limit): minimum
 altitude 20° (a common practice for small telescopes), no air-mass cap, astronomical
@@ -102,8 +102,8 @@ def build_limits(site_limits: dict, *, min_alt=None, max_airmass=None, dark=None
                  no_horizon_profile=False, airmass_model="kasten-young",
                  refraction_model="bennett") -> Limits:
     """Limits from command-line values, falling back to the site file's, then the defaults."""
-    from skyplan import airmass as am
-    from skyplan import refraction
+    from skyplan.engine import airmass as am
+    from skyplan.engine import refraction
 
     def pick(cli, key, default):
         return cli if cli is not None else site_limits.get(key, default)

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import timescales
+from skyplan.engine import timescales
 
 
 @dataclass(frozen=True)

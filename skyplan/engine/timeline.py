@@ -1,6 +1,6 @@
 """The per-target strip across the night: which stretches are usable, blocked, down or light.
 
-Pure classification of intervals already computed by :mod:`skyplan.windows` into equal
+Pure classification of intervals already computed by :mod:`skyplan.engine.windows` into equal
 time bins; renderers map the codes to characters and colours.
 """
 
@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from skyplan.intervals import Intervals
+from skyplan.engine.intervals import Intervals
 
 LIGHT, DOWN, BLOCKED, USABLE, PLANNED = 0, 1, 2, 3, 4
 

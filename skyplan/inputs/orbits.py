@@ -417,7 +417,7 @@ def _kepler_orbit(element: OrbitElements):
     from skyfield.data.spice import inertial_frames
     from skyfield.keplerlib import _KeplerOrbit
 
-    from skyplan.ephemeris import timescale
+    from skyplan.engine.ephemeris import timescale
 
     ts = timescale()
     # skyfield's solver of Kepler's equation divides by e: a circular orbit (e = 0, only
@@ -444,8 +444,8 @@ def _observed(element: OrbitElements, unix_times, lat_deg, lon_deg, elevation_m)
     """skyfield Astrometric position of the orbit (light time included), or None if no times."""
     from skyfield.toposlib import wgs84
 
-    from skyplan.ephemeris import check_in_span, planets, timescale
-    from skyplan.timescales import jd_tt
+    from skyplan.engine.ephemeris import check_in_span, planets, timescale
+    from skyplan.engine.timescales import jd_tt
 
     unix = np.atleast_1d(np.asarray(unix_times, dtype=float))
     if unix.size == 0:

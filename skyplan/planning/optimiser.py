@@ -57,7 +57,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from skyplan.scheduling import _Night
+    from skyplan.planning.dispatch import _Night
 
 _MIN_SHARE = 4  # starts every target keeps when pruning, whatever the budget
 # Airmass per top-priority visit by which the later stages may raise the top priority's held

@@ -51,7 +51,7 @@ from numpy.typing import ArrayLike
 from skyplan.errors import DataError, InputError
 
 if TYPE_CHECKING:
-    from skyplan.orbits import OrbitElements
+    from skyplan.inputs.orbits import OrbitElements
 
 KIND_STAR = "star"
 KIND_DEEP_SKY = "deep_sky"
@@ -62,7 +62,7 @@ HIPPARCOS_EPOCH_JYEAR = 1991.25
 OPENNGC_EPOCH_JYEAR = 2000.0
 SOURCE_HIPPARCOS = "Hipparcos-2 (van Leeuwen 2007, CDS I/311)"
 SOURCE_BODY = "JPL DE421 ephemeris"
-STAR_NAMES_PATH = Path(__file__).parent / "data" / "star_names.csv"
+STAR_NAMES_PATH = Path(__file__).parent.parent / "data" / "star_names.csv"
 
 BODIES = {
     "SUN": ("Sun", "star"),
@@ -689,7 +689,7 @@ def _star_identity(hip: int) -> tuple[str, tuple[str, ...]]:
 def resolve(name: str, *, orbits: Sequence[OrbitElements] = ()) -> Resolved:
     """Resolve one target name offline; raise InputError (with the closest names) if unknown.
 
-    ``orbits``: elements read by :func:`skyplan.orbits.read_elements`; their designations and
+    ``orbits``: elements read by :func:`skyplan.inputs.orbits.read_elements`; their designations and
     names resolve to kind "orbit" and take precedence over the catalogues.
     """
     key = normalise(name)

@@ -12,7 +12,7 @@ import functools
 
 import numpy as np
 
-from skyplan import ephemeris, timescales
+from skyplan.engine import ephemeris, timescales
 from skyplan.errors import InputError
 
 BODIES = {

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import frames, refraction
+from skyplan.engine import frames, refraction
 
 
 @dataclass(frozen=True)
@@ -14,7 +14,7 @@ class ConversionRequest:
     from_frame: str
     to_frame: str
     unix: float | None = None
-    site: object | None = None  # skyplan.sites.Site
+    site: object | None = None  # skyplan.inputs.sites.Site
     equinox_jyear: float = 2000.0
     ecliptic_of_date: bool = False
     refraction: str = "bennett"

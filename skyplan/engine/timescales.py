@@ -24,8 +24,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import decimaltext, notices
+from skyplan import notices
 from skyplan.errors import DataError
+from skyplan.inputs import decimaltext
 
 DAY_S = 86400.0
 UNIX_EPOCH_JD = 2440587.5  # JD of 1970-01-01T00:00:00 UTC
@@ -173,7 +174,7 @@ def earth_orientation() -> EarthOrientation:
     """The bundled IERS table, parsed once per process (or handed over by a worker)."""
     if _handed:
         return _handed.pop()
-    from skyplan.ephemeris import iers_finals_path
+    from skyplan.engine.ephemeris import iers_finals_path
 
     path = iers_finals_path()
     try:

@@ -8,7 +8,7 @@ its missing trailing fields empty; a row with more is a problem of that row.
 Text without quote characters takes a fast path: one numpy pass over its bytes finds the
 fields and checks every row's width, and the columns stay bytes (:class:`Cells`) until a
 column's text is needed; plain decimal columns are then read by
-:func:`skyplan.decimaltext.read_decimals` without making text at all.  Anything irregular
+:func:`skyplan.inputs.decimaltext.read_decimals` without making text at all.  Anything irregular
 goes through :mod:`csv`, which also names what is wrong.
 """
 

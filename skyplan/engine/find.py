@@ -9,7 +9,7 @@ import numpy as np
 
 @dataclass(frozen=True)
 class Found:
-    resolved: object  # skyplan.names.Resolved
+    resolved: object  # skyplan.names.resolve.Resolved
     unix: float
     ra_deg: float  # ICRS: catalogue place (J2000 epoch for stars), or astrometric for bodies
     dec_deg: float
@@ -18,9 +18,9 @@ class Found:
 
 def look_up(names: list[str], orbits, unix: float) -> list[Found]:
     """Resolve each name; bodies and orbits get their geocentric astrometric place at ``unix``."""
-    from skyplan import bodies, frames
-    from skyplan import names as resolver
-    from skyplan import orbits as orbit_mod
+    from skyplan.engine import bodies, frames
+    from skyplan.inputs import orbits as orbit_mod
+    from skyplan.names import resolve as resolver
 
     out = []
     for name in names:  # a handful of names typed on the command line

@@ -32,14 +32,14 @@ field                      header names                              empty means
 =========================  ========================================  ============================
 
 RA is sexagesimal hours (``05:35:17.3``) or decimal degrees; Dec is sexagesimal or decimal
-degrees (see :mod:`skyplan.angles`).  A row giving a name but neither RA nor Dec is kept with
+degrees (see :mod:`skyplan.inputs.angles`).  A row giving a name but neither RA nor Dec is kept with
 NaN coordinates, to be resolved by name later; a row giving only one of them is an error.
 Columns with other names are ignored and listed in :attr:`CatalogRead.ignored_columns`.
 Checks: |proper motion| below 100000 mas/yr, parallax >= 0, |radial velocity| below the
 speed of light, exposure > 0, priority a whole number from 0 to 1000000, Julian epochs from
 J1000 to J3000 (``B``-prefixed Besselian epochs are refused), fields at most 1000 characters,
 no control characters in names and notes; at most 5,000,000 rows (the limits are
-constants in :mod:`skyplan.delimited`).
+constants in :mod:`skyplan.inputs.delimited`).
 
 Every bad field is collected as an :class:`~skyplan.errors.InputError` naming the file, line
 and column; they are raised together as :class:`~skyplan.errors.InputErrors`, or, with
@@ -61,9 +61,10 @@ from typing import Any
 
 import numpy as np
 
-from skyplan import decimaltext, delimited, notices
-from skyplan.angles import parse_column, parse_dec_column, parse_ra_column
+from skyplan import notices
 from skyplan.errors import InputError, InputErrors
+from skyplan.inputs import decimaltext, delimited
+from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)

@@ -12,10 +12,10 @@ Method (vectorised over the whole catalogue):
    from cos H₀ = (sin h − sin φ sin δ) / (cos φ cos δ) (Meeus 1998, eq. 15.1); polar motion and
    diurnal aberration (≤ 0.5″) are left out of this step, an error below 0.1 s.
 3. Limits that are not analytic — the horizon profile, the distance from the Moon and from
-   the Sun — are sampled on a 5-minute grid and refined by :mod:`skyplan.events` to 0.5 s.
+   the Sun — are sampled on a 5-minute grid and refined by :mod:`skyplan.engine.events` to 0.5 s.
 4. Each limit gives a set of intervals; the windows are their intersection
-   (:mod:`skyplan.intervals`).  Lost minutes are attributed in the fixed order of
-   :data:`skyplan.limits.ORDER`: each limit is charged with what it removes from what the
+   (:mod:`skyplan.engine.intervals`).  Lost minutes are attributed in the fixed order of
+   :data:`skyplan.inputs.limits.ORDER`: each limit is charged with what it removes from what the
    limits before it left, so lost minutes and usable minutes add up to the night.
 
 Solar-system bodies move, so their places are sampled on the same grid and every limit is
@@ -29,11 +29,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import airmass as am
-from skyplan import bodies, events, frames, refraction, timescales
-from skyplan import night as night_mod
-from skyplan.intervals import Intervals, intersect
-from skyplan.limits import ORDER, Limits
+from skyplan.engine import airmass as am
+from skyplan.engine import bodies, events, frames, refraction, timescales
+from skyplan.engine import night as night_mod
+from skyplan.engine.intervals import Intervals, intersect
+from skyplan.inputs.limits import ORDER, Limits
 
 SIDEREAL_RATE = 2.0 * np.pi * 1.00273781191135448 / 86400.0  # ERA rate, rad/s (IERS 2010)
 # true (geometric) altitude of a star's centre at rising and setting: the apparent horizon
@@ -212,8 +212,8 @@ def diurnal_aberration(site) -> float:
 def moving_place(key: str, site, t: np.ndarray, orbits=()) -> tuple[np.ndarray, np.ndarray]:
     """Topocentric apparent RA/Dec of date (degrees) of a body or an orbit at times ``t``."""
     if key.startswith("orbit:"):
-        from skyplan import names
-        from skyplan import orbits as orbit_mod
+        from skyplan.inputs import orbits as orbit_mod
+        from skyplan.names import resolve as names
 
         el = names.find_orbit(key[len("orbit:"):], orbits)
         if el is None:
@@ -372,7 +372,7 @@ def preload(targets: TargetSet) -> None:
     planets and orbits the ephemeris too), so that forked workers share one copy."""
     import erfa  # noqa: F401
 
-    from skyplan import ephemeris
+    from skyplan.engine import ephemeris
 
     timescales.earth_orientation()
     if (targets.body != "").any():

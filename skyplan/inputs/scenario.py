@@ -19,4 +19,4 @@ def demo_path(name: str) -> Path:
     try:
         return Path(str(resources.files("skyplan.demodata") / name))
     except ModuleNotFoundError:  # running from a source checkout that shadows the install
-        return Path(__file__).resolve().parent.parent / "catalogs-demo" / name
+        return Path(__file__).resolve().parents[2] / "catalogs-demo" / name

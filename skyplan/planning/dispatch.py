@@ -33,14 +33,14 @@ Choices made here (documented once, relied on everywhere):
 
 How a plan is made:
 
-1. Reservations on a coarser slot grid (:mod:`skyplan.optimise`), about 5 minutes (a whole
+1. Reservations on a coarser slot grid (:mod:`skyplan.planning.optimiser`), about 5 minutes (a whole
    number of the request's steps).  A reserved visit covers ``ceil((allowance + setup +
    exposure) / step)`` slots, the allowance being the median slew between targets that are
    up at the same time (:func:`typical_slew_s`); the forward pass absorbs the rarer longer
    slews.  ``"dispatch"`` reserves greedily, in priority order, each visit at its cheapest
    free start; ``"optimal"`` takes the reservations from a lexicographic integer program
    (HiGHS; the top priority's airmass is settled before the lower counts, see
-   :mod:`skyplan.optimise`) over a pruned model that always contains two greedy solutions,
+   :mod:`skyplan.planning.optimiser`) over a pruned model that always contains two greedy solutions,
    the priority-ordered one and one taking the most constrained targets first (so a target
    with a short window at dusk is not crowded out by targets that could go later).
 2. A forward pass (:func:`_forward`) walks the night with the actual slews.  A reserved visit
@@ -67,7 +67,7 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
-from skyplan.optimise import (
+from skyplan.planning.optimiser import (
     SlotModel,
     build_slot_model,
     prune,

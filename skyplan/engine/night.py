@@ -1,7 +1,7 @@
 """The night at a site: sunset, twilights, darkness, the Moon, and sidereal times.
 
 The night of a local date D runs from local noon on D to local noon on D+1; events are
-searched in that span with :mod:`skyplan.events`.  Standard altitudes of the centre,
+searched in that span with :mod:`skyplan.engine.events`.  Standard altitudes of the centre,
 topocentric and unrefracted (as in the *Explanatory Supplement to the Astronomical Almanac*,
 3rd ed. 2013, §15.3; Meeus 1998, ch. 15):
 
@@ -18,14 +18,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from skyplan import bodies, events, timescales
-from skyplan.timeinput import local_noon_unix
+from skyplan.engine import bodies, events, timescales
+from skyplan.inputs.timeinput import local_noon_unix
 
 SUNSET_ALT_DEG = -50.0 / 60.0
 REFRACTION_HORIZON_DEG = -34.0 / 60.0
 TWILIGHTS = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
 # The Sun and the Moon are sampled every 10 minutes with skyfield; events are found on that
-# track by four-point interpolation (:func:`skyplan.events.interp_cubic`), whose error is
+# track by four-point interpolation (:func:`skyplan.engine.events.interp_cubic`), whose error is
 # below 0.05″ in altitude, i.e. a few milliseconds in event times.
 GRID_STEP_S = 600.0
 EVENT_TOL_S = 0.1

@@ -15,7 +15,7 @@ BODY_NAMES = ("sun", "moon", "mercury", "venus", "mars", "jupiter", "saturn", "u
 
 def load_catalog(path: str | Path, *, skip_bad: bool = False):
     """Read a catalogue, report skipped rows and duplicates, resolve name-only rows."""
-    from skyplan.catalog import read_catalog
+    from skyplan.inputs.catalog import read_catalog
 
     p = Path(path)
     read = read_catalog(p, skip_bad=skip_bad)
@@ -38,7 +38,7 @@ def positions_from_catalog(cat):
     Every name that does not resolve, and every Sun, Moon, planet or orbit (they move, and
     ``convert`` takes fixed targets), is an error naming its line.
     """
-    from skyplan.conversion import PositionList
+    from skyplan.engine.convert import PositionList
 
     tset, ident = target_set(cat)
     moving = np.flatnonzero(tset.body != "")
@@ -58,8 +58,8 @@ def positions_from_catalog(cat):
 def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = False,
                            demo: bool = False):
     """A PositionList from ``convert``'s arguments."""
-    from skyplan import angles, scenario
-    from skyplan.conversion import PositionList
+    from skyplan.engine.convert import PositionList
+    from skyplan.inputs import angles, scenario
 
     if not args:
         if demo:
@@ -103,8 +103,8 @@ def _looks_numeric(text: str) -> bool:
 
 def positions_from_names(names: list[str], frame: str):
     """Resolve target names offline (catalogue objects, bright stars)."""
-    from skyplan import names as resolver
-    from skyplan.conversion import PositionList
+    from skyplan.engine.convert import PositionList
+    from skyplan.names import resolve as resolver
 
     if frame != "icrs":
         raise InputError("names give ICRS positions; use --from icrs", field="--from")
@@ -137,7 +137,7 @@ def target_set(cat, *, orbits=(), source: str | None = None):
     Returns (TargetSet, identifiers) where identifiers holds the catalogue identifier of each
     resolved row ("" for rows given with coordinates).
     """
-    from skyplan.windows import TargetSet
+    from skyplan.engine.windows import TargetSet
 
     n = len(cat)
     ra, dec = cat.ra_deg.copy(), cat.dec_deg.copy()
@@ -147,7 +147,7 @@ def target_set(cat, *, orbits=(), source: str | None = None):
     ident = np.full(n, "", dtype=object)
     look = np.nonzero(cat.needs_lookup)[0]
     if len(look):
-        from skyplan import names as resolver
+        from skyplan.names import resolve as resolver
 
         col, errs = resolver.resolve_many([str(x) for x in cat.name[look]], orbits=orbits)
         if errs:

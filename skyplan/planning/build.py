@@ -1,6 +1,6 @@
 """From windows to a night plan: sample the targets on a slot grid, schedule, describe.
 
-The astronomy for a plan lives here (the scheduler in :mod:`skyplan.scheduling` sees only
+The astronomy for a plan lives here (the scheduler in :mod:`skyplan.planning.dispatch` sees only
 arrays): each schedulable target's altitude, azimuth and air mass on a uniform slot grid over
 the usable night, then, for every planned visit, its exact altitude at the start, middle and
 end of the exposure, azimuth, air mass, hour angle and distance from the Moon at the middle.
@@ -12,9 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import airmass as am
-from skyplan import events, scheduling
+from skyplan.engine import airmass as am
+from skyplan.engine import events
 from skyplan.errors import NothingObservable
+from skyplan.planning import dispatch as scheduling
 
 SLOT_STEP_S = 120.0
 
@@ -173,6 +174,6 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
 
 
 def _moon_distance(sky, rows, t, track) -> np.ndarray:
-    from skyplan.windows import distance_margin
+    from skyplan.engine.windows import distance_margin
 
     return distance_margin(sky, track.t, track.moon_ra_deg, track.moon_dec_deg, 0.0)(rows, t)

@@ -15,7 +15,7 @@ Every function takes and returns numpy arrays in degrees.  Sources:
   the origins to move from the CIO to the equinox.
 * ``horizon``: topocentric observed place without refraction from ERFA's
   ``eraApco13``/``eraAtioq`` chain (polar motion, diurnal aberration, the site's position),
-  then refraction from :mod:`skyplan.refraction`.
+  then refraction from :mod:`skyplan.engine.refraction`.
 """
 
 from __future__ import annotations
@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from skyplan import timescales
+from skyplan.engine import timescales
 
 FRAMES = ("icrs", "fk5", "apparent", "horizon", "ecliptic", "galactic")
 D2R = np.pi / 180.0

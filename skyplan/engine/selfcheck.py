@@ -52,7 +52,7 @@ def _gmst() -> Check:
 
 
 def _galactic_pole() -> Check:
-    from skyplan import frames
+    from skyplan.engine import frames
 
     _, b = frames.rotate(192.85948, 27.12825, frames.galactic_matrix())
     return Check("north galactic pole → galactic latitude",
@@ -61,7 +61,7 @@ def _galactic_pole() -> Check:
 
 
 def _ecliptic() -> Check:
-    from skyplan import frames
+    from skyplan.engine import frames
 
     ra = (7 + 45 / 60 + 18.946 / 3600) * 15.0
     dec = 28 + 1 / 60 + 34.26 / 3600
@@ -74,7 +74,7 @@ def _ecliptic() -> Check:
 
 
 def _rising() -> Check:
-    from skyplan.windows import half_arc
+    from skyplan.engine.windows import half_arc
 
     h = float(np.degrees(half_arc(42.3333, np.radians(18.44092), -0.5667)))
     return Check("Venus at Boston, hour angle of rising (1988-03-20)",
@@ -83,7 +83,7 @@ def _rising() -> Check:
 
 
 def _airmass() -> Check:
-    from skyplan.airmass import airmass
+    from skyplan.engine.airmass import airmass
 
     x = float(airmass(np.array([30.0]), "kasten-young")[0])
     return Check("air mass at altitude 30°, Kasten & Young",
@@ -92,7 +92,7 @@ def _airmass() -> Check:
 
 
 def _apparent_place() -> Check:
-    from skyplan import frames
+    from skyplan.engine import frames
 
     stars = frames.Stars.from_catalogue(279.23473479, 38.78368896)
     ra, dec = (float(np.ravel(v)[0]) for v in frames.apparent_place(
@@ -106,7 +106,8 @@ def _apparent_place() -> Check:
 
 
 def _sunset() -> Check:
-    from skyplan import night, sites
+    from skyplan.engine import night
+    from skyplan.inputs import sites
 
     site = sites.Site("check", 38.214, -2.883, 1310.0, zone="Europe/Madrid")
     n = night.compute_night(site, dt.date(2026, 12, 18))
@@ -125,7 +126,7 @@ CHECKS = (_gmst, _galactic_pole, _ecliptic, _rising, _airmass, _apparent_place, 
 
 def run() -> SelfcheckReport:
     """Run every check; a check that raises counts as failed with the error as its result."""
-    from skyplan import ephemeris, timescales
+    from skyplan.engine import ephemeris, timescales
 
     results = []
     for fn in CHECKS:

@@ -1,0 +1,1 @@
+"""The pure, vectorised computation: time scales, frames, events, nights, windows."""

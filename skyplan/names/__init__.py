@@ -1,0 +1,1 @@
+"""Name resolution: star names, catalogue designations, solar-system bodies."""

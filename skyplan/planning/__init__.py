@@ -1,0 +1,1 @@
+"""The night plan: visits placed in the targets' windows."""
