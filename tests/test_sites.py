@@ -13,6 +13,7 @@ from hypothesis import strategies as st
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
+from skyplan.inputs import site as site_type
 from skyplan.inputs import sites
 from skyplan.inputs.sites import (
     NO_SITE_MESSAGE,
@@ -166,7 +167,7 @@ def test_point_without_any_zone_polygon_falls_back_to_nautical(monkeypatch) -> N
         def timezone_at(self, *, lng: float, lat: float) -> None:
             return None
 
-    monkeypatch.setattr(sites, "_zone_finder", NoZones)
+    monkeypatch.setattr(site_type, "_zone_finder", NoZones)
     notices.take()
     assert Site("buoy", -40.0, -140.0).zone == "Etc/GMT+9"  # -140 / 15 = -9.33 -> zone +9
     assert any("Etc/GMT+9" in n for n in notices.take())

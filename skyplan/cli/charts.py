@@ -115,7 +115,8 @@ def sky_chart(
     if not 100 <= size <= MAX_SIZE_PX:
         raise InputError(f"{size} px must be from 100 to {MAX_SIZE_PX}", field="--size")
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits.build_limits(the_site.limits, **sky_cmds.limit_args(
+    lim = limits.build_limits(the_site.limits, origins=the_site.limit_origins,
+                              **sky_cmds.limit_args(
         min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
         no_horizon_profile, airmass_model, refraction))
     if at is None and demo:
@@ -177,7 +178,8 @@ def altitude_chart(
                              "--date or --elements with it", field="--plan")
         the_site, the_night, tset, visits, priority, plan_limits = _from_plan(
             plan, site, sites_file, demo)
-        lim = limits.build_limits({**the_site.limits, **plan_limits}, **limit_args)
+        lim = limits.build_limits({**the_site.limits, **plan_limits},
+                                  origins=the_site.limit_origins, **limit_args)
         rows = _planned_rows(priority, _top(top))
         if rows.size < len(tset):
             from skyplan import notices
@@ -189,7 +191,7 @@ def altitude_chart(
                                          [v for v in visits if v.name in kept])
     else:
         the_site = common.get_site(site, sites_file, demo)
-        lim = limits.build_limits(the_site.limits, **limit_args)
+        lim = limits.build_limits(the_site.limits, origins=the_site.limit_origins, **limit_args)
         the_night = sky_cmds.night_of(the_site, date, demo)
         tset, priority, orbits = _catalogue(catalog, demo, skip_bad, elements)
         res = windows.compute_windows(tset, the_site, the_night, lim, orbits=orbits)

@@ -6,25 +6,30 @@ import typer
 
 from skyplan.cli import common
 from skyplan.cli.app import app
+from skyplan.inputs.limits import SPECS
 
 DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight'); "
              "default: the current night.")
-MinAlt = typer.Option(None, "--min-alt", help="Minimum apparent altitude, degrees (default 20).")
-MaxAirmass = typer.Option(None, "--max-airmass", help="Maximum air mass (default: none).")
-Dark = typer.Option(None, "--dark", help="Darkness: civil, nautical, astronomical (default), "
-                    "a Sun altitude in degrees, or none.")
-MoonGap = typer.Option(None, "--moon-gap", help="Minimum distance from the Moon, degrees.")
-SunGap = typer.Option(None, "--sun-gap", help="Minimum distance from the Sun, degrees "
-                      "(default 15; closer targets are flagged and never planned).")
-HaRange = typer.Option(None, "--ha-range", help="Mount hour-angle range MIN,MAX in hours.")
-DecRange = typer.Option(None, "--dec-range", help="Mount declination range MIN,MAX in degrees.")
-Between = typer.Option(None, "--between", help="Local clock-time range, e.g. 20:00-02:30.")
-NoProfile = typer.Option(False, "--no-horizon-profile", help="Ignore the site's horizon profile.")
-AirmassModel = typer.Option("kasten-young", "--airmass-model",
-                            help="kasten-young (Kasten & Young 1989), pickering (2002) or secz.")
-Refraction = typer.Option("bennett", "--refraction",
-                          help="bennett (Bennett 1982/Sæmundsson 1986) or erfa "
-                          "(A tan z + B tan³ z).")
+
+
+def _limit_option(key: str):
+    """The option of one limit, its name and help from the limits' spec table."""
+    spec = SPECS[key]
+    return typer.Option(False if spec.kind == "flag" else None, spec.option,
+                        help=spec.option_help())
+
+
+MinAlt = _limit_option("min_alt_deg")
+MaxAirmass = _limit_option("max_airmass")
+Dark = _limit_option("dark")
+MoonGap = _limit_option("moon_gap_deg")
+SunGap = _limit_option("sun_gap_deg")
+HaRange = _limit_option("ha_range_h")
+DecRange = _limit_option("dec_range_deg")
+Between = _limit_option("between")
+NoProfile = _limit_option("horizon_profile")
+AirmassModel = _limit_option("airmass_model")
+Refraction = _limit_option("refraction_model")
 
 
 SMALL_JSON = 2000  # targets: JSON up to this size is indented, for people as well as programs
@@ -36,7 +41,7 @@ def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_rang
     return dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
                 sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
                 no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                refraction_model=refraction)
+                refraction=refraction)
 
 
 def night_date(site, date_text, demo):
@@ -141,7 +146,7 @@ def window_inputs(catalog, site, sites_file, demo, date, skip_bad, elements, lim
     from skyplan.inputs import limits, targets
 
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits.build_limits(the_site.limits, **limits_kw)
+    lim = limits.build_limits(the_site.limits, origins=the_site.limit_origins, **limits_kw)
     day = night_date(the_site, date, demo)
     path = _catalog_path(catalog, demo)
     pending = pool.run(_night, the_site, day)

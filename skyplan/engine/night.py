@@ -18,12 +18,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from skyplan.defaults import RISE_SET_ALT_DEG as REFRACTION_HORIZON_DEG
+from skyplan.defaults import TWILIGHT_SUN_ALT_DEG as TWILIGHTS
 from skyplan.engine import bodies, events, timescales
 from skyplan.inputs.timeinput import local_noon_unix
 
 SUNSET_ALT_DEG = -50.0 / 60.0
-REFRACTION_HORIZON_DEG = -34.0 / 60.0
-TWILIGHTS = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
 # The Sun and the Moon are sampled every 10 minutes with skyfield; events are found on that
 # track by four-point interpolation (:func:`skyplan.engine.events.interp_cubic`), whose error is
 # below 0.05″ in altitude, i.e. a few milliseconds in event times.

@@ -29,6 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from skyplan.defaults import RISE_SET_ALT_DEG
 from skyplan.engine import airmass as am
 from skyplan.engine import bodies, events, frames, refraction, timescales
 from skyplan.engine import night as night_mod
@@ -36,9 +37,6 @@ from skyplan.engine.intervals import Intervals, intersect
 from skyplan.inputs.limits import ORDER, Limits
 
 SIDEREAL_RATE = 2.0 * np.pi * 1.00273781191135448 / 86400.0  # ERA rate, rad/s (IERS 2010)
-# true (geometric) altitude of a star's centre at rising and setting: the apparent horizon
-# lowered by 34′ of refraction (Meeus 1998, ch. 15, h0 = −0°34′)
-RISE_SET_ALT_DEG = -34.0 / 60.0
 SAMPLE_STEP_S = 300.0
 TOL_S = 0.5
 

@@ -1,36 +1,46 @@
-"""The observer's limits: plain data, validated at the edge, evaluated by engine.windows.
+"""The observer's limits: one table of specs, one validator, plain data for engine.windows.
 
-Defaults (used when neither the command line nor the site file sets a limit): minimum
-altitude 20° (a common practice for small telescopes), no air-mass cap, astronomical
-darkness, no Moon distance, 15° from the Sun (a safety margin for optics, common practice),
-no hour-angle, declination or clock-time range.
+Each limit is one row of :data:`SPECS`: its key (as the sites file writes it), its
+command-line option, its kind and range, its unit and its default (from
+:mod:`skyplan.defaults`).  :func:`check_limits` is the one validator.  The command line, the
+sites file and the Python API hand it values that carry their :class:`Origin`, so a bad value
+is reported where it was written: ``field '--min-alt'`` for an option, or the sites file with
+the line and key (``sites.toml:12, field 'site.ridge.limits.min_alt_deg'``).
+:func:`limits_from` fills in the defaults and gives the :class:`Limits` the engine reads.
 """
 
 from __future__ import annotations
 
 import datetime as dt
+import importlib
+import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
-from skyplan.errors import InputError
+from skyplan import defaults
+from skyplan.errors import InputError, InputErrors
+from skyplan.inputs.fieldvalues import decimal, number, shown
 
-DARK_LEVELS = {"civil": -6.0, "nautical": -12.0, "astronomical": -18.0}
+TWILIGHTS = defaults.TWILIGHT_SUN_ALT_DEG
+NO_DARK = ("none", "off", "day")  # darkness not required (daytime work)
+# the order in which engine.windows charges each limit with the minutes it removes
 ORDER = ("dark", "between", "dec", "hour_angle", "altitude", "airmass", "horizon", "moon", "sun")
 
 
 @dataclass(frozen=True)
 class Limits:
-    min_alt_deg: float = 20.0
-    max_airmass: float | None = None
-    dark_sun_alt_deg: float | None = -18.0  # None: no darkness limit (daytime work)
-    dark_label: str = "astronomical"
-    moon_gap_deg: float = 0.0
-    sun_gap_deg: float = 15.0
+    min_alt_deg: float = defaults.MIN_ALT_DEG
+    max_airmass: float | None = defaults.MAX_AIRMASS
+    dark_sun_alt_deg: float | None = TWILIGHTS[defaults.DARK]  # None: no darkness limit
+    dark_label: str = defaults.DARK
+    moon_gap_deg: float = defaults.MOON_GAP_DEG
+    sun_gap_deg: float = defaults.SUN_GAP_DEG
     ha_range_h: tuple[float, float] | None = None
     dec_range_deg: tuple[float, float] | None = None
     between_local: tuple[dt.time, dt.time] | None = None
     use_horizon_profile: bool = True
-    airmass_model: str = "kasten-young"
-    refraction_model: str = "bennett"
+    airmass_model: str = defaults.AIRMASS_MODEL
+    refraction_model: str = defaults.REFRACTION_MODEL
 
     def as_record(self) -> dict:
         return {
@@ -46,98 +56,261 @@ class Limits:
         }
 
 
-def _range(text, field: str, lo: float, hi: float) -> tuple[float, float]:
-    if isinstance(text, (list, tuple)):
-        parts = list(text)
+@dataclass(frozen=True)
+class Origin:
+    """Where a value was written: a command-line option, or a file's line and key."""
+
+    field: str
+    file: str | None = None
+    line: int | None = None
+
+    def error(self, message: str) -> InputError:
+        return InputError(message, file=self.file, line=self.line, field=self.field)
+
+
+@dataclass(frozen=True)
+class Given:
+    """A limit's value as given, with its origin."""
+
+    value: object
+    origin: Origin
+
+
+@dataclass(frozen=True)
+class LimitSpec:
+    """One limit: key, option, kind, range, unit, default and help text.
+
+    Kinds: ``number`` (a value in the range), ``range`` (MIN < MAX, both in the range),
+    ``dark`` (a twilight name, none, or a Sun altitude in the range), ``clock`` (a local
+    clock-time range), ``choice`` (a name from the ``MODELS`` of module ``choices``) and
+    ``flag`` (an option that turns the limit off).
+    """
+
+    key: str
+    option: str
+    kind: str
+    what: str
+    help: str
+    default: object = None
+    lo: float = -math.inf
+    hi: float = math.inf
+    lo_open: bool = False
+    hi_open: bool = False
+    unit: str = ""
+    choices: str = ""
+    in_sites_file: bool = True
+
+    @property
+    def arg(self) -> str:
+        """The option's Python name, as :func:`build_limits` takes it (``--min-alt``: min_alt)."""
+        return self.option.removeprefix("--").replace("-", "_")
+
+    def inside(self, value: float) -> bool:
+        above = value > self.lo if self.lo_open else value >= self.lo
+        below = value < self.hi if self.hi_open else value <= self.hi
+        return above and below
+
+    def bounds(self) -> str:
+        """The range in words: 'at least -5° and below 90°'."""
+        low = "above" if self.lo_open else "at least"
+        high = "below" if self.hi_open else "at most"
+        return f"{low} {self.lo:g}{self.unit} and {high} {self.hi:g}{self.unit}"
+
+    def option_help(self) -> str:
+        """Help text for the option: the description, the range and the default."""
+        notes = [self.bounds()] if self.kind in ("number", "range") else []
+        if self.default is not None and self.kind != "flag":
+            notes.append(f"default {self.default:g}" if isinstance(self.default, float)
+                         else f"default {self.default}")
+        return f"{self.help} ({'; '.join(notes)})." if notes else f"{self.help}."
+
+
+SPECS: dict[str, LimitSpec] = {spec.key: spec for spec in (
+    LimitSpec("min_alt_deg", "--min-alt", "number", "minimum altitude",
+              "Minimum apparent altitude in degrees", defaults.MIN_ALT_DEG,
+              lo=-5.0, hi=90.0, hi_open=True, unit="°"),
+    LimitSpec("max_airmass", "--max-airmass", "number", "maximum air mass",
+              "Maximum air mass (default: none)", defaults.MAX_AIRMASS,
+              lo=1.0, hi=40.0, lo_open=True),
+    LimitSpec("dark", "--dark", "dark", "Sun altitude for darkness",
+              "Darkness: civil, nautical, astronomical, a Sun altitude in degrees, or none",
+              defaults.DARK, lo=-90.0, hi=0.0, unit="°"),
+    LimitSpec("moon_gap_deg", "--moon-gap", "number", "distance from the Moon",
+              "Minimum distance from the Moon in degrees", defaults.MOON_GAP_DEG,
+              lo=0.0, hi=180.0, unit="°"),
+    LimitSpec("sun_gap_deg", "--sun-gap", "number", "distance from the Sun",
+              "Minimum distance from the Sun in degrees; closer targets are flagged and never "
+              "planned", defaults.SUN_GAP_DEG, lo=0.0, hi=180.0, unit="°"),
+    LimitSpec("ha_range_h", "--ha-range", "range", "hour angle",
+              "Mount hour-angle range MIN,MAX in hours", lo=-12.0, hi=12.0, unit=" h"),
+    LimitSpec("dec_range_deg", "--dec-range", "range", "declination",
+              "Mount declination range MIN,MAX in degrees", lo=-90.0, hi=90.0, unit="°"),
+    LimitSpec("between", "--between", "clock", "clock-time range",
+              "Local clock-time range, e.g. 20:00-02:30", in_sites_file=False),
+    LimitSpec("horizon_profile", "--no-horizon-profile", "flag", "horizon profile",
+              "Ignore the site's horizon profile", True, in_sites_file=False),
+    LimitSpec("airmass_model", "--airmass-model", "choice", "air-mass model",
+              "kasten-young (Kasten & Young 1989), pickering (2002) or secz",
+              defaults.AIRMASS_MODEL, choices="skyplan.engine.airmass", in_sites_file=False),
+    LimitSpec("refraction_model", "--refraction", "choice", "refraction model",
+              "bennett (Bennett 1982/Sæmundsson 1986) or erfa (A tan z + B tan³ z)",
+              defaults.REFRACTION_MODEL, choices="skyplan.engine.refraction",
+              in_sites_file=False),
+)}
+FILE_KEYS = tuple(key for key, spec in SPECS.items() if spec.in_sites_file)
+
+
+# --------------------------------------------------------------------------- the validator
+
+
+def check_limits(given: Mapping[str, Given]) -> dict[str, object]:
+    """The one validator: each value checked against its spec and normalised.
+
+    Returns plain values by key: floats, a darkness name (``"nautical"``, ``"none"``) or Sun
+    altitude, ``(min, max)`` tuples, a pair of clock times, model names, booleans.  Every bad
+    value is reported at its origin (several at once as :class:`InputErrors`).
+    """
+    checked: dict[str, object] = {}
+    problems: list[InputError] = []
+    for key, item in given.items():
+        spec = SPECS.get(key)
+        try:
+            if spec is None:
+                raise ValueError(f"unknown limit {key!r}; known: {', '.join(SPECS)}")
+            checked[key] = _CHECKS[spec.kind](spec, item.value)
+        except (TypeError, ValueError) as exc:
+            problems.append(item.origin.error(str(exc)))
+    if problems:
+        raise problems[0] if len(problems) == 1 else InputErrors(problems)
+    return checked
+
+
+def limits_from(given: Mapping[str, Given]) -> Limits:
+    """Limits from given values (checked by :func:`check_limits`), the defaults for the rest."""
+    values = {key: spec.default for key, spec in SPECS.items()} | check_limits(given)
+    dark = values["dark"]
+    if dark == "none":
+        dark_alt, dark_label = None, "none"
+    elif isinstance(dark, str):
+        dark_alt, dark_label = TWILIGHTS[dark], dark
     else:
-        parts = str(text).replace(",", ":").split(":") if str(text).count(":") == 1 or "," in str(
-            text) else str(text).split("..")
-    try:
-        a, b = (float(p) for p in parts)
-    except (TypeError, ValueError):
-        raise InputError(f"cannot read {text!r} as a range MIN,MAX", field=field) from None
-    if not (lo <= a < b <= hi):
-        raise InputError(f"range {a:g},{b:g} must satisfy {lo:g} <= MIN < MAX <= {hi:g}",
-                         field=field)
-    return a, b
+        dark_alt, dark_label = float(dark), f"sun below {dark:g}°"
+    return Limits(
+        min_alt_deg=values["min_alt_deg"], max_airmass=values["max_airmass"],
+        dark_sun_alt_deg=dark_alt, dark_label=dark_label, moon_gap_deg=values["moon_gap_deg"],
+        sun_gap_deg=values["sun_gap_deg"], ha_range_h=values["ha_range_h"],
+        dec_range_deg=values["dec_range_deg"], between_local=values["between"],
+        use_horizon_profile=values["horizon_profile"], airmass_model=values["airmass_model"],
+        refraction_model=values["refraction_model"],
+    )
 
 
-def _dark(value) -> tuple[float | None, str]:
-    if value is None:
-        return -18.0, "astronomical"
-    text = str(value).strip().lower()
-    if text in DARK_LEVELS:
-        return DARK_LEVELS[text], text
-    if text in ("none", "off", "day"):
-        return None, "none"
-    try:
-        alt = float(text)
-    except ValueError:
-        raise InputError(f"{value!r} is not civil, nautical, astronomical, none or a Sun "
-                         "altitude in degrees", field="--dark") from None
-    if not -90.0 <= alt <= 0.0:
-        raise InputError(f"Sun altitude {alt:g} for darkness must be between -90 and 0",
-                         field="--dark")
-    return alt, f"sun below {alt:g}°"
+def build_limits(site_limits: Mapping[str, object], *,
+                 origins: Mapping[str, Origin] | None = None, **options: object) -> Limits:
+    """Limits from command-line values, falling back to the site's, then the defaults.
+
+    ``site_limits`` are a site's limits by key, written where ``origins`` says (a key
+    without an origin is named by itself); ``options`` are the command-line values by
+    the options' Python names (``min_alt=25``, ``no_horizon_profile=True``), None when not
+    given.
+    """
+    origins = origins or {}
+    given = {key: Given(value, origins.get(key) or Origin(field=key))
+             for key, value in site_limits.items()}
+    by_arg = {spec.arg: spec for spec in SPECS.values()}
+    for arg, value in options.items():
+        spec = by_arg.get(arg)
+        if spec is None:
+            raise TypeError(f"build_limits() got an unknown option {arg!r}")
+        if spec.kind == "flag":
+            if value:
+                given[spec.key] = Given(False, Origin(field=spec.option))
+        elif value is not None:
+            given[spec.key] = Given(value, Origin(field=spec.option))
+    return limits_from(given)
 
 
-def _between(text: str) -> tuple[dt.time, dt.time]:
-    try:
-        a, b = text.split("-")
-        start, end = dt.time.fromisoformat(a.strip()), dt.time.fromisoformat(b.strip())
-    except ValueError:
-        raise InputError(f"cannot read {text!r} as a local clock range like 20:00-02:30",
-                         field="--between") from None
+# --------------------------------------------------------------------------- one check per kind
+
+
+def _check_number(spec: LimitSpec, value: object) -> float:
+    x = number(value)
+    if not spec.inside(x):
+        raise ValueError(f"{spec.what} {x:g}{spec.unit} must be {spec.bounds()}")
+    return x
+
+
+def _check_dark(spec: LimitSpec, value: object) -> str | float:
+    if isinstance(value, str):
+        text = value.strip().lower()
+        if text in TWILIGHTS:
+            return text
+        if text in NO_DARK:
+            return "none"
+        try:
+            value = decimal(text)
+        except ValueError:
+            raise ValueError(f"{value!r} is not {', '.join(TWILIGHTS)}, none or a Sun "
+                             "altitude in degrees") from None
+    return _check_number(spec, value)
+
+
+def _check_range(spec: LimitSpec, value: object) -> tuple[float, float]:
+    if isinstance(value, str):
+        text = value.strip()
+        colon = text.count(":") == 1 or "," in text
+        parts = text.replace(",", ":").split(":") if colon else text.split("..")
+        try:
+            low, high = (decimal(part) for part in parts)
+        except ValueError:
+            raise ValueError(f"cannot read {value!r} as a range MIN,MAX") from None
+    elif isinstance(value, list | tuple) and len(value) == 2:
+        low, high = number(value[0]), number(value[1])
+    else:
+        raise ValueError(f"expected [min, max] for {spec.what}, got {shown(value)}")
+    for end, x in (("minimum", low), ("maximum", high)):
+        if not spec.inside(x):
+            raise ValueError(f"{spec.what} {end} {x:g}{spec.unit} must be {spec.bounds()}")
+    if low >= high:
+        raise ValueError(f"{spec.what} range [{low:g}, {high:g}] must have min below max")
+    return low, high
+
+
+def _check_clock(spec: LimitSpec, value: object) -> tuple[dt.time, dt.time]:
+    if isinstance(value, tuple | list) and all(isinstance(t, dt.time) for t in value):
+        times = tuple(value)
+    elif isinstance(value, str):
+        try:
+            times = tuple(dt.time.fromisoformat(part.strip()) for part in value.split("-"))
+        except ValueError:
+            times = ()
+    else:
+        times = ()
+    if len(times) != 2:
+        raise ValueError(f"cannot read {shown(value)} as a local clock range like 20:00-02:30")
+    start, end = times
     if start.tzinfo is not None or end.tzinfo is not None:
-        raise InputError(f"{text!r}: give local clock times without an offset",
-                         field="--between")
+        raise ValueError(f"{shown(value)}: give local clock times without an offset")
     if start == end:
-        raise InputError(f"{text!r} starts and ends at the same time; leave --between out "
-                         "for the whole night", field="--between")
+        raise ValueError(f"{shown(value)} starts and ends at the same time; give no clock "
+                         "range for the whole night")
     return start, end
 
 
-def build_limits(site_limits: dict, *, min_alt=None, max_airmass=None, dark=None,
-                 moon_gap=None, sun_gap=None, ha_range=None, dec_range=None, between=None,
-                 no_horizon_profile=False, airmass_model="kasten-young",
-                 refraction_model="bennett") -> Limits:
-    """Limits from command-line values, falling back to the site file's, then the defaults."""
-    from skyplan.engine import airmass as am
-    from skyplan.engine import refraction
+def _check_choice(spec: LimitSpec, value: object) -> str:
+    names = importlib.import_module(spec.choices).MODELS
+    if value not in names:
+        raise ValueError(f"{shown(value)} is not one of {', '.join(names)}")
+    return str(value)
 
-    def pick(cli, key, default):
-        return cli if cli is not None else site_limits.get(key, default)
 
-    min_alt = float(pick(min_alt, "min_alt_deg", 20.0))
-    if not -5.0 <= min_alt < 90.0:
-        raise InputError(f"minimum altitude {min_alt:g}° must be from -5 to below 90",
-                         field="--min-alt")
-    x = pick(max_airmass, "max_airmass", None)
-    if x is not None:
-        x = float(x)
-        if not 1.0 < x <= 40.0:
-            raise InputError(f"maximum air mass {x:g} must be above 1 and at most 40",
-                             field="--max-airmass")
-    dark_alt, dark_label = _dark(pick(dark, "dark", None))
-    moon = float(pick(moon_gap, "moon_gap_deg", 0.0))
-    sun = float(pick(sun_gap, "sun_gap_deg", 15.0))
-    for value, name in ((moon, "--moon-gap"), (sun, "--sun-gap")):
-        if not 0.0 <= value <= 180.0:
-            raise InputError(f"{value:g}° must be from 0 to 180", field=name)
-    ha = pick(ha_range, "ha_range_h", None)
-    dec = pick(dec_range, "dec_range_deg", None)
-    if airmass_model not in am.MODELS:
-        raise InputError(f"{airmass_model!r} is not one of {', '.join(am.MODELS)}",
-                         field="--airmass-model")
-    if refraction_model not in refraction.MODELS:
-        raise InputError(f"{refraction_model!r} is not one of {', '.join(refraction.MODELS)}",
-                         field="--refraction")
-    return Limits(
-        min_alt_deg=min_alt, max_airmass=x, dark_sun_alt_deg=dark_alt, dark_label=dark_label,
-        moon_gap_deg=moon, sun_gap_deg=sun,
-        ha_range_h=_range(ha, "--ha-range", -12.0, 12.0) if ha is not None else None,
-        dec_range_deg=_range(dec, "--dec-range", -90.0, 90.0) if dec is not None else None,
-        between_local=_between(between) if between else None,
-        use_horizon_profile=not no_horizon_profile, airmass_model=airmass_model,
-        refraction_model=refraction_model,
-    )
+def _check_flag(spec: LimitSpec, value: object) -> bool:
+    if not isinstance(value, bool):
+        raise TypeError(f"expected true or false, got {shown(value)}")
+    return value
+
+
+_CHECKS: dict[str, Callable[[LimitSpec, object], object]] = {
+    "number": _check_number, "range": _check_range, "dark": _check_dark,
+    "clock": _check_clock, "choice": _check_choice, "flag": _check_flag,
+}

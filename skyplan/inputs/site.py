@@ -1,0 +1,146 @@
+"""The Site type: where the telescope stands, its time zone and its weather.
+
+A :class:`Site` holds the position (geodetic latitude, east longitude, elevation), the IANA
+time zone, the local weather used for refraction, an optional horizon profile and the site's
+default limits.  How a site is found (``--site``, a sites file) is in
+:mod:`skyplan.inputs.sites`; the sites file's reader in :mod:`skyplan.inputs.sitesfile`.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+import zoneinfo
+from dataclasses import dataclass, field
+
+from skyplan import notices
+from skyplan.inputs.atmosphere import isa_pressure_hpa, isa_temperature_c
+from skyplan.inputs.horizon import HorizonProfile
+from skyplan.inputs.limits import Origin
+
+ELEVATION_RANGE_M = (-500.0, 9000.0)
+PRESSURE_RANGE_HPA = (100.0, 1100.0)
+TEMPERATURE_RANGE_C = (-90.0, 60.0)
+
+
+@dataclass(frozen=True)
+class Site:
+    """Where the telescope stands.
+
+    ``lon_deg`` is normalised to -180..180 (east positive).  An empty ``zone`` is filled in
+    from the coordinates (offline, with timezonefinder); over the ocean that gives the nautical
+    ``Etc/GMT+N`` zone.  ``limits`` holds the site's defaults for the observer's limits, checked
+    values by key (:data:`skyplan.inputs.limits.FILE_KEYS`); ``limit_origins`` says where each
+    was written (the sites file's line), for messages.  ``source`` says where the site came
+    from.
+    """
+
+    name: str
+    lat_deg: float
+    lon_deg: float
+    elevation_m: float = 0.0
+    zone: str = ""
+    pressure_hpa: float | None = None
+    temperature_c: float | None = None
+    humidity: float | None = None
+    horizon: HorizonProfile | None = None
+    limits: dict[str, object] = field(default_factory=dict, hash=False)
+    source: str = ""
+    limit_origins: dict[str, Origin] = field(
+        default_factory=dict, hash=False, compare=False, repr=False)
+
+    def __post_init__(self) -> None:
+        lat, lon, elev = float(self.lat_deg), float(self.lon_deg), float(self.elevation_m)
+        if not (math.isfinite(lat) and abs(lat) <= 90.0):
+            raise ValueError(f"site latitude {lat} outside -90..90")
+        if not (math.isfinite(lon) and -180.0 <= lon <= 360.0):
+            raise ValueError(f"site longitude {lon} outside -180..360")
+        if not math.isfinite(elev):
+            raise ValueError(f"site elevation {elev} is not finite")
+        lon = normalise_lon(lon)
+        object.__setattr__(self, "lat_deg", lat)
+        object.__setattr__(self, "lon_deg", lon)
+        object.__setattr__(self, "elevation_m", elev)
+        if not self.zone:
+            object.__setattr__(self, "zone", zone_at(lat, lon))
+        zone_info(self.zone)  # a bad zone given directly is a programming error: ValueError
+
+    @property
+    def tzinfo(self) -> zoneinfo.ZoneInfo:
+        """The site's time zone."""
+        return zoneinfo.ZoneInfo(self.zone)
+
+    def weather(self) -> tuple[float, float, float]:
+        """(pressure_hpa, temperature_c, humidity) with the standard atmosphere for what is absent.
+
+        Absent pressure and temperature come from the ICAO Standard Atmosphere (ICAO Doc 7488,
+        identical below 32 km to the U.S. Standard Atmosphere 1976): see :func:`isa_pressure_hpa`
+        and :func:`isa_temperature_c` at the site's elevation.  Absent humidity is 0.0, the
+        default of ERFA's refraction constants as astropy uses them (``relative_humidity=0``);
+        at optical wavelengths it changes refraction by well under 0.1 per cent.
+        """
+        pressure = self.pressure_hpa
+        if pressure is None:
+            pressure = float(isa_pressure_hpa(self.elevation_m))
+        temperature = self.temperature_c
+        if temperature is None:
+            temperature = float(isa_temperature_c(self.elevation_m))
+        humidity = 0.0 if self.humidity is None else self.humidity
+        return pressure, temperature, humidity
+
+
+# --------------------------------------------------------------------------- zones
+
+
+def normalise_lon(lon_deg: float) -> float:
+    """East longitude in -180..180 (values above 180, up to 360, are taken 360 degrees down)."""
+    return lon_deg - 360.0 if lon_deg > 180.0 else lon_deg
+
+
+def nautical_zone(lon_deg: float) -> str:
+    """The nautical zone for a longitude: 15-degree bands centred on multiples of 15 degrees.
+
+    Zone number n = round(lon / 15), limited to -12..12; the IANA name inverts the sign
+    (``Etc/GMT+2`` is two hours behind UTC, for longitudes near 30 W).
+    """
+    n = max(-12, min(12, math.floor(normalise_lon(lon_deg) / 15.0 + 0.5)))
+    if n == 0:
+        return "Etc/GMT"
+    return f"Etc/GMT{-n:+d}"
+
+
+@functools.lru_cache(maxsize=1)
+def _zone_finder() -> object | None:
+    """One shared timezonefinder instance, built on first use (kept in memory when possible)."""
+    try:
+        from timezonefinder import TimezoneFinder
+    except ImportError:
+        return None
+    try:
+        return TimezoneFinder(in_memory=True)
+    except TypeError:
+        return TimezoneFinder()
+
+
+def zone_at(lat_deg: float, lon_deg: float) -> str:
+    """The IANA zone at a point, offline; the nautical zone where no zone polygon covers it."""
+    finder = _zone_finder()
+    zone = None
+    if finder is None:
+        notices.add("timezonefinder is not installed: site zones fall back to nautical zones")
+    else:
+        zone = finder.timezone_at(lng=normalise_lon(lon_deg), lat=lat_deg)
+    if zone is None:
+        zone = nautical_zone(lon_deg)
+        if finder is not None:
+            notices.add(f"no time zone found at {lat_deg:.4f},{lon_deg:.4f}: using {zone}")
+    return zone
+
+
+def zone_info(zone: str) -> zoneinfo.ZoneInfo:
+    """ZoneInfo for a name; ValueError when the name is not a known IANA zone."""
+    try:
+        return zoneinfo.ZoneInfo(zone)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError) as exc:
+        raise ValueError(f"unknown IANA time zone {zone!r}") from exc
+
