@@ -119,9 +119,10 @@ class LimitSpec:
     def option_help(self) -> str:
         """Help text for the option: the description, the range and the default."""
         notes = [self.bounds()] if self.kind in ("number", "range") else []
-        if self.default is not None and self.kind != "flag":
-            notes.append(f"default {self.default:g}" if isinstance(self.default, float)
-                         else f"default {self.default}")
+        if self.kind != "flag":
+            default = self.default
+            notes.append(f"default: {default:g}" if isinstance(default, float)
+                         else f"default: {'none' if default is None else default}")
         return f"{self.help} ({'; '.join(notes)})." if notes else f"{self.help}."
 
 
@@ -130,7 +131,7 @@ SPECS: dict[str, LimitSpec] = {spec.key: spec for spec in (
               "Minimum apparent altitude in degrees", defaults.MIN_ALT_DEG,
               lo=-5.0, hi=90.0, hi_open=True, unit="°"),
     LimitSpec("max_airmass", "--max-airmass", "number", "maximum air mass",
-              "Maximum air mass (default: none)", defaults.MAX_AIRMASS,
+              "Maximum air mass", defaults.MAX_AIRMASS,
               lo=1.0, hi=40.0, lo_open=True),
     LimitSpec("dark", "--dark", "dark", "Sun altitude for darkness",
               "Darkness: civil, nautical, astronomical, a Sun altitude in degrees, or none",
