@@ -29,8 +29,7 @@ def test_help_loads_no_heavy_library() -> None:
 
 
 def test_a_windows_run_converts_its_options_without_pydantic(tmp_path) -> None:
-    app_module._register()
-    if plainparams.install(typer.main.get_command(app_module.app)) == 0:
+    if plainparams.install(typer.main.get_command(app_module.build())) == 0:
         pytest.skip("this typer release converts options without a validator layer")
     loaded = loaded_after("windows", "--demo", "--min-alt", "25", "-f", "json", "--out",
                           str(tmp_path / "w.json"), "--quiet")
@@ -38,8 +37,7 @@ def test_a_windows_run_converts_its_options_without_pydantic(tmp_path) -> None:
 
 
 def test_a_find_run_converts_its_names_without_pydantic() -> None:
-    app_module._register()
-    if plainparams.install(typer.main.get_command(app_module.app)) == 0:
+    if plainparams.install(typer.main.get_command(app_module.build())) == 0:
         pytest.skip("this typer release converts options without a validator layer")
     assert "pydantic" not in loaded_after("find", "M 42", "Vega")
 
@@ -84,7 +82,6 @@ def test_a_bad_number_is_one_line_and_status_2(capsys) -> None:
 
 
 def test_only_the_command_asked_for_is_built() -> None:
-    app_module._register()
     one = app_module._command(["night", "--demo"])
     assert list(one.commands) == ["night"]
     everything = app_module._command(["--help"])

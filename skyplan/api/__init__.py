@@ -1,0 +1,6 @@
+"""The public Python API of skyplan, one module per topic (``import skyplan`` exposes it).
+
+``sites`` (where), ``targets`` (what), ``night`` (when), ``windows`` (limits and windows),
+``plan`` (the night's visits), ``positions`` (frame conversion and name look-up), ``times``
+(how instants are handed out: timezone-aware datetimes and astropy Time columns).
+"""
