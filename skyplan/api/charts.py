@@ -15,7 +15,7 @@ from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PlanRead:
     """A plan file read back: its site, night, targets, visits and altitude limits."""
 

@@ -8,7 +8,7 @@ from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Clock:
     """One instant at a site (``to_records``: as ``skyplan clock --format json``)."""
 

@@ -9,7 +9,7 @@ from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Night:
     """Evening to morning at a site for a local date.
 

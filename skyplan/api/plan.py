@@ -15,7 +15,7 @@ from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PlanSettings:
     """Validated overheads and scheduling options (see :func:`plan_settings`)."""
 
@@ -67,7 +67,7 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     return PlanSettings(overheads, options)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Plan:
     """The ordered visits of one night.
 

@@ -11,7 +11,7 @@ from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Conversion:
     """Positions converted to another frame (``to_records``: as ``skyplan convert -f json``)."""
 
@@ -103,7 +103,7 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
     return Conversion(conversion.convert(found, request))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Lookup:
     """What names resolve to (``to_records``: as ``skyplan find -f json``)."""
 

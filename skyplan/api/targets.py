@@ -10,7 +10,7 @@ import numpy as np
 from skyplan.notices import as_warnings
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Targets:
     """Targets ready for :func:`skyplan.windows` and :func:`skyplan.plan`.
 

@@ -1,8 +1,9 @@
 """Instants as the API hands them out: aware datetimes (one) and astropy Time (columns).
 
 The engine counts POSIX seconds (UTC, leap seconds not counted); nothing at the API surface
-is a bare float.  astropy's ``unix`` time format is the same count ("seconds from
-1970-01-01 00:00:00 UTC, ignoring leap seconds", astropy.time documentation).
+is a bare float.  Columns go to astropy through calendar fields (numpy ``datetime64``, which
+counts as POSIX does): astropy's own ``unix`` format departs from POSIX time on the day of a
+leap second.
 """
 
 from __future__ import annotations
@@ -26,7 +27,8 @@ def time_column(unix) -> object:
 
     x = np.asarray(unix, dtype=float).reshape(-1)
     bad = ~np.isfinite(x)
-    t = Time(np.where(bad, 0.0, x), format="unix", scale="utc")
+    micro = np.round(np.where(bad, 0.0, x) * 1e6).astype("int64")
+    t = Time(micro.astype("datetime64[us]"), scale="utc", format="datetime64")
     t.format = "isot"
     if bad.any():
         t[bad] = np.ma.masked

@@ -32,7 +32,7 @@ def _site_limits(site: Site) -> Limits:
     return limits(site)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Windows:
     """Rise, transit, set and the observable windows of every target on one night.
 
