@@ -19,8 +19,8 @@ from skyplan.notices import as_warnings
 class PlanRead:
     """A plan file read back: its site, night, targets, visits and altitude limits."""
 
-    site: Site
-    night: Night
+    site: Site = field(repr=False)
+    night: Night = field(repr=False)
     targets: Targets
     visits: list = field(repr=False)  # skyplan.engine.scene.Visit
     limits: dict = field(default_factory=dict)  # as site-file limit keys

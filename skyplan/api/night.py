@@ -17,7 +17,7 @@ class Night:
     ``.astimezone(site.tzinfo)`` gives the site's clock.
     """
 
-    site: Site
+    site: Site = field(repr=False)
     date: dt.date
     sunset: dt.datetime | None
     sunrise: dt.datetime | None

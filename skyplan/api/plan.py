@@ -76,8 +76,8 @@ class Plan:
     left out.
     """
 
-    site: Site
-    night: Night
+    site: Site = field(repr=False)
+    night: Night = field(repr=False)
     result: object = field(repr=False)  # skyplan.planning.build.NightPlan
 
     @property

@@ -41,8 +41,8 @@ class Windows:
     --format json`` writes.
     """
 
-    site: Site
-    night: Night
+    site: Site = field(repr=False)
+    night: Night = field(repr=False)
     limits: Limits
     result: object = field(repr=False)  # skyplan.engine.windows.WindowResult
 
