@@ -28,19 +28,29 @@ def test_help_loads_no_heavy_library() -> None:
     assert not loaded & {"numpy", "astropy", "skyfield", "scipy", "matplotlib", "pydantic"}
 
 
+def plain_options_of_every_command() -> int:
+    return plainparams.install(typer.main.get_command(app_module.build()))
+
+
+def test_the_installed_typer_is_the_one_plain_conversion_was_tested_with() -> None:
+    # pyproject.toml pins typer to the release line whose option objects plainparams knows;
+    # a typer outside it must fail here (not skip), so that the loss of speed is seen.
+    from importlib.metadata import version
+
+    major, minor, *_ = (int(p) for p in version("typer").split(".")[:3])
+    assert (major, minor) == (0, 29), f"typer {version('typer')} is outside the tested range"
+    assert plain_options_of_every_command() >= 100  # every text, number and flag option
+
+
 def test_a_windows_run_converts_its_options_without_pydantic(tmp_path) -> None:
-    app_module._register()
-    if plainparams.install(typer.main.get_command(app_module.app)) == 0:
-        pytest.skip("this typer release converts options without a validator layer")
+    assert plain_options_of_every_command() > 0
     loaded = loaded_after("windows", "--demo", "--min-alt", "25", "-f", "json", "--out",
                           str(tmp_path / "w.json"), "--quiet")
     assert "pydantic" not in loaded and (tmp_path / "w.json").stat().st_size > 0
 
 
 def test_a_find_run_converts_its_names_without_pydantic() -> None:
-    app_module._register()
-    if plainparams.install(typer.main.get_command(app_module.app)) == 0:
-        pytest.skip("this typer release converts options without a validator layer")
+    assert plain_options_of_every_command() > 0
     assert "pydantic" not in loaded_after("find", "M 42", "Vega")
 
 
@@ -84,9 +94,19 @@ def test_a_bad_number_is_one_line_and_status_2(capsys) -> None:
 
 
 def test_only_the_command_asked_for_is_built() -> None:
-    app_module._register()
     one = app_module._command(["night", "--demo"])
     assert list(one.commands) == ["night"]
     everything = app_module._command(["--help"])
     assert {"night", "windows", "plan"} <= set(everything.commands)
     assert set(app_module._command(["nigth"]).commands) == set(everything.commands)
+
+
+def test_a_run_imports_only_its_own_command_module() -> None:
+    code = ("import sys\nfrom skyplan.cli.app import main\ntry:\n    main(sys.argv[1:])\n"
+            "except SystemExit:\n    pass\n"
+            "print(' '.join(sorted(m for m in sys.modules if m.startswith('skyplan.cli.'))),"
+            " file=sys.stderr)")
+    out = subprocess.run([sys.executable, "-c", code, "clock", "--demo", "--at",
+                          "2026-12-18T22:00"], capture_output=True, text=True, check=True)
+    assert set(out.stderr.split()) == {"skyplan.cli.app", "skyplan.cli.clock",
+                                       "skyplan.cli.options", "skyplan.cli.plainparams"}

@@ -146,7 +146,7 @@ def test_signals_end_the_run_cleanly(tmp_path: Path, signum: int, status: int,
     script = textwrap.dedent(f"""
         import sys, time
         from skyplan.render import output
-        from skyplan.cli import app, common
+        from skyplan.cli import app, options
         def slow_fsync(fd):
             print("writing", flush=True)
             time.sleep(60)

@@ -1,10 +1,13 @@
 """The ``skyplan`` command: a thin typer layer over the engine.
 
-Commands parse options, call the engine and hand results to a renderer; no astronomy here.
+Commands parse options, call the public API (``skyplan.api``) and hand results to a
+renderer; no astronomy here.  Each command lives in a module of its own, which registers it
+on the app :func:`build` makes for one run; only the command asked for is imported.
 Every error reaches the user as one line on stderr, starting ``skyplan:``, with a documented
 exit status (``skyplan/errors.py``; the list with examples is ``docs/errors.md``).  Notices
 from the engine follow the result as ``skyplan: note: ...`` lines, and so does any warning a
 library raises that was not handled where it arose: nothing else is ever written to stderr.
+The API delivers notices as ``SkyplanWarning``; they are printed as plain notes.
 """
 
 from __future__ import annotations
@@ -20,17 +23,24 @@ import typer
 
 from skyplan import __version__
 
-app = typer.Typer(
-    name="skyplan",
-    help=(
-        "Plan a night at the telescope, offline: frames, rise/transit/set, observable windows "
-        "and an airmass-ranked schedule.  Never point unfiltered optics at or near the Sun; "
-        "the plan is advice, not an interlock."
-    ),
-    no_args_is_help=True,
-    add_completion=False,
-    context_settings={"help_option_names": ["-h", "--help"]},
-    pretty_exceptions_enable=False,
+HELP = (
+    "Plan a night at the telescope, offline: frames, rise/transit/set, observable windows "
+    "and an airmass-ranked schedule.  Never point unfiltered optics at or near the Sun; "
+    "the plan is advice, not an interlock."
+)
+
+# Each command (or group) and the module that registers it; also the order of the commands
+# in ``skyplan --help`` (typer lists the groups after the commands).
+COMMANDS = (
+    ("night", "skyplan.cli.night"),
+    ("windows", "skyplan.cli.sky"),
+    ("plan", "skyplan.cli.plan"),
+    ("chart", "skyplan.cli.charts"),
+    ("clock", "skyplan.cli.clock"),
+    ("convert", "skyplan.cli.convert"),
+    ("sites", "skyplan.cli.sites"),
+    ("selfcheck", "skyplan.cli.selfcheck"),
+    ("find", "skyplan.cli.find"),
 )
 
 MAX_LINE_CHARS = 600  # a message longer than this is cut (it would not be read anyway)
@@ -52,7 +62,6 @@ def _version(value: bool) -> None:
         raise typer.Exit()
 
 
-@app.callback()
 def _root(
     version: bool = typer.Option(
         False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
@@ -61,31 +70,35 @@ def _root(
     """Plan a night at the telescope, offline."""
 
 
-def _register() -> None:
-    from skyplan.cli import commands  # noqa: F401  (registers the commands on ``app``)
+def build(wanted: str | None = None) -> typer.Typer:
+    """The typer app with the command ``wanted`` alone, or with every command when
+    ``wanted`` is None or names none (``--help``, ``--version``, a misspelt command)."""
+    import importlib
+
+    app = typer.Typer(
+        name="skyplan", help=HELP, no_args_is_help=True, add_completion=False,
+        context_settings={"help_option_names": ["-h", "--help"]},
+        pretty_exceptions_enable=False,
+    )
+    app.callback()(_root)
+    known = {name for name, _ in COMMANDS}
+    for name, module in COMMANDS:
+        if wanted not in known or name == wanted:
+            importlib.import_module(module).register(app)
+    return app
 
 
 def _command(argv: list[str] | None):
-    """The click command typer builds from ``app``, with plain option conversion.
+    """The click command typer builds for this run, with plain option conversion.
 
     When the first argument names a command, only that command is built (typer reads the
     signature of every function it builds, a few milliseconds each); the full set is built
     for anything else (``--help``, ``--version``, an unknown or misspelt command).
     """
-    import copy
-
     from skyplan.cli import plainparams
 
     args = sys.argv[1:] if argv is None else argv
-    wanted = args[0] if args else None
-    chosen = copy.copy(app)
-    chosen.registered_commands = [
-        c for c in app.registered_commands
-        if (c.name or c.callback.__name__.replace("_", "-")) == wanted]
-    chosen.registered_groups = [g for g in app.registered_groups if g.name == wanted]
-    if not chosen.registered_commands and not chosen.registered_groups:
-        chosen = app
-    command = typer.main.get_command(chosen)
+    command = typer.main.get_command(build(args[0] if args else None))
     plainparams.install(command)
     return command
 
@@ -147,15 +160,15 @@ class _SignalGuard:
 def main(argv: list[str] | None = None) -> None:
     """Run the CLI; map every error to one line and an exit status."""
     from skyplan import errors, notices
-    from skyplan.cli import common
+    from skyplan.cli import options
 
     click = _click_module()
-    _register()
     notices.take()  # a fresh run: nothing left over from an earlier call in this process
-    common.reset_run_options()
+    options.reset_run_options()
     debug = os.environ.get("SKYPLAN_DEBUG") == "1"
     status = errors.EXIT_OK
     with _SignalGuard(), warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", notices.SkyplanWarning)  # each run reports its own
         try:
             result = _command(argv)(args=argv, standalone_mode=False, prog_name="skyplan")
             status = result if isinstance(result, int) else errors.EXIT_OK
@@ -197,12 +210,17 @@ def main(argv: list[str] | None = None) -> None:
 
 
 def _print_notices(lines: list[str], caught: list[warnings.WarningMessage]) -> None:
-    """Notices, then any library warning nobody handled, each as one ``note`` line."""
-    from skyplan.cli import common
+    """Notices (the API's SkyplanWarnings, in their order, then any recorded outside the
+    API), then any library warning nobody handled, each as one ``note`` line."""
+    from skyplan.cli import options
+    from skyplan.notices import SkyplanWarning
 
+    ours = [w for w in caught if issubclass(w.category, SkyplanWarning)]
+    lines = [str(w.message) for w in ours] + lines
     for warning in caught:
-        lines.append(f"{warning.category.__name__}: {warning.message}")
-    if common.quiet_run():
+        if not issubclass(warning.category, SkyplanWarning):
+            lines.append(f"{warning.category.__name__}: {warning.message}")
+    if options.quiet_run():
         return
     seen = set()
     for line in lines:

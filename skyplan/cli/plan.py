@@ -2,15 +2,16 @@
 
 from __future__ import annotations
 
-import time
-
 import typer
 
-from skyplan.cli import common, sky
-from skyplan.cli.app import app
+from skyplan.cli import options as common
+from skyplan.cli import sky
 
 
-@app.command("plan")
+def register(app: typer.Typer) -> None:
+    app.command("plan")(plan_cmd)
+
+
 def plan_cmd(
     catalog: str = typer.Argument(None, help="Target list (CSV/TSV/ECSV/VOTable/FITS)."),
     site: str = common.SiteOpt,
@@ -61,8 +62,9 @@ def plan_cmd(
 
     Exit status 0 with a plan, 2 for bad input, 3 when nothing is observable tonight.
     """
-    from skyplan.errors import InputError
-    from skyplan.planning import build as planning
+    from skyplan.api import plan as planning
+    from skyplan.api import targets, windows
+    from skyplan.cli.night import night_of
     from skyplan.planning import dispatch as scheduling
     from skyplan.render import planview, records, tables
 
@@ -70,45 +72,36 @@ def plan_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     method = common.check_format(method, scheduling.METHODS, "--method")
     rates = _rates(slew_rate)
-    for value, name in ((exposure, "--exposure"), (setup, "--setup"), (settle, "--settle"),
-                        (spacing, "--spacing"), (time_limit, "--time-limit")):
-        if not (value >= 0 and value < 1e7):
-            raise InputError(f"{value:g} must be a non-negative number of reasonable size",
-                             field=name)
-    if exposure <= 0:
-        raise InputError("the default exposure must be positive", field="--exposure")
-    if not 1 <= repeats <= 100:
-        raise InputError(f"{repeats} repeats: use 1 to 100", field="--repeats")
+    with common.named_as(exposure_s="--exposure", setup_s="--setup", settle_s="--settle",
+                         spacing_min="--spacing", time_limit_s="--time-limit",
+                         repeats="--repeats"):
+        settings = planning.plan_settings(
+            exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_min=spacing,
+            slew_rate_deg_s=rates, settle_s=settle, method=method, time_limit_s=time_limit,
+            airmass_slack=airmass_slack, priority_cut=priority_cut,
+            allow_near_sun=allow_near_sun)
     limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
-    overheads = planning.Overheads(
-        default_exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_s=60.0 * spacing,
-        slew_az_deg_s=rates[0], slew_alt_deg_s=rates[1], settle_s=settle)
-    options = scheduling.PlanOptions(
-        method=method, time_limit_s=time_limit, priority_cut=priority_cut,
-        allow_near_sun=allow_near_sun, airmass_slack=None if airmass_slack < 0 else airmass_slack)
     with _progress(quiet) as step:
         step("reading targets and computing windows")
-        the_site, res, _ident = sky.window_result(catalog, site, sites_file, demo, date,
-                                                  skip_bad, elements, limits_kw)
+        the_site = common.get_site(site, sites_file, demo)
+        lim = windows.limits(the_site, **limits_kw)
+        the_night = night_of(the_site, date, demo)
+        chosen = targets.read_targets(catalog, skip_bad_rows=skip_bad, elements=elements,
+                                      demo=demo)
+        computed = windows.windows(chosen, the_site, the_night, lim)
         step("scheduling")
-        cat = _catalog_columns(catalog, demo, skip_bad)
-        plan = planning.make_night_plan(res, cat[0], cat[1], overheads, options)
+        made = planning.plan(chosen, the_site, the_night, lim, settings, computed=computed)
+    plan = made.result
     if fmt == "table":
-        codes = edges = None
-        if plan.visits:
-            from skyplan.engine import timeline
-
-            edges, codes = timeline.visit_timeline_codes(
-                res, [v.target for v in plan.visits], [v.exposure_start for v in plan.visits],
-                [v.end for v in plan.visits])
+        edges, codes = made.timeline()
         text = tables.render_text(planview.plan_table(plan, the_site, codes, edges,
                                                       color=common.is_terminal()))
         if plan.not_placed:
             text += tables.render_text(planview.not_placed_table(plan))
         common.emit(text, out)
         return
-    doc = planview.plan_document(plan, the_site, time.time())
+    doc = made.to_document()
     if fmt == "json":
         common.emit(records.to_json(doc), out)
     elif fmt == "ndjson":
@@ -130,15 +123,6 @@ def _rates(text: str) -> tuple[float, float]:
         raise InputError(f"cannot read {text!r} as AZ,ALT slew rates in degrees per second "
                          "(each above 0, at most 100)", field="--slew-rate")
     return parts[0], parts[1]
-
-
-def _catalog_columns(catalog, demo, skip_bad):
-    """Priority and exposure per target, from the same catalogue the windows came from."""
-    from skyplan.inputs import scenario, targets
-
-    path = catalog or str(scenario.demo_path(scenario.DEMO_CATALOG))
-    cat = targets.load_catalog(path, skip_bad=skip_bad)
-    return cat.priority, cat.exposure_s
 
 
 class _progress:

@@ -1,11 +1,10 @@
-"""Commands ``night`` and ``windows``."""
+"""Command ``windows``."""
 
 from __future__ import annotations
 
 import typer
 
-from skyplan.cli import common
-from skyplan.cli.app import app
+from skyplan.cli import options as common
 from skyplan.inputs.limits import SPECS
 
 DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight'); "
@@ -55,35 +54,6 @@ def night_date(site, date_text, demo):
     start = timeinput.local_noon_unix(date, site.tzinfo)
     ephemeris.check_in_span(start, start + 86400.0, field="--date")
     return date
-
-
-def night_of(site, date_text, demo):
-    from skyplan.engine import night
-
-    return night.compute_night(site, night_date(site, date_text, demo))
-
-
-@app.command("night")
-def night_cmd(
-    site: str = common.SiteOpt,
-    date: str = typer.Option(None, "--date", "-d", help=DATE_HELP),
-    sites_file: str = common.SitesFileOpt,
-    demo: bool = common.DemoOpt,
-    fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
-    out: str = common.OutOpt,
-    quiet: bool = common.QuietOpt,
-) -> None:
-    """Sunset, twilights, darkness, the Moon and sidereal times for one night."""
-    from skyplan.render import nightview, records, tables
-
-    common.set_quiet(quiet)
-    fmt = common.check_format(fmt, ("table", "json"))
-    the_site = common.get_site(site, sites_file, demo)
-    n = night_of(the_site, date, demo)
-    if fmt == "json":
-        common.emit(records.to_json(nightview.night_record(n, the_site)), out)
-    else:
-        common.emit(tables.render_text(nightview.night_table(n, the_site)), out)
 
 
 def _catalog_path(catalog, demo):
@@ -166,16 +136,6 @@ def window_inputs(catalog, site, sites_file, demo, date, skip_bad, elements, lim
     return the_site, lim, n, tset, orbits
 
 
-def window_result(catalog, site, sites_file, demo, date, skip_bad, elements, limits_kw):
-    from skyplan.engine import windows
-
-    with night_worker(catalog, demo) as pool:
-        the_site, lim, n, tset, orbits = window_inputs(catalog, site, sites_file, demo, date,
-                                                       skip_bad, elements, limits_kw, pool)
-    return the_site, windows.compute_windows(tset, the_site, n, lim, orbits=orbits), \
-        tset.identifiers
-
-
 def window_blocks(fmt, the_site, n, lim, tset, orbits):
     """The windows as JSON, NDJSON or CSV bytes, block by block of targets, each block
     computed and encoded by a worker (or here, one after another, without workers)."""
@@ -231,7 +191,10 @@ def _orbits(elements):
     return orbit_mod.read_elements(elements)
 
 
-@app.command("windows")
+def register(app: typer.Typer) -> None:
+    app.command("windows")(windows_cmd)
+
+
 def windows_cmd(
     catalog: str = typer.Argument(None, help="Target list (CSV/TSV/ECSV/VOTable/FITS)."),
     site: str = common.SiteOpt,

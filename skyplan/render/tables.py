@@ -11,9 +11,7 @@ from skyplan.inputs.angles import format_dms, format_dms_array, format_hms, form
 
 def render_text(renderable) -> str:
     """Render a rich object to text: colour on a terminal, plain elsewhere."""
-    from skyplan.cli.common import console
-
-    con = console()
+    con = _console()
     if con.is_terminal:
         with con.capture() as cap:
             con.print(renderable)
@@ -24,6 +22,22 @@ def render_text(renderable) -> str:
     Console(file=buf, width=200, no_color=True, force_terminal=False, highlight=False,
             color_system=None).print(renderable)
     return buf.getvalue()
+
+
+def _console():
+    """A rich console on stdout: colour only on a terminal, plain text otherwise."""
+    import os
+    import sys
+
+    from rich.console import Console
+
+    tty = sys.stdout.isatty() and os.environ.get("TERM") != "dumb"
+    return Console(
+        force_terminal=False if not tty else None,
+        no_color=not tty or "NO_COLOR" in os.environ,
+        highlight=False,
+        width=None if tty else 160,
+    )
 
 
 def _table(title: str | None = None, caption: str | None = None):

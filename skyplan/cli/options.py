@@ -1,4 +1,8 @@
-"""Option handling shared by the commands: site, output, formats (no astronomy)."""
+"""Option handling shared by the commands: site, output, formats (no astronomy).
+
+Commands call the public API (``skyplan.api``); :func:`named_as` turns the field names in
+its errors (``at``, ``date``, ``exposure_s``) into the command's options (``--at``...).
+"""
 
 from __future__ import annotations
 
@@ -6,6 +10,8 @@ import errno
 import io
 import os
 import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import typer
@@ -33,14 +39,22 @@ OutOpt = typer.Option(
 
 
 def get_site(site: str | None, sites_file: str | None, demo: bool):
-    """The Site for a command: the demo's, a named one, or coordinates."""
-    from skyplan.inputs import scenario, sites
+    """The Site for a command: the demo's, a named one, or coordinates (``LAT,LON[,ELEV]``)."""
+    from skyplan.api import sites
 
-    if demo and site is None:
-        return sites.find_site(scenario.DEMO_SITE, scenario.demo_path("sites.toml"))
-    if demo and sites_file is None:
-        sites_file = str(scenario.demo_path("sites.toml"))
-    return sites.resolve_site(site, sites_file)
+    return sites.site(site, sites_file=sites_file, demo=demo)
+
+
+@contextmanager
+def named_as(**options: str) -> Iterator[None]:
+    """Report an API error about field ``key`` as one about option ``options[key]``."""
+    try:
+        yield
+    except InputError as exc:
+        if type(exc) is not InputError or exc.field not in options:
+            raise
+        raise InputError(exc.message, file=exc.file, line=exc.line,
+                         field=options[exc.field]) from None
 
 
 def check_format(value: str, allowed: tuple[str, ...], option: str = "--format") -> str:
@@ -115,19 +129,6 @@ def _detach_stdout() -> None:
         os.close(devnull)
     except (OSError, ValueError, AttributeError):
         pass  # an in-memory stdout (tests) has no descriptor
-
-
-def console():
-    """A rich console on stdout: colour only on a terminal, plain text otherwise."""
-    from rich.console import Console
-
-    tty = is_terminal()
-    return Console(
-        force_terminal=False if not tty else None,
-        no_color=not tty or "NO_COLOR" in os.environ,
-        highlight=False,
-        width=None if tty else 160,
-    )
 
 
 _run = {"quiet": False}

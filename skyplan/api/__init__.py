@@ -1,0 +1,7 @@
+"""The public Python API of skyplan, one module per topic (``import skyplan`` exposes it).
+
+``sites`` (where), ``targets`` (what), ``night`` (when), ``windows`` (limits and windows),
+``plan`` (the night's visits), ``positions`` (frame conversion and name look-up), ``clock``
+(time at a site), ``charts`` (what the charts show; plan files read back), ``times`` (how
+instants are handed out: timezone-aware datetimes and astropy Time columns).
+"""

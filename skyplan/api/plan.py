@@ -1,0 +1,164 @@
+"""The night's plan for the API: ordered visits, and the targets left out and why."""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from skyplan.api.night import Night
+from skyplan.api.targets import Targets
+from skyplan.api.windows import Windows, windows
+from skyplan.inputs.limits import Limits
+from skyplan.inputs.sites import Site
+from skyplan.notices import as_warnings
+
+
+@dataclass(frozen=True, eq=False)
+class PlanSettings:
+    """Validated overheads and scheduling options (see :func:`plan_settings`)."""
+
+    overheads: object  # skyplan.planning.build.Overheads
+    options: object  # skyplan.planning.dispatch.PlanOptions
+
+
+def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: int = 1,
+                  spacing_min: float = 0.0, slew_rate_deg_s: tuple[float, float] = (2.0, 2.0),
+                  settle_s: float = 10.0, method: str = "optimal", time_limit_s: float = 5.0,
+                  airmass_slack: float | None = 0.15, priority_cut: int | None = None,
+                  allow_near_sun: bool = False) -> PlanSettings:
+    """Check the plan's settings; an :class:`skyplan.InputError` names the bad one.
+
+    ``exposure_s``: for targets without their own; ``setup_s``: per visit; ``spacing_min``:
+    between the starts of repeats of one target; ``slew_rate_deg_s``: (azimuth, altitude);
+    ``method``: 'optimal' (integer program) or 'dispatch' (fast greedy);
+    ``airmass_slack``: below the top priority, visits only within this fraction of the
+    target's best air mass tonight (None turns the rule off).
+    """
+    from skyplan.errors import InputError
+    from skyplan.planning import build, dispatch
+
+    if method not in dispatch.METHODS:
+        raise InputError(f"{method!r} is not one of: {', '.join(dispatch.METHODS)}",
+                         field="method")
+    for value, name in ((exposure_s, "exposure_s"), (setup_s, "setup_s"),
+                        (settle_s, "settle_s"), (spacing_min, "spacing_min"),
+                        (time_limit_s, "time_limit_s")):
+        if not (value >= 0 and value < 1e7):
+            raise InputError(f"{value:g} must be a non-negative number of reasonable size",
+                             field=name)
+    if exposure_s <= 0:
+        raise InputError("the default exposure must be positive", field="exposure_s")
+    if not 1 <= repeats <= 100:
+        raise InputError(f"{repeats} repeats: use 1 to 100", field="repeats")
+    az_rate, alt_rate = slew_rate_deg_s
+    if not all(0 < p <= 100 for p in (az_rate, alt_rate)):
+        raise InputError("slew rates must be above 0 and at most 100 degrees per second",
+                         field="slew_rate_deg_s")
+    overheads = build.Overheads(
+        default_exposure_s=exposure_s, setup_s=setup_s, repeats=repeats,
+        spacing_s=60.0 * spacing_min, slew_az_deg_s=az_rate, slew_alt_deg_s=alt_rate,
+        settle_s=settle_s)
+    options = dispatch.PlanOptions(
+        method=method, time_limit_s=time_limit_s, priority_cut=priority_cut,
+        allow_near_sun=allow_near_sun,
+        airmass_slack=None if airmass_slack is None or airmass_slack < 0 else airmass_slack)
+    return PlanSettings(overheads, options)
+
+
+@dataclass(frozen=True, eq=False)
+class Plan:
+    """The ordered visits of one night.
+
+    ``visits``: the engine's visit records (POSIX fields; use :meth:`to_table` or
+    :meth:`to_records` for times); ``not_placed``: (name, reason, explanation) per target
+    left out.
+    """
+
+    site: Site = field(repr=False)
+    night: Night = field(repr=False)
+    result: object = field(repr=False)  # skyplan.planning.build.NightPlan
+
+    @property
+    def visits(self) -> list:
+        return self.result.visits
+
+    @property
+    def not_placed(self) -> list[tuple[str, str, str]]:
+        names = self.result.windows.names
+        return [(str(names[i]), code, text) for i, code, text in self.result.not_placed]
+
+    def __len__(self) -> int:
+        return len(self.result.visits)
+
+    def timeline(self) -> tuple:
+        """(edges, codes) of the per-target strips of the planned visits across the night
+        (None, None without visits), for the terminal table."""
+        from skyplan.engine import timeline
+
+        v = self.result.visits
+        if not v:
+            return None, None
+        return timeline.visit_timeline_codes(
+            self.result.windows, [x.target for x in v], [x.exposure_start for x in v],
+            [x.end for x in v])
+
+    def to_document(self) -> dict:
+        """The document ``skyplan plan --format json`` writes."""
+        from skyplan.render import planview
+
+        return planview.plan_document(self.result, self.site, time.time())
+
+    def to_records(self) -> list[dict]:
+        """One record per visit, as in the JSON ``observations`` (and NDJSON lines)."""
+        from skyplan.render import planview
+
+        return [planview.visit_record(v) for v in self.result.visits]
+
+    def to_table(self):
+        """An astropy QTable, one row per visit; times as UTC ``Time``, angles in deg."""
+        import astropy.units as u
+        from astropy.table import QTable
+
+        from skyplan.api.times import time_column
+
+        v = self.result.visits
+
+        def col(key, dtype=float):
+            return np.array([getattr(x, key) for x in v], dtype=dtype)
+
+        return QTable({
+            "seq": col("seq", int), "name": col("name", str),
+            "identifier": col("identifier", str), "repeat": col("repeat", int),
+            "start": time_column(col("start")),
+            "exposure_start": time_column(col("exposure_start")),
+            "end": time_column(col("end")), "exposure": col("exposure_s") * u.s,
+            "overhead": col("overhead_s") * u.s, "slew": col("slew_s") * u.s,
+            "ra": col("ra_date_deg") * u.deg, "dec": col("dec_date_deg") * u.deg,
+            "alt_mid": col("alt_mid_deg") * u.deg, "az_mid": col("az_mid_deg") * u.deg,
+            "airmass_mid": col("airmass_mid"), "hour_angle_mid": col("hour_angle_mid_h") * u.hour,
+            "moon_distance": col("moon_distance_deg") * u.deg,
+            "priority": col("priority", int), "best_airmass": col("best_airmass"),
+        })
+
+
+@as_warnings
+def plan(targets: Targets, site: Site, night: Night, limits: Limits | None = None,
+         settings: PlanSettings | None = None, *, computed: Windows | None = None,
+         **options) -> Plan:
+    """The night's visits in order, each target as high as the night allows.
+
+    ``options`` are those of :func:`plan_settings` (or pass ``settings`` made by it);
+    ``computed``: the targets' windows already computed with :func:`skyplan.windows`.
+    Raises :class:`skyplan.NothingObservable` when no target has a window.
+    """
+    from skyplan.planning import build
+
+    chosen = settings if settings is not None else plan_settings(**options)
+    if computed is None:
+        computed = windows(targets, site, night, limits)
+    res = computed.result
+    made = build.make_night_plan(res, targets.priority, targets.exposure_s,
+                                 chosen.overheads, chosen.options)
+    return Plan(site, night, made)
