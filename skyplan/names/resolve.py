@@ -39,14 +39,12 @@ import difflib
 import functools
 import re
 import sqlite3
-import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING
 
 import numpy as np
-from numpy.typing import ArrayLike
 
 from skyplan.errors import DataError, InputError
 
@@ -815,55 +813,3 @@ def resolve_many(
         rv, mag, otype, source,
     )
     return column, errors
-
-
-# --- space motion --------------------------------------------------------------------------
-
-
-class Propagated(NamedTuple):
-    ra_deg: np.ndarray
-    dec_deg: np.ndarray
-    pm_ra_masyr: np.ndarray  # mu_alpha cos(delta)
-    pm_dec_masyr: np.ndarray
-    parallax_mas: np.ndarray
-    radial_velocity_kms: np.ndarray
-
-
-_MAS_RAD = np.pi / (180.0 * 3600.0 * 1000.0)
-_J2000_JD = 2451545.0
-_JULIAN_YEAR_D = 365.25
-
-
-def propagate_to_epoch(
-    ra_deg: ArrayLike, dec_deg: ArrayLike, pm_ra_masyr: ArrayLike, pm_dec_masyr: ArrayLike,
-    parallax_mas: ArrayLike, radial_velocity_kms: ArrayLike, from_jyear: ArrayLike,
-    to_jyear: ArrayLike,
-) -> Propagated:
-    """Move catalogue positions from one Julian epoch to another by their space motion.
-
-    Rigorous space motion (straight line at constant velocity, including the change of
-    light time), ERFA ``eraPmsafe``/``eraStarpm`` (SOFA; the method of Kaplan et al. 1989,
-    AJ 97, 1197).  Vectorised; ``pm_ra_masyr`` is mu_alpha cos(delta).  A zero or NaN
-    parallax or radial velocity is taken as 0 (ERFA then uses a very small parallax, so the
-    motion is purely tangential).  Epochs are Julian years (TDB).
-    """
-    import erfa
-
-    ra, dec, pmr, pmd, px, rv, ep1, ep2 = np.broadcast_arrays(
-        *(np.asarray(v, dtype=float) for v in (ra_deg, dec_deg, pm_ra_masyr, pm_dec_masyr,
-                                               parallax_mas, radial_velocity_kms,
-                                               from_jyear, to_jyear)))
-    dec_rad = np.radians(dec)
-    cos_dec = np.maximum(np.cos(dec_rad), 1e-12)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", erfa.ErfaWarning)  # "distance overridden" for px = 0
-        ra2, dec2, pmr2, pmd2, px2, rv2 = erfa.pmsafe(
-            np.radians(ra), dec_rad, pmr * _MAS_RAD / cos_dec, pmd * _MAS_RAD,
-            np.nan_to_num(px) / 1000.0, np.nan_to_num(rv),
-            _J2000_JD, (ep1 - 2000.0) * _JULIAN_YEAR_D,
-            _J2000_JD, (ep2 - 2000.0) * _JULIAN_YEAR_D,
-        )
-    return Propagated(
-        np.degrees(ra2) % 360.0, np.degrees(dec2), pmr2 * np.cos(dec2) / _MAS_RAD,
-        pmd2 / _MAS_RAD, px2 * 1000.0, rv2,
-    )
