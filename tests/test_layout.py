@@ -34,9 +34,6 @@ ALLOWED_UPWARD = {
     ("skyplan.inputs.limits", "skyplan.engine.refraction"),
     # times are checked against the span of the bundled ephemeris
     ("skyplan.inputs.timeinput", "skyplan.engine.ephemeris"),
-    # orbital elements are read and propagated in one module (to be split: engine/kepler.py)
-    ("skyplan.inputs.orbits", "skyplan.engine.ephemeris"),
-    ("skyplan.inputs.orbits", "skyplan.engine.timescales"),
     # targets are built as the engine's own types (to move below both)
     ("skyplan.inputs.targets", "skyplan.engine.convert"),
     ("skyplan.inputs.targets", "skyplan.engine.windows"),
