@@ -19,6 +19,7 @@ from skyplan.engine import convert as conversion
 from skyplan.engine import frames
 from skyplan.engine.ephemeris import configure_astropy_offline, planets, timescale
 from skyplan.inputs.sites import Site
+from skyplan.targetdata import TargetSet
 
 configure_astropy_offline()
 
@@ -424,13 +425,8 @@ SITE = Site("round-trip site", 0.0, 0.0, 0.0, zone="UTC", pressure_hpa=1005.0,
             temperature_c=12.0, humidity=0.5)
 
 
-def positions(lon: float, lat: float) -> conversion.PositionList:
-    one = np.array
-    return conversion.PositionList(
-        names=one(["p"], dtype=object), lon_deg=one([lon]), lat_deg=one([lat]),
-        pm_ra_masyr=one([0.0]), pm_dec_masyr=one([0.0]), parallax_mas=one([0.0]),
-        rv_kms=one([0.0]), epoch_jyear=one([2000.0]), identifiers=one([""], dtype=object),
-    )
+def positions(lon: float, lat: float) -> TargetSet:
+    return TargetSet.fixed(["p"], [lon], [lat])
 
 
 def there_and_back(lon, lat, frame, unix, eq=2000.0, of_date=False):
@@ -576,7 +572,7 @@ def test_window_place_of_a_gaia_star_against_astropy(date: str) -> None:
 
     rows = FAST_STARS[2016.0]
     cols = [np.array(c, dtype=float) for c in zip(*rows, strict=True)]
-    targets = windows.TargetSet(np.array(["Barnard", "61 Cyg A", "Kapteyn"]), *cols,
+    targets = TargetSet(np.array(["Barnard", "61 Cyg A", "Kapteyn"]), *cols,
                                 np.full(3, 2016.0), np.array(["", "", ""], dtype=object))
     site = Site("test", 30.0, -17.0, 2000.0, zone="UTC")
     n = night.compute_night(site, dt.date.fromisoformat(date))

@@ -34,9 +34,6 @@ ALLOWED_UPWARD = {
     ("skyplan.inputs.limits", "skyplan.engine.refraction"),
     # times are checked against the span of the bundled ephemeris
     ("skyplan.inputs.timeinput", "skyplan.engine.ephemeris"),
-    # targets are built as the engine's own types (to move below both)
-    ("skyplan.inputs.targets", "skyplan.engine.convert"),
-    ("skyplan.inputs.targets", "skyplan.engine.windows"),
 }
 
 # Known cycles left (each a sorted tuple of the modules in it), owned by other parts.

@@ -327,3 +327,15 @@ def test_lost_and_usable_minutes_fill_the_span(which, n, with_bodies, lim, seed)
             star = there.observe(Star(ra_hours=ra[row] / 15.0, dec_degrees=dec[row])).apparent()
             gap = star.separation_from(moon[sel]).degrees
             assert np.all(gap >= lim.moon_gap_deg - 0.01)
+
+
+def test_target_kinds_and_rows() -> None:
+    from skyplan.targetdata import TargetSet
+
+    t = target_set([10.0, np.nan, np.nan], [20.0, np.nan, np.nan],
+                   body=["", "jupiter", "orbit:1P"])
+    assert list(t.kind) == ["fixed", "body", "orbit"]
+    assert list(t.take([2, 0]).names) == ["target 2", "target 0"]
+    assert len(t.rows(1, 3)) == 2
+    one = TargetSet.fixed(["p"], [1.0], [2.0])
+    assert list(one.kind) == ["fixed"] and one.epoch_jyear[0] == 2000.0

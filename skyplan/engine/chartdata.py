@@ -47,8 +47,9 @@ from skyplan.engine.scene import (
     TwilightEdges,
     Visit,
 )
-from skyplan.engine.windows import Sky, TargetSet, WindowResult, compute_windows
+from skyplan.engine.windows import Sky, WindowResult, compute_windows
 from skyplan.inputs.limits import Limits
+from skyplan.targetdata import TargetSet
 
 __all__ = [
     "CURVE_STEP_S",
@@ -137,8 +138,7 @@ def hour_ticks(t0: float, t1: float, zone: str, step_h: int = 1) -> tuple[np.nda
 
 def subset(targets: TargetSet, rows: Sequence[int] | np.ndarray) -> TargetSet:
     """The targets of ``rows``, in that order."""
-    rows = np.asarray(rows, dtype=np.int64)
-    return TargetSet(*(getattr(targets, f.name)[rows] for f in fields(targets)))
+    return targets.take(np.asarray(rows, dtype=np.int64))
 
 
 def chart_rows(result: WindowResult, priority=None, top: int | None = DEFAULT_CURVES) -> np.ndarray:

@@ -34,6 +34,7 @@ from skyplan.engine import bodies, events, frames, refraction, timescales
 from skyplan.engine import night as night_mod
 from skyplan.engine.intervals import Intervals, intersect
 from skyplan.inputs.limits import ORDER, Limits
+from skyplan.targetdata import TargetSet
 
 SIDEREAL_RATE = 2.0 * np.pi * 1.00273781191135448 / 86400.0  # ERA rate, rad/s (IERS 2010)
 # true (geometric) altitude of a star's centre at rising and setting: the apparent horizon
@@ -41,33 +42,6 @@ SIDEREAL_RATE = 2.0 * np.pi * 1.00273781191135448 / 86400.0  # ERA rate, rad/s (
 RISE_SET_ALT_DEG = -34.0 / 60.0
 SAMPLE_STEP_S = 300.0
 TOL_S = 0.5
-
-
-@dataclass(frozen=True)
-class TargetSet:
-    """What the windows engine needs about the targets (from a catalogue and name lookups)."""
-
-    names: np.ndarray
-    ra_deg: np.ndarray  # ICRS catalogue place (NaN for bodies)
-    dec_deg: np.ndarray
-    pm_ra_masyr: np.ndarray
-    pm_dec_masyr: np.ndarray
-    parallax_mas: np.ndarray
-    rv_kms: np.ndarray
-    epoch_jyear: np.ndarray
-    body: np.ndarray  # object array: body key ("moon", "jupiter", ...) or "" for fixed targets
-    identifiers: np.ndarray | None = None  # catalogue identifier of a resolved name, else ""
-
-    def __post_init__(self) -> None:
-        if self.identifiers is None:
-            object.__setattr__(self, "identifiers", np.full(len(self.names), "", dtype=object))
-
-    def __len__(self) -> int:
-        return len(self.names)
-
-    def rows(self, start: int, stop: int) -> TargetSet:
-        """Targets ``start`` to ``stop``, a block of the catalogue (views, not copies)."""
-        return TargetSet(*(getattr(self, f.name)[start:stop] for f in dataclasses.fields(self)))
 
 
 @dataclass(frozen=True)
