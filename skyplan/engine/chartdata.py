@@ -7,7 +7,7 @@
 * :func:`altitude_scene` — altitude against local time over one night: the targets, the
   Moon, the twilight edges, the limits and the planned visits.
 
-Targets go through :class:`skyplan.engine.windows.Sky` (vectorised over (target, time) pairs), so
+Targets go through :class:`skyplan.engine.sky.Sky` (vectorised over (target, time) pairs), so
 the charts show exactly the places the windows are computed from; whether the limits hold
 at an instant is read off the windows of :func:`skyplan.engine.windows.compute_windows`.
 
@@ -47,7 +47,8 @@ from skyplan.engine.scene import (
     TwilightEdges,
     Visit,
 )
-from skyplan.engine.windows import Sky, WindowResult, compute_windows
+from skyplan.engine.sky import Sky
+from skyplan.engine.windows import WindowResult, compute_windows
 from skyplan.inputs.limits import Limits
 from skyplan.targetdata import TargetSet
 

@@ -174,6 +174,6 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
 
 
 def _moon_distance(sky, rows, t, track) -> np.ndarray:
-    from skyplan.engine.windows import distance_margin
+    from skyplan.engine.sky import distance_margin
 
     return distance_margin(sky, track.t, track.moon_ra_deg, track.moon_dec_deg, 0.0)(rows, t)
