@@ -16,7 +16,7 @@ import pytest
 
 from skyplan.engine.frames import propagate
 from skyplan.errors import InputError
-from skyplan.names import resolve as names
+from skyplan.names import stars
 from skyplan.names.resolve import (
     STAR_NAMES_PATH,
     hipparcos_records,
@@ -190,17 +190,17 @@ def test_hip_lookup_falls_back_to_a_scan(tmp_path, newline):
     # (no longer fixed length): the table scans once instead; the values must not change.
     wanted = [1, 2, 91262, 120404]
     rec = hipparcos_records(wanted)
-    with names._hipparcos_path().open("rb") as f:
+    with stars.hipparcos_path().open("rb") as f:
         head = [f.readline() for _ in range(50)]
-    block, _ = names._hip_table().lines(np.array(wanted))
+    block, _ = stars.hip_table().lines(np.array(wanted))
     lines = [bytes(row).rstrip(b"\n") for row in block] + [h.rstrip(b"\n") for h in head[5:]]
     shuffled = tmp_path / "hip2.dat"
     shuffled.write_bytes(newline.join(lines[::-1]) + newline)
-    table = names._HipTable(shuffled)
+    table = stars.HipTable(shuffled)
     assert (table.rows is None) == (newline == b"\r\n")
     block2, found2 = table.lines(np.array(wanted + [55203]))
     assert found2.tolist() == [True] * 4 + [False]
-    fields = names._hip_fields(block2[:4])
+    fields = stars.hip_fields(block2[:4])
     np.testing.assert_array_equal(np.degrees(fields["ra_rad"]), rec["ra_deg"])
     np.testing.assert_array_equal(fields["parallax"], rec["parallax_mas"])
 
