@@ -543,7 +543,7 @@ def test_propagate_fast_stars_against_astropy(epoch: float, to_jyear: float) -> 
 def test_stars_from_another_epoch_carry_their_motion(epoch: float) -> None:
     # Stars.from_catalogue moves a row to J2000.0 and ERFA's star routines move it on to the
     # date (eraPmpx); that must land where astropy's apply_space_motion from the catalogue
-    # epoch lands (1 mas; keeping the catalogue epoch's proper motion was ~0.6″ off here)
+    # epoch lands (5 mas; keeping the catalogue epoch's proper motion was 0.45″–0.82″ off here)
     rows = FAST_STARS[epoch]
     stars = frames.Stars.from_catalogue(*(np.array(c) for c in zip(*rows, strict=True)),
                                         epoch_jyear=epoch)
@@ -581,7 +581,8 @@ def test_window_place_of_a_gaia_star_against_astropy(date: str) -> None:
     jyear = 2000.0 + (t.tt.jd - 2451545.0) / 365.25
     ref = astropy_space_motion(rows, 2016.0, jyear).transform_to(TETE(obstime=t))
     # astropy: space motion to the date, then ICRS → true equator and equinox of date
-    # (geocentric; the same ERFA chain).  Budget 0.05″; the engine's place is geocentric too.
+    # (geocentric; the same ERFA chain).  The brief's budget is 0.05″; measured ≤ 0.6 mas, so
+    # 0.01″ is asserted (the catalogue epoch's proper motion kept from J2000 gave 0.1″–1.0″).
     off = sep_arcsec(res.ra_date_deg, res.dec_date_deg, ref.ra.to_value(u.deg),
                      ref.dec.to_value(u.deg))
-    assert off.max() < 0.05
+    assert off.max() < 0.01

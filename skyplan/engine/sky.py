@@ -142,13 +142,12 @@ def moving_place(key: str, site, t: np.ndarray, orbits=()) -> tuple[np.ndarray, 
     """Topocentric apparent RA/Dec of date (degrees) of a body or an orbit at times ``t``."""
     if key.startswith("orbit:"):
         from skyplan.engine import kepler
-        from skyplan.names import resolve as names
+        from skyplan.names.bodies import find_orbit
 
-        el = names.find_orbit(key[len("orbit:"):], orbits)
+        el = find_orbit(key[len("orbit:"):], orbits)
         if el is None:
             raise KeyError(key)
-        return kepler.apparent_radec_of_date(el, t, site.lat_deg, site.lon_deg,
-                                                site.elevation_m)
+        return kepler.apparent_radec_of_date(el, t, site.lat_deg, site.lon_deg, site.elevation_m)
     p = bodies.topocentric(key, site.lat_deg, site.lon_deg, site.elevation_m, t)
     return p["ra_deg"], p["dec_deg"]
 
