@@ -28,6 +28,7 @@ from typing import NamedTuple
 import numpy as np
 
 from skyplan.engine import timescales
+from skyplan.targetdata import TargetSet
 
 FRAMES = ("icrs", "fk5", "apparent", "horizon", "ecliptic", "galactic")
 D2R = np.pi / 180.0
@@ -193,6 +194,13 @@ class Stars:
             px / 1000.0,
             rv,
         )
+
+    @classmethod
+    def from_targets(cls, targets: TargetSet) -> Stars:
+        """The fixed targets of a :class:`skyplan.targetdata.TargetSet` (all rows fixed)."""
+        return cls.from_catalogue(targets.ra_deg, targets.dec_deg, targets.pm_ra_masyr,
+                                  targets.pm_dec_masyr, targets.parallax_mas, targets.rv_kms,
+                                  targets.epoch_jyear)
 
     def cirs(self, astrom) -> tuple[np.ndarray, np.ndarray]:
         """CIRS RA/Dec (radians) through an ERFA astrom record (ERFA ``eraAtciq``)."""

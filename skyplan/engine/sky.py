@@ -49,10 +49,7 @@ class Sky:
         self.ra = np.zeros(n)
         self.dec = np.zeros(n)
         if fixed.any():
-            stars = frames.Stars.from_catalogue(
-                targets.ra_deg[fixed], targets.dec_deg[fixed], targets.pm_ra_masyr[fixed],
-                targets.pm_dec_masyr[fixed], targets.parallax_mas[fixed], targets.rv_kms[fixed],
-                targets.epoch_jyear[fixed])
+            stars = frames.Stars.from_targets(targets.take(fixed))
             ri, di, _ = frames.cirs_place(stars, t_mid)  # geocentric
             self.ra[fixed], self.dec[fixed] = ri, di
         self.eo = self.frame.eo

@@ -2,9 +2,8 @@
 
 Names are compared after normalisation: case and spacing do not matter, apostrophes are
 ignored and leading zeros of numbers are dropped (``m42``, ``M 042``, ``NGC0224``,
-``hip 27989``, ``rigil kentaurus`` all resolve).  Indexes are built once per process, on
-first use (the OpenNGC cross-identifiers only when a name is not a primary name); nothing is
-cached on disk.
+``hip 27989``, ``rigil kentaurus`` all resolve).  Catalogue names are printed with their
+prefix and number apart and without leading zeros ("NGC0224" -> "NGC 224").
 """
 
 from __future__ import annotations

@@ -4,7 +4,8 @@ The sources, each in its own module: deep-sky catalogues (:mod:`skyplan.names.de
 Hipparcos stars and star names (:mod:`skyplan.names.stars`), the Sun, Moon, planets and
 orbits (:mod:`skyplan.names.bodies`); how names are compared (:mod:`skyplan.names.keys`).
 This module decides which source answers a name, builds the result, and suggests the
-closest names when none does.
+closest names when none does.  Indexes are built once per process, on first use (the OpenNGC
+cross-identifiers only when a name is not a primary name); nothing is cached on disk.
 """
 
 from __future__ import annotations
