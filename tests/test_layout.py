@@ -15,8 +15,11 @@ import skyplan
 
 ROOT = Path(skyplan.__file__).parent
 
-# layer of a module → the layers it must not import
+LAYERS = ("inputs", "names", "engine", "planning", "render", "cli")
+# layer of a module → the layers it must not import; "" is the shared modules at the top of
+# the package (errors, notices, parallel, targetdata), which every layer may use
 FORBIDDEN = {
+    "": LAYERS,
     "inputs": ("engine", "planning", "render", "cli"),
     "names": ("engine", "planning", "render", "cli"),  # name lookups are input, like a catalogue
     "engine": ("planning", "render", "cli"),
@@ -64,7 +67,7 @@ def imports() -> dict[str, set[str]]:
                 if node.level:
                     up = package.split(".")[: len(package.split(".")) - node.level + 1]
                     base = ".".join([*up, base] if base else up)
-                targets = [f"{base}.{a.name}" for a in node.names] + [base]
+                targets = [f"{base}.{a.name}" for a in node.names]
             else:
                 continue
             for t in targets:
@@ -77,8 +80,11 @@ def imports() -> dict[str, set[str]]:
 
 
 def layer(module: str) -> str:
+    """The layer a module belongs to; ``skyplan.__main__`` (the entry point) is above all."""
     parts = module.split(".")
-    return parts[1] if len(parts) > 2 else ""
+    if module == "skyplan.__main__":
+        return "main"
+    return parts[1] if len(parts) > 1 and parts[1] in LAYERS else ""
 
 
 def upward_imports() -> set[tuple[str, str]]:
