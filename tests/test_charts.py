@@ -1,5 +1,6 @@
-"""Tests for skyplan.render.charts: files that parse, the requested size, markers where the
-projection puts them, readable layout, and byte-identical output for identical input.
+"""Tests for the charts (skyplan.render.sky_chart, altitude_chart, chartstyle): files that
+parse, the requested size, markers where the projection puts them, readable layout, and
+byte-identical output for identical input.
 
 Scenes are built by hand with invented numbers: these tests check drawing, not astronomy.
 References:
@@ -33,14 +34,10 @@ from skyplan.engine.scene import (
     Visit,
 )
 from skyplan.errors import InputError
-from skyplan.render.charts import (
-    altitude_figure,
-    draw_altitude,
-    draw_sky,
-    moon_lit_outline,
-    sky_figure,
-)
+from skyplan.render.altitude_chart import altitude_figure, draw_altitude
 from skyplan.render.projection import project
+from skyplan.render.sky_chart import draw_sky, sky_figure
+from skyplan.render.sky_marks import moon_lit_outline
 
 SVG = "{http://www.w3.org/2000/svg}"
 XLINK = "{http://www.w3.org/1999/xlink}"

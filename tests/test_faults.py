@@ -390,7 +390,7 @@ def test_damaged_iers_table_is_named(tmp_path: Path, capsys: pytest.CaptureFixtu
                                      damage) -> None:
     table = tmp_path / "finals2000A.all"
     table.write_text(damage(finals_lines()), encoding="latin-1")
-    monkeypatch.setattr(ephemeris, "iers_finals_path", lambda: table)
+    monkeypatch.setattr(timescales, "iers_finals_path", lambda: table)
     status, out, err = run(capsys, "clock", "--demo", "--at", "2026-12-18T21:00Z")
     assert status == EXIT_FAILURE and out == ""
     line = one_error_line(err)
@@ -404,7 +404,7 @@ def test_iers_table_cut_at_a_line_end_is_a_shorter_table(
     lines = finals_lines()
     table = tmp_path / "finals2000A.all"
     table.write_text("".join(lines[:12000]), encoding="ascii")  # 12000 days from 1973-01-02
-    monkeypatch.setattr(ephemeris, "iers_finals_path", lambda: table)
+    monkeypatch.setattr(timescales, "iers_finals_path", lambda: table)
     status, _, err = run(capsys, "clock", "--demo", "--at", "2026-12-18T21:00Z")
     assert status == 0
     # the last kept record's own date, columns 1-6 (YYMMDD, IERS ReadMe.finals2000A)

@@ -14,13 +14,13 @@ import time
 import numpy as np
 import pytest
 
+from skyplan.engine.frames import propagate
 from skyplan.errors import InputError
-from skyplan.names import resolve as names
+from skyplan.names import stars
 from skyplan.names.resolve import (
     STAR_NAMES_PATH,
     hipparcos_records,
     normalise,
-    propagate_to_epoch,
     resolve,
     resolve_many,
 )
@@ -131,7 +131,7 @@ def test_vega_against_hipparcos2():
     assert r.pm_ra_masyr == pytest.approx(200.94, abs=0.005)
     assert r.pm_dec_masyr == pytest.approx(286.23, abs=0.005)
     assert r.magnitude == pytest.approx(0.0868, abs=1e-4)
-    at_2000 = propagate_to_epoch(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
+    at_2000 = propagate(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
                                  r.parallax_mas, 0.0, 1991.25, 2000.0)
     # SIMBAD ICRS J2000 for Vega (from Hipparcos-2): 18 36 56.33635 +38 47 01.2802 (from memory)
     assert sep_arcsec(at_2000.ra_deg, at_2000.dec_deg,
@@ -167,7 +167,7 @@ def test_every_star_name_points_at_the_right_bright_star():
     assert faint == []
     # Hipparcos-2 moved to J2000 agrees with the IAU list's own J2000 position (which the
     # list computed mostly from Hipparcos-2) to better than 1 arcsec
-    j2000 = propagate_to_epoch(rec["ra_deg"], rec["dec_deg"], rec["pm_ra_masyr"],
+    j2000 = propagate(rec["ra_deg"], rec["dec_deg"], rec["pm_ra_masyr"],
                                rec["pm_dec_masyr"], rec["parallax_mas"], 0.0, 1991.25, 2000.0)
     listed_ra = np.array([float(row["ra_j2000_deg"]) for row in rows])
     listed_dec = np.array([float(row["dec_j2000_deg"]) for row in rows])
@@ -190,17 +190,17 @@ def test_hip_lookup_falls_back_to_a_scan(tmp_path, newline):
     # (no longer fixed length): the table scans once instead; the values must not change.
     wanted = [1, 2, 91262, 120404]
     rec = hipparcos_records(wanted)
-    with names._hipparcos_path().open("rb") as f:
+    with stars.hipparcos_path().open("rb") as f:
         head = [f.readline() for _ in range(50)]
-    block, _ = names._hip_table().lines(np.array(wanted))
+    block, _ = stars.hip_table().lines(np.array(wanted))
     lines = [bytes(row).rstrip(b"\n") for row in block] + [h.rstrip(b"\n") for h in head[5:]]
     shuffled = tmp_path / "hip2.dat"
     shuffled.write_bytes(newline.join(lines[::-1]) + newline)
-    table = names._HipTable(shuffled)
+    table = stars.HipTable(shuffled)
     assert (table.rows is None) == (newline == b"\r\n")
     block2, found2 = table.lines(np.array(wanted + [55203]))
     assert found2.tolist() == [True] * 4 + [False]
-    fields = names._hip_fields(block2[:4])
+    fields = stars.hip_fields(block2[:4])
     np.testing.assert_array_equal(np.degrees(fields["ra_rad"]), rec["ra_deg"])
     np.testing.assert_array_equal(fields["parallax"], rec["parallax_mas"])
 
@@ -285,7 +285,7 @@ def _astropy_coord(ra, dec, pmra, pmdec, plx, rv, jyear):
                                                                    scale="tdb"))
 
 
-def test_propagate_to_epoch_against_astropy():
+def test_propagate_against_astropy():
     from astropy.time import Time
 
     from skyplan.engine.ephemeris import configure_astropy_offline
@@ -296,7 +296,7 @@ def test_propagate_to_epoch_against_astropy():
     hips = [69673, 71683, 91262, 11767]
     rec = hipparcos_records(hips)
     rv = np.array([-5.2, -22.0, -13.9, -17.0])
-    mine = propagate_to_epoch(rec["ra_deg"], rec["dec_deg"], rec["pm_ra_masyr"],
+    mine = propagate(rec["ra_deg"], rec["dec_deg"], rec["pm_ra_masyr"],
                               rec["pm_dec_masyr"], rec["parallax_mas"], rv, 1991.25, 2031.5)
     ref = _astropy_coord(rec["ra_deg"], rec["dec_deg"], rec["pm_ra_masyr"], rec["pm_dec_masyr"],
                          rec["parallax_mas"], rv, 1991.25).apply_space_motion(
@@ -319,10 +319,10 @@ def test_apparent_place_of_a_catalogue_star_against_astropy():
     # Arcturus: 2.3"/yr proper motion, 89 mas parallax; date 2025-06-01 00:00 UTC
     r = resolve("Arcturus")
     date = Time("2025-06-01T00:00:00", scale="utc")
-    # ours: Hipparcos-2 at J1991.25 -> J2000 (propagate_to_epoch), then ERFA atci13
+    # ours: Hipparcos-2 at J1991.25 -> J2000 (propagate), then ERFA atci13
     # (ICRS J2000 -> CIRS of date: space motion to the date, parallax, light deflection,
     # aberration, precession-nutation; IAU 2006/2000A)
-    j2000 = propagate_to_epoch(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
+    j2000 = propagate(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
                                r.parallax_mas, 0.0, r.epoch_jyear, 2000.0)
     dec = np.radians(j2000.dec_deg)
     mas = np.radians(1 / 3.6e6)

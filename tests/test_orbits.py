@@ -1,4 +1,4 @@
-"""Tests for skyplan.inputs.orbits: MPC one-line elements and positions from Kepler orbits.
+"""Tests for skyplan.inputs.orbits (MPC one-line elements) and skyplan.engine.kepler (places).
 
 References:
 * Element lines: MPC MPCORB.DAT (1) Ceres, epoch 2020-05-31, and CometEls.txt lines for
@@ -25,12 +25,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from skyplan.engine.kepler import apparent_radec_of_date, orbit_positions
 from skyplan.errors import InputError
 from skyplan.inputs.orbits import (
     GAUSS_K,
     OrbitElements,
-    apparent_radec_of_date,
-    orbit_positions,
     parse_elements,
     parse_line,
     read_elements,

@@ -22,13 +22,13 @@ import pytest
 
 from skyplan import notices
 from skyplan.errors import InputError
-from skyplan.planning.dispatch import (
+from skyplan.planning.dispatch import make_plan
+from skyplan.planning.model import (
     REASONS,
+    PlanNight,
     PlanOptions,
     PlanRequest,
     SlewModel,
-    _Night,
-    make_plan,
     typical_slew_s,
 )
 from skyplan.planning.optimiser import (
@@ -485,7 +485,7 @@ def test_optimiser_matches_brute_force_on_tiny_problems(seed, coarse):
     # sample, the typical slew as the allowance and the airmass slack.
     req = tiny_request(seed)
     slack = 0.15 if coarse else None
-    night = _Night(req, PlanOptions(airmass_slack=slack))
+    night = PlanNight(req, PlanOptions(airmass_slack=slack))
     step = 2 * (req.slot_unix[1] - req.slot_unix[0]) if coarse else None
     allowance = typical_slew_s(night, 0.5) if coarse else None
     model = build_slot_model(night, step, allowance)

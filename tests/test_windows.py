@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from skyplan.engine import bodies, ephemeris, night, windows
+from skyplan.engine.sky import Sky
 from skyplan.inputs.limits import ORDER, Limits
 from skyplan.inputs.sites import HorizonProfile, Site, nautical_zone
 
@@ -139,7 +140,7 @@ def test_body_altitudes_match_skyfield() -> None:
     rng = np.random.default_rng(7)
     site, nt = site_night(-24.6, -70.4, 2600.0, "2025-04-12")
     keys = ["moon", "jupiter", "mars"]
-    sky = windows.Sky(target_set([np.nan] * 3, [np.nan] * 3, body=keys), site, nt,
+    sky = Sky(target_set([np.nan] * 3, [np.nan] * 3, body=keys), site, nt,
                       Limits(refraction_model="none"))
     obs = ephemeris.planets()["earth"] + wgs84.latlon(-24.6, -70.4, 2600.0)
     t = rng.uniform(nt.span_start, nt.span_end, 300)
@@ -182,7 +183,7 @@ def test_altitude_matches_astropy_at_random_pairs(astropy_offline) -> None:
         site, nt = site_night(lat, lon, elev, date)
         ra, dec = random_sky(rng, n_targets)
         plx = rng.uniform(0.1, 300.0, n_targets)
-        sky = windows.Sky(target_set(ra, dec, parallax=plx), site, nt,
+        sky = Sky(target_set(ra, dec, parallax=plx), site, nt,
                           Limits(refraction_model="none"))
         t = rng.uniform(nt.span_start, nt.span_end, n_times)
         rows, times = np.meshgrid(np.arange(n_targets), t, indexing="ij")
@@ -327,3 +328,15 @@ def test_lost_and_usable_minutes_fill_the_span(which, n, with_bodies, lim, seed)
             star = there.observe(Star(ra_hours=ra[row] / 15.0, dec_degrees=dec[row])).apparent()
             gap = star.separation_from(moon[sel]).degrees
             assert np.all(gap >= lim.moon_gap_deg - 0.01)
+
+
+def test_target_kinds_and_rows() -> None:
+    from skyplan.targetdata import TargetSet
+
+    t = target_set([10.0, np.nan, np.nan], [20.0, np.nan, np.nan],
+                   body=["", "jupiter", "orbit:1P"])
+    assert list(t.kind) == ["fixed", "body", "orbit"]
+    assert list(t.take([2, 0]).names) == ["target 2", "target 0"]
+    assert len(t.rows(1, 3)) == 2
+    one = TargetSet.fixed(["p"], [1.0], [2.0])
+    assert list(one.kind) == ["fixed"] and one.epoch_jyear[0] == 2000.0

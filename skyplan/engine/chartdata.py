@@ -7,7 +7,7 @@
 * :func:`altitude_scene` — altitude against local time over one night: the targets, the
   Moon, the twilight edges, the limits and the planned visits.
 
-Targets go through :class:`skyplan.engine.windows.Sky` (vectorised over (target, time) pairs), so
+Targets go through :class:`skyplan.engine.sky.Sky` (vectorised over (target, time) pairs), so
 the charts show exactly the places the windows are computed from; whether the limits hold
 at an instant is read off the windows of :func:`skyplan.engine.windows.compute_windows`.
 
@@ -47,8 +47,10 @@ from skyplan.engine.scene import (
     TwilightEdges,
     Visit,
 )
-from skyplan.engine.windows import Sky, TargetSet, WindowResult, compute_windows
+from skyplan.engine.sky import Sky
+from skyplan.engine.windows import WindowResult, compute_windows
 from skyplan.inputs.limits import Limits
+from skyplan.targetdata import TargetSet
 
 __all__ = [
     "CURVE_STEP_S",
@@ -137,8 +139,7 @@ def hour_ticks(t0: float, t1: float, zone: str, step_h: int = 1) -> tuple[np.nda
 
 def subset(targets: TargetSet, rows: Sequence[int] | np.ndarray) -> TargetSet:
     """The targets of ``rows``, in that order."""
-    rows = np.asarray(rows, dtype=np.int64)
-    return TargetSet(*(getattr(targets, f.name)[rows] for f in fields(targets)))
+    return targets.take(np.asarray(rows, dtype=np.int64))
 
 
 def chart_rows(result: WindowResult, priority=None, top: int | None = DEFAULT_CURVES) -> np.ndarray:

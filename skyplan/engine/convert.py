@@ -7,6 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from skyplan.engine import frames, refraction
+from skyplan.targetdata import TargetSet
 
 
 @dataclass(frozen=True)
@@ -21,24 +22,9 @@ class ConversionRequest:
 
 
 @dataclass(frozen=True)
-class PositionList:
-    """Positions in the input frame, with catalogue space motion where known (ICRS only)."""
-
-    names: np.ndarray
-    lon_deg: np.ndarray
-    lat_deg: np.ndarray
-    pm_ra_masyr: np.ndarray
-    pm_dec_masyr: np.ndarray
-    parallax_mas: np.ndarray
-    rv_kms: np.ndarray
-    epoch_jyear: np.ndarray
-    identifiers: np.ndarray  # catalogue identifier when a name was resolved, else ""
-
-
-@dataclass(frozen=True)
 class ConversionResult:
     request: ConversionRequest
-    positions: PositionList
+    positions: TargetSet  # as given, in the request's input frame
     lon_deg: np.ndarray  # RA, ecliptic longitude, galactic l or azimuth
     lat_deg: np.ndarray  # Dec, ecliptic latitude, galactic b or altitude
     icrs_ra_deg: np.ndarray
@@ -52,8 +38,8 @@ def _ecliptic_equinox(req: ConversionRequest) -> float:
     return frames.unix_to_jyear(req.unix) if req.ecliptic_of_date else 2000.0
 
 
-def _to_icrs(p: PositionList, req: ConversionRequest) -> tuple[np.ndarray, np.ndarray]:
-    lon, lat = p.lon_deg, p.lat_deg
+def _to_icrs(p: TargetSet, req: ConversionRequest) -> tuple[np.ndarray, np.ndarray]:
+    lon, lat = p.ra_deg, p.dec_deg
     f = req.from_frame
     if f == "icrs":
         return lon, lat
@@ -74,7 +60,7 @@ def _to_icrs(p: PositionList, req: ConversionRequest) -> tuple[np.ndarray, np.nd
     raise ValueError(f)
 
 
-def convert(p: PositionList, req: ConversionRequest) -> ConversionResult:
+def convert(p: TargetSet, req: ConversionRequest) -> ConversionResult:
     """Convert every position from ``req.from_frame`` to ``req.to_frame``.
 
     Rotations (fk5, ecliptic, galactic) act on the catalogue place as given; apparent and

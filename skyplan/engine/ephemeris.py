@@ -24,18 +24,14 @@ from pathlib import Path
 
 import numpy as np
 
+from skyplan.defaults import EPHEMERIS_FIRST, EPHEMERIS_LAST, EPHEMERIS_NAME
+from skyplan.engine import timescales
 from skyplan.errors import DataError, InputError
 
-# Span of DE421 as POSIX seconds (UTC, to the day; safely inside the kernel's own span).
-EPHEMERIS_NAME = "DE421"
-EPHEMERIS_FIRST = "1900-01-01"
-EPHEMERIS_LAST = "2053-10-01"
 DAF_RECORD_BYTES = 1024
 # Neighbouring Chebyshev records of DE421 meet within 3e-6 km (measured over every segment);
 # a gap above this means damaged coefficients.
 CONTINUITY_KM = 1.0
-UNIX_EPOCH_JD = 2440587.5
-TT_MINUS_TAI_S = 32.184
 
 
 def _span_unix() -> tuple[float, float]:
@@ -130,11 +126,9 @@ def planets():
     return kernel
 
 
-def iers_finals_path() -> Path:
-    """The IERS finals2000A.all (IERS Bulletin A series) table shipped by astropy-iers-data."""
-    from astropy_iers_data import IERS_A_FILE
-
-    return Path(IERS_A_FILE)
+# the IERS table's path, where it was before :mod:`skyplan.engine.timescales` (which reads it)
+# took it over; kept for callers of the old name
+iers_finals_path = timescales.iers_finals_path
 
 
 def delta_t_s(tt_jd: np.ndarray) -> np.ndarray:
@@ -144,13 +138,12 @@ def delta_t_s(tt_jd: np.ndarray) -> np.ndarray:
     so ΔT = (TAI − UTC) + 32.184 s − (UT1 − UTC).  UTC is found from TT by two passes over
     the leap-second table (one pass can land on the wrong side of a leap second).
     """
-    from skyplan.engine import timescales
-
-    tt_unix = (np.asarray(tt_jd, dtype=float) - UNIX_EPOCH_JD) * 86400.0 - TT_MINUS_TAI_S
+    tt_unix = (np.asarray(tt_jd, dtype=float) - timescales.UNIX_EPOCH_JD) * timescales.DAY_S \
+        - timescales.TT_MINUS_TAI_S
     tai_utc = timescales.tai_minus_utc_s(tt_unix - 37.0)
     tai_utc = timescales.tai_minus_utc_s(tt_unix - tai_utc)
     utc = tt_unix - tai_utc
-    return tai_utc + TT_MINUS_TAI_S - timescales.dut1_s(utc)
+    return tai_utc + timescales.TT_MINUS_TAI_S - timescales.dut1_s(utc)
 
 
 @functools.cache
@@ -159,9 +152,7 @@ def timescale():
     from skyfield.data import iers
     from skyfield.timelib import Timescale
 
-    from skyplan.engine.timescales import earth_orientation
-
-    eo = earth_orientation()
+    eo = timescales.earth_orientation()
     _, _, leap_dates, leap_offsets = iers.build_timescale_arrays(eo.mjd, eo.dut1_s)
     ts = Timescale(delta_t_s, leap_dates, leap_offsets)
     table = np.zeros(

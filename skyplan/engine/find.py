@@ -18,8 +18,7 @@ class Found:
 
 def look_up(names: list[str], orbits, unix: float) -> list[Found]:
     """Resolve each name; bodies and orbits get their geocentric astrometric place at ``unix``."""
-    from skyplan.engine import bodies, frames
-    from skyplan.inputs import orbits as orbit_mod
+    from skyplan.engine import bodies, frames, kepler
     from skyplan.names import resolve as resolver
 
     out = []
@@ -31,12 +30,12 @@ def look_up(names: list[str], orbits, unix: float) -> list[Found]:
             ra, dec, dist = float(ra[0]), float(dec[0]), float(km[0]) / 149_597_870.7
         elif r.kind == "orbit":
             el = resolver.find_orbit(name, orbits)
-            ra_a, dec_a, au = orbit_mod.orbit_positions(el, np.array([unix]))
+            ra_a, dec_a, au = kepler.orbit_positions(el, np.array([unix]))
             ra, dec, dist = float(ra_a[0]), float(dec_a[0]), float(au[0])
         elif r.epoch_jyear != 2000.0 and (r.pm_ra_masyr or r.pm_dec_masyr):
-            a, d = frames.propagate(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
-                                    r.parallax_mas, r.radial_velocity_kms, r.epoch_jyear, 2000.0)
-            ra, dec = float(np.ravel(a)[0]), float(np.ravel(d)[0])
+            at = frames.propagate(r.ra_deg, r.dec_deg, r.pm_ra_masyr, r.pm_dec_masyr,
+                                  r.parallax_mas, r.radial_velocity_kms, r.epoch_jyear, 2000.0)
+            ra, dec = float(np.ravel(at.ra_deg)[0]), float(np.ravel(at.dec_deg)[0])
         else:
             ra, dec = r.ra_deg, r.dec_deg
         out.append(Found(r, unix, ra, dec, dist))

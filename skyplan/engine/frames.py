@@ -23,10 +23,12 @@ from __future__ import annotations
 import functools
 import warnings
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
 from skyplan.engine import timescales
+from skyplan.targetdata import TargetSet
 
 FRAMES = ("icrs", "fk5", "apparent", "horizon", "ecliptic", "galactic")
 D2R = np.pi / 180.0
@@ -100,26 +102,47 @@ def ecliptic_matrix(equinox_jyear: float) -> np.ndarray:
 # ---------------------------------------------------------------- space motion
 
 
+class Propagated(NamedTuple):
+    """A catalogue entry at another epoch: place, proper motion, parallax, radial velocity."""
+
+    ra_deg: np.ndarray
+    dec_deg: np.ndarray
+    pm_ra_masyr: np.ndarray  # μα·cosδ
+    pm_dec_masyr: np.ndarray
+    parallax_mas: np.ndarray
+    radial_velocity_kms: np.ndarray
+
+
 def propagate(
     ra_deg, dec_deg, pm_ra_masyr, pm_dec_masyr, parallax_mas, rv_kms, from_jyear, to_jyear
-) -> tuple[np.ndarray, np.ndarray]:
-    """Move catalogue positions from one epoch to another with their space motion.
+) -> Propagated:
+    """Move catalogue entries from one Julian epoch (TT) to another by their space motion.
 
-    ERFA ``eraPmsafe`` (rigorous space motion, Kaplan 2005); μα is given as μα·cosδ.
+    Rigorous space motion — a straight line at constant velocity, with the change of light
+    time — by ERFA ``eraPmsafe``/``eraStarpm`` (SOFA; Kaplan et al. 1989, AJ 97, 1197).
+    Vectorised; μα is given as μα·cosδ.  The proper motions, parallax and radial velocity
+    at the new epoch come back too: the motion seen from another epoch differs (perspective
+    acceleration), so a place moved on must carry them with it.  A zero or NaN parallax or
+    radial velocity is taken as 0 (ERFA then uses a very small parallax, so the motion is
+    purely tangential, and the parallax returned stays 0).
     """
     import erfa
 
-    ra = np.asarray(ra_deg, dtype=float) * D2R
-    dec = np.asarray(dec_deg, dtype=float) * D2R
-    pmr = np.asarray(pm_ra_masyr, dtype=float) * MAS_RAD / np.maximum(np.cos(dec), 1e-12)
-    pmd = np.asarray(pm_dec_masyr, dtype=float) * MAS_RAD
-    px = np.asarray(parallax_mas, dtype=float) / 1000.0
-    e1 = jyear_to_jd_tt(np.asarray(from_jyear, dtype=float))
-    e2 = jyear_to_jd_tt(np.asarray(to_jyear, dtype=float))
+    ra, dec, pmr, pmd, px, rv, ep1, ep2 = np.broadcast_arrays(
+        *(np.asarray(v, dtype=float) for v in (ra_deg, dec_deg, pm_ra_masyr, pm_dec_masyr,
+                                               parallax_mas, rv_kms, from_jyear, to_jyear)))
+    px, rv = np.nan_to_num(px), np.nan_to_num(rv)
+    dec_rad = dec * D2R
+    e1, e2 = jyear_to_jd_tt(ep1), jyear_to_jd_tt(ep2)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # ERFA warns about tiny parallaxes it clamps
-        out = erfa.pmsafe(ra, dec, pmr, pmd, px, rv_kms, e1[0], e1[1], e2[0], e2[1])
-    return np.degrees(out[0]) % 360.0, np.degrees(out[1])
+        ra2, dec2, pmr2, pmd2, px2, rv2 = erfa.pmsafe(
+            ra * D2R, dec_rad, pmr * MAS_RAD / np.maximum(np.cos(dec_rad), 1e-12),
+            pmd * MAS_RAD, px / 1000.0, rv, e1[0], e1[1], e2[0], e2[1])
+    return Propagated(
+        np.degrees(ra2) % 360.0, np.degrees(dec2), pmr2 * np.cos(dec2) / MAS_RAD,
+        pmd2 / MAS_RAD, np.where(px > 0, px2 * 1000.0, 0.0), rv2,
+    )
 
 
 @dataclass(frozen=True)
@@ -144,16 +167,24 @@ class Stars:
         rv_kms=0.0,
         epoch_jyear=2000.0,
     ) -> Stars:
+        """Stars from catalogue columns at any epoch, moved to J2000.0 when they move.
+
+        The place *and* the space motion are moved to J2000.0 (:func:`propagate`), since
+        ERFA's star routines apply the motion from J2000.0 on.
+        """
         n = np.broadcast(ra_deg, dec_deg).shape
-        full = [
-            np.broadcast_to(np.asarray(a, dtype=float), n)
-            for a in (ra_deg, dec_deg, pm_ra_masyr, pm_dec_masyr, parallax_mas, rv_kms, epoch_jyear)
-        ]
-        ra, dec, pmra, pmdec, px, rv, ep = full
-        moving = (pmra != 0) | (pmdec != 0) | (rv != 0)
-        if np.any(moving & (ep != 2000.0)):
-            ra, dec = propagate(ra, dec, pmra, pmdec, px, rv, ep, 2000.0)
-            ra, dec = np.where(moving, ra, full[0]), np.where(moving, dec, full[1])
+        ra, dec, pmra, pmdec, px, rv, ep = (
+            np.array(np.broadcast_to(np.asarray(a, dtype=float), n))
+            for a in (ra_deg, dec_deg, pm_ra_masyr, pm_dec_masyr, parallax_mas, rv_kms,
+                      epoch_jyear))
+        px, rv = np.nan_to_num(px), np.nan_to_num(rv)
+        moved = ((pmra != 0) | (pmdec != 0) | (rv != 0)) & (ep != 2000.0)
+        if np.any(moved):
+            at = propagate(ra[moved], dec[moved], pmra[moved], pmdec[moved], px[moved],
+                           rv[moved], ep[moved], 2000.0)
+            ra[moved], dec[moved] = at.ra_deg, at.dec_deg
+            pmra[moved], pmdec[moved] = at.pm_ra_masyr, at.pm_dec_masyr
+            px[moved], rv[moved] = at.parallax_mas, at.radial_velocity_kms
         decr = dec * D2R
         return cls(
             ra * D2R,
@@ -161,9 +192,15 @@ class Stars:
             pmra * MAS_RAD / np.maximum(np.cos(decr), 1e-12),
             pmdec * MAS_RAD,
             px / 1000.0,
-            rv.copy(),
+            rv,
         )
 
+    @classmethod
+    def from_targets(cls, targets: TargetSet) -> Stars:
+        """The fixed targets of a :class:`skyplan.targetdata.TargetSet` (all rows fixed)."""
+        return cls.from_catalogue(targets.ra_deg, targets.dec_deg, targets.pm_ra_masyr,
+                                  targets.pm_dec_masyr, targets.parallax_mas, targets.rv_kms,
+                                  targets.epoch_jyear)
 
     def cirs(self, astrom) -> tuple[np.ndarray, np.ndarray]:
         """CIRS RA/Dec (radians) through an ERFA astrom record (ERFA ``eraAtciq``)."""

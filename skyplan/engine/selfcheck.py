@@ -74,7 +74,7 @@ def _ecliptic() -> Check:
 
 
 def _rising() -> Check:
-    from skyplan.engine.windows import half_arc
+    from skyplan.engine.limitintervals import half_arc
 
     h = float(np.degrees(half_arc(42.3333, np.radians(18.44092), -0.5667)))
     return Check("Venus at Boston, hour angle of rising (1988-03-20)",

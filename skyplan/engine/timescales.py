@@ -21,6 +21,7 @@ from __future__ import annotations
 import functools
 import warnings
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
@@ -169,13 +170,18 @@ def _reads_as(kind: type, text: str) -> bool:
 _handed: list[EarthOrientation] = []  # a table parsed by a worker, for the next call below
 
 
+def iers_finals_path() -> Path:
+    """The IERS finals2000A.all (IERS Bulletin A series) table shipped by astropy-iers-data."""
+    from astropy_iers_data import IERS_A_FILE
+
+    return Path(IERS_A_FILE)
+
+
 @functools.cache
 def earth_orientation() -> EarthOrientation:
     """The bundled IERS table, parsed once per process (or handed over by a worker)."""
     if _handed:
         return _handed.pop()
-    from skyplan.engine.ephemeris import iers_finals_path
-
     path = iers_finals_path()
     try:
         return _parse_finals(path.read_bytes(), str(path))

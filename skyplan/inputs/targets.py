@@ -8,6 +8,7 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
+from skyplan.targetdata import TargetSet
 
 BODY_NAMES = ("sun", "moon", "mercury", "venus", "mars", "jupiter", "saturn", "uranus",
               "neptune", "pluto")
@@ -33,32 +34,24 @@ def load_catalog(path: str | Path, *, skip_bad: bool = False):
 
 
 def positions_from_catalog(cat):
-    """A PositionList from a catalogue; rows with a name only are looked up first.
+    """Fixed targets from a catalogue; rows with a name only are looked up first.
 
     Every name that does not resolve, and every Sun, Moon, planet or orbit (they move, and
     ``convert`` takes fixed targets), is an error naming its line.
     """
-    from skyplan.engine.convert import PositionList
-
-    tset, ident = target_set(cat)
+    tset, _ = target_set(cat)
     moving = np.flatnonzero(tset.body != "")
     if moving.size:
         problems = [InputError(f"{cat.name[i]!r} moves: convert takes fixed targets; use "
                                "'skyplan windows' or 'skyplan find' for it", file=cat.source,
                                line=int(cat.line[i]), field="name") for i in moving]
         raise InputErrors(problems) if len(problems) > 1 else problems[0]
-    return PositionList(
-        names=cat.name, lon_deg=tset.ra_deg, lat_deg=tset.dec_deg,
-        pm_ra_masyr=tset.pm_ra_masyr, pm_dec_masyr=tset.pm_dec_masyr,
-        parallax_mas=tset.parallax_mas, rv_kms=tset.rv_kms, epoch_jyear=tset.epoch_jyear,
-        identifiers=ident,
-    )
+    return tset
 
 
 def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = False,
                            demo: bool = False):
-    """A PositionList from ``convert``'s arguments."""
-    from skyplan.engine.convert import PositionList
+    """The targets of ``convert``'s arguments (positions in the ``frame`` given)."""
     from skyplan.inputs import angles, scenario
 
     if not args:
@@ -83,13 +76,7 @@ def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = Fals
             if _looks_numeric(args[0]) or _looks_numeric(args[1]):
                 raise InputError(str(exc), field="position") from None
         else:
-            one = np.array
-            return PositionList(
-                names=one([f"{args[0]} {args[1]}"], dtype=object), lon_deg=one([lon]),
-                lat_deg=one([lat]), pm_ra_masyr=one([0.0]), pm_dec_masyr=one([0.0]),
-                parallax_mas=one([0.0]), rv_kms=one([0.0]), epoch_jyear=one([2000.0]),
-                identifiers=one([""], dtype=object),
-            )
+            return TargetSet.fixed([f"{args[0]} {args[1]}"], [lon], [lat])
     looks_like_path = "/" in args[0] or "." in Path(args[0]).suffix
     if len(args) == 1 and (_looks_numeric(args[0]) or looks_like_path):
         raise InputError(f"{args[0]!r} is not a file that exists, nor a target name",
@@ -103,7 +90,6 @@ def _looks_numeric(text: str) -> bool:
 
 def positions_from_names(names: list[str], frame: str):
     """Resolve target names offline (catalogue objects, bright stars)."""
-    from skyplan.engine.convert import PositionList
     from skyplan.names import resolve as resolver
 
     if frame != "icrs":
@@ -115,21 +101,22 @@ def positions_from_names(names: list[str], frame: str):
                          "'skyplan windows' or 'skyplan find' for the Sun, Moon and planets",
                          field="position")
     arr = np.array
-    return PositionList(
+    return TargetSet(
         names=arr([r.query for r in found], dtype=object),
-        lon_deg=arr([r.ra_deg for r in found], dtype=float),
-        lat_deg=arr([r.dec_deg for r in found], dtype=float),
+        ra_deg=arr([r.ra_deg for r in found], dtype=float),
+        dec_deg=arr([r.dec_deg for r in found], dtype=float),
         pm_ra_masyr=arr([r.pm_ra_masyr for r in found], dtype=float),
         pm_dec_masyr=arr([r.pm_dec_masyr for r in found], dtype=float),
         parallax_mas=arr([r.parallax_mas for r in found], dtype=float),
         rv_kms=arr([0.0 for _ in found]),
         epoch_jyear=arr([r.epoch_jyear for r in found], dtype=float),
+        body=np.full(len(found), "", dtype=object),
         identifiers=arr([r.identifier for r in found], dtype=object),
     )
 
 
 def target_set(cat, *, orbits=(), source: str | None = None):
-    """The windows engine's TargetSet from a catalogue: name-only rows resolved offline.
+    """The targets of a catalogue: name-only rows resolved offline.
 
     Rows with coordinates are used as given.  Rows with a name only are looked up (catalogue
     objects, Hipparcos stars, proper names, the Sun/Moon/planets, orbits from an elements
@@ -137,8 +124,6 @@ def target_set(cat, *, orbits=(), source: str | None = None):
     Returns (TargetSet, identifiers) where identifiers holds the catalogue identifier of each
     resolved row ("" for rows given with coordinates).
     """
-    from skyplan.engine.windows import TargetSet
-
     n = len(cat)
     ra, dec = cat.ra_deg.copy(), cat.dec_deg.copy()
     pmra, pmdec = cat.pm_ra_masyr.copy(), cat.pm_dec_masyr.copy()

@@ -19,7 +19,7 @@ import re
 from zoneinfo import ZoneInfo
 
 from skyplan import notices
-from skyplan.engine.ephemeris import EPHEMERIS_FIRST, EPHEMERIS_LAST, EPHEMERIS_NAME
+from skyplan.defaults import EPHEMERIS_FIRST, EPHEMERIS_LAST, EPHEMERIS_NAME
 from skyplan.errors import InputError
 
 _OUTSIDE = (f"outside the span of the bundled {EPHEMERIS_NAME} ephemeris "

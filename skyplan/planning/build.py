@@ -16,6 +16,7 @@ from skyplan.engine import airmass as am
 from skyplan.engine import events
 from skyplan.errors import NothingObservable
 from skyplan.planning import dispatch as scheduling
+from skyplan.planning import model
 
 SLOT_STEP_S = 120.0
 
@@ -61,7 +62,7 @@ class PlannedVisit:
 class NightPlan:
     visits: list[PlannedVisit]
     not_placed: list[tuple[int, str, str]]  # (target, reason code, explanation)
-    metrics: scheduling.PlanMetrics
+    metrics: model.PlanMetrics
     overheads: Overheads
     windows: object  # the WindowResult the plan was made from
     priority: np.ndarray  # per target of the catalogue
@@ -95,7 +96,7 @@ SCHEDULER_TEXT = {
 
 
 def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads: Overheads,
-                    options: scheduling.PlanOptions, progress=None) -> NightPlan:
+                    options: model.PlanOptions, progress=None) -> NightPlan:
     """Schedule the targets that have windows; explain every target left out."""
     n = len(res.names)
     has = np.zeros(n, bool)
@@ -116,7 +117,7 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     remap[idx] = np.arange(len(idx))
     keep = has[res.windows.rows]
     exp = np.where(np.isfinite(exposure_s[idx]), exposure_s[idx], overheads.default_exposure_s)
-    req = scheduling.PlanRequest(
+    req = model.PlanRequest(
         slot_unix=slots, win_target=remap[res.windows.rows[keep]],
         win_start_unix=res.windows.start[keep], win_end_unix=res.windows.end[keep],
         exposure_s=exp, repeats=np.full(len(idx), overheads.repeats),
@@ -124,7 +125,7 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
         best_airmass=res.best_airmass[idx],
         sun_flag=res.near_sun[idx] | res.daylight_window[idx],
         airmass=x, alt_deg=alt, az_deg=az, setup_s=overheads.setup_s,
-        slew=scheduling.SlewModel(overheads.slew_az_deg_s, overheads.slew_alt_deg_s,
+        slew=model.SlewModel(overheads.slew_az_deg_s, overheads.slew_alt_deg_s,
                                   overheads.settle_s),
     )
     plan = scheduling.make_plan(req, options)
@@ -174,6 +175,6 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
 
 
 def _moon_distance(sky, rows, t, track) -> np.ndarray:
-    from skyplan.engine.windows import distance_margin
+    from skyplan.engine.sky import distance_margin
 
     return distance_margin(sky, track.t, track.moon_ra_deg, track.moon_dec_deg, 0.0)(rows, t)

@@ -57,7 +57,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from skyplan.planning.dispatch import _Night
+    from skyplan.planning.model import PlanNight
 
 _MIN_SHARE = 4  # starts every target keeps when pruning, whatever the budget
 # Airmass per top-priority visit by which the later stages may raise the top priority's held
@@ -110,7 +110,7 @@ class SolveResult:
 
 
 def build_slot_model(
-    night: _Night, step_s: float | None = None, allowance_s: float | None = None
+    night: PlanNight, step_s: float | None = None, allowance_s: float | None = None
 ) -> SlotModel:
     """Every (target, start slot) whose whole reserved block fits inside one window.
 
