@@ -542,6 +542,7 @@ def test_propagate_fast_stars_against_astropy(epoch: float, to_jyear: float) -> 
                                ref.radial_velocity.to_value("km/s"), atol=1e-3)
 
 
+@pytest.mark.filterwarnings("ignore::erfa.ErfaWarning")
 @pytest.mark.parametrize("epoch", [1991.25, 2016.0])
 def test_stars_from_another_epoch_carry_their_motion(epoch: float) -> None:
     # Stars.from_catalogue moves a row to J2000.0 and ERFA's star routines move it on to the
