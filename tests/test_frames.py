@@ -566,6 +566,7 @@ def test_stars_from_another_epoch_carry_their_motion(epoch: float) -> None:
 
 
 @pytest.mark.filterwarnings("ignore::erfa.ErfaWarning")
+@pytest.mark.filterwarnings("ignore:Tried to get polar motions")
 @pytest.mark.parametrize("date", ["1995-03-20", "2016-09-01", "2048-06-21"])
 def test_window_place_of_a_gaia_star_against_astropy(date: str) -> None:
     """The apparent place the windows engine uses, for Gaia-epoch rows of fast stars."""
