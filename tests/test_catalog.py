@@ -27,6 +27,13 @@ RA_A = (5 + 35 / 60 + 17.3 / 3600) * 15
 DEC_A = -(5 + 23 / 60 + 28 / 3600)
 
 
+@pytest.fixture(autouse=True)
+def fast_path_for_small_files(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Files of any size take polars' fast path where they qualify (the size limit only
+    spares small files the import), so that these small files check it."""
+    monkeypatch.setattr(delimited, "FAST_FROM_ROWS", 1)
+
+
 def write(tmp_path: Path, name: str, text: str) -> Path:
     path = tmp_path / name
     path.write_text(text, encoding="utf-8")

@@ -16,7 +16,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
-BLOCK = 50_000  # targets computed (and then written) at a time
+BLOCK = 20_000  # targets computed (and then written) at a time
 
 
 @dataclass(frozen=True)

@@ -5,9 +5,10 @@ starting with ``#``, blank lines and lines of separators only are skipped; line 
 the lines of the file as an editor shows them.  A row with fewer fields than the header has
 its missing trailing fields empty; a row with more is a problem of that row.
 
-Text without quote characters in which every line holds a row takes a fast path: polars'
-CSV reader splits it into columns (:class:`Cells`) that stay polars strings until a column's
-text is needed, and plain decimal columns are read as numbers at once.  Anything irregular
+Text of more than :data:`FAST_FROM_ROWS` rows, without quote characters, in which every line
+holds a row takes a fast path: polars' CSV reader splits it into columns (:class:`Cells`)
+that stay polars strings until a column's text is needed, and plain decimal columns are read
+as numbers at once.  Anything irregular
 (quotes, comments, blank lines, rows of another width, whatever polars refuses) goes through
 :mod:`csv`, which also names what is wrong.
 """
@@ -29,6 +30,7 @@ from skyplan.errors import InputError
 MAX_FIELD_CHARS = 1000  # longer fields are refused (per row)
 MAX_ROWS = 5_000_000  # more data rows than this refuses the whole file
 MAX_FILE_BYTES = 1 << 30  # larger text files are refused before reading
+FAST_FROM_ROWS = 2000  # smaller files go through csv: importing polars would take longer
 BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 
@@ -315,7 +317,8 @@ def read_grid(path: Path, source: str, delimiter: str | None) -> Grid:
     else:
         lines, content = _content_lines(text, delimiter, source)
         if content:
-            grid = _split_regular(text, len(content), delimiter) if lines is None else None
+            fast = lines is None and len(content) > FAST_FROM_ROWS
+            grid = _split_regular(text, len(content), delimiter) if fast else None
             if grid is None:
                 lines = _lines(text) if lines is None else lines
                 grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source))
