@@ -7,7 +7,8 @@ polars from that frame.  A new output field is added to :data:`FIELDS` alone.
 Values: numbers rounded to the places given here (NaN and infinities are null), instants as
 ISO 8601 UTC text to the second with ``Z`` (null where an event does not happen), windows
 as a list of ``{start, end, minutes}``, the minutes lost to each limit as one object, and
-``identifier`` only in the records of targets whose name was resolved.  CSV flattens the
+``identifier`` only in the records of targets whose name was resolved (in Parquet, a column
+that is null elsewhere).  CSV flattens the
 record: ``identifier`` second (when any target has one), the windows as ``START/END``
 pairs joined by ``;`` after the plain fields, then ``lost_<limit>_min`` per limit; flags
 are written ``True``/``False`` and missing values as empty fields.
