@@ -2,19 +2,27 @@
 computed block by block of targets, so that a million-target run never holds every
 intermediate array at once.
 
-One process does it all: measured on the project's machine (docs/performance.md), worker
-processes gained no wall time at 100,000 targets and about a tenth at 1,000,000, for a
-great deal of machinery.  Problems and notices come in the order the inputs are read:
-site (by the caller), limits, date, the night (its data files), the elements file, the
-catalogue.
+One process does it all: on the project's machine worker processes gained no wall time at
+100,000 targets, and one process meets the speed and memory goals at 100,000 and
+1,000,000 targets (docs/performance.md).  Problems and notices come in the order the
+inputs are read: site (by the caller), limits, date, the night (its data files), the
+elements file, the catalogue.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from skyplan.engine.night import Night
+    from skyplan.engine.windows import TargetSet, WindowResult
+    from skyplan.inputs.catalog import Catalog
+    from skyplan.inputs.limits import Limits
+    from skyplan.inputs.orbits import OrbitElements
+    from skyplan.inputs.sites import Site
 
 BLOCK = 20_000  # targets computed (and then written) at a time
 
@@ -23,14 +31,14 @@ BLOCK = 20_000  # targets computed (and then written) at a time
 class WindowRun:
     """Everything a windows computation needs, read and checked."""
 
-    site: Any
-    limits: Any
-    night: Any
-    targets: Any  # skyplan.engine.windows.TargetSet
-    orbits: Any = ()
+    site: Site
+    limits: Limits
+    night: Night
+    targets: TargetSet
+    orbits: Sequence[OrbitElements] = ()
 
 
-def night_date(site, date_text: str | None, demo: bool) -> dt.date:
+def night_date(site: Site, date_text: str | None, demo: bool) -> dt.date:
     """The local date whose evening starts the night, checked against the ephemeris span."""
     from skyplan.engine import ephemeris
     from skyplan.inputs import scenario, timeinput
@@ -52,7 +60,7 @@ def catalogue_path(catalog: str | None, demo: bool) -> str | None:
     return catalog
 
 
-def read_catalogue(path: str | None, skip_bad: bool):
+def read_catalogue(path: str | None, skip_bad: bool) -> Catalog:
     from skyplan.errors import InputError
     from skyplan.inputs import targets
 
@@ -62,7 +70,7 @@ def read_catalogue(path: str | None, skip_bad: bool):
     return targets.load_catalog(path, skip_bad=skip_bad)
 
 
-def read_orbits(elements: str | None):
+def read_orbits(elements: str | None) -> Sequence[OrbitElements]:
     if not elements:
         return ()
     from skyplan.inputs import orbits
@@ -70,8 +78,8 @@ def read_orbits(elements: str | None):
     return orbits.read_elements(elements)
 
 
-def window_inputs(site, limits_kw: dict, *, date: str | None = None, catalog: str | None = None,
-                  demo: bool = False, skip_bad: bool = False,
+def window_inputs(site: Site, limits_kw: dict, *, date: str | None = None,
+                  catalog: str | None = None, demo: bool = False, skip_bad: bool = False,
                   elements: str | None = None) -> WindowRun:
     """Limits, night, orbits and targets of a windows run at ``site`` (a resolved Site)."""
     from skyplan.engine import night
@@ -86,7 +94,7 @@ def window_inputs(site, limits_kw: dict, *, date: str | None = None, catalog: st
     return WindowRun(site, lim, the_night, tset, orbits)
 
 
-def window_result(run: WindowRun):
+def window_result(run: WindowRun) -> WindowResult:
     """The windows of every target at once (for the table, small documents and planning)."""
     from skyplan.engine import windows
 
@@ -94,7 +102,7 @@ def window_result(run: WindowRun):
                                    orbits=run.orbits)
 
 
-def window_blocks(run: WindowRun, block: int | None = None) -> Iterator:
+def window_blocks(run: WindowRun, block: int | None = None) -> Iterator[WindowResult]:
     """The windows of targets ``0..block``, ``block..2 block``, ... (default :data:`BLOCK`)
     in order, each computed when asked for (one empty result for an empty catalogue)."""
     from skyplan.engine import windows

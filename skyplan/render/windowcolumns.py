@@ -17,10 +17,16 @@ are written ``True``/``False`` and missing values as empty fields.
 from __future__ import annotations
 
 import io
-from collections.abc import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+if TYPE_CHECKING:
+    import polars as pl
+
+    from skyplan.engine.windows import WindowResult
 
 TEXT, NUMBER, INSTANT, FLAG, WINDOWS, LOST, OPTIONAL_TEXT = (
     "text", "number", "instant", "flag", "windows", "lost", "optional text")
@@ -40,7 +46,7 @@ class Field:
     places: int = 0
 
 
-def status(res, s: slice = slice(None)) -> np.ndarray:
+def status(res: WindowResult, s: slice = slice(None)) -> np.ndarray:
     """always_up / always_up_blocked / never_up / observable / not_observable (rises but has
     no window), targets ``s``."""
     base = np.asarray(res.status[s], dtype=object)
@@ -118,12 +124,13 @@ def _lost(res, s: slice):
                          for k, v in res.lost_s.items()}).to_struct("lost_minutes")
 
 
-def has_identifiers(res) -> bool:
+def has_identifiers(res: WindowResult) -> bool:
     """Whether any target's name was resolved (the ``identifier`` column is then written)."""
     return bool((np.asarray(res.identifiers) != "").any())
 
 
-def frame(res, a: int = 0, b: int | None = None, *, identifier: bool | None = None):
+def frame(res: WindowResult, a: int = 0, b: int | None = None, *,
+          identifier: bool | None = None) -> pl.DataFrame:
     """Targets ``a`` to ``b`` as a DataFrame, one column per field of :data:`FIELDS`.
 
     ``identifier`` says whether the identifier column is there (default: when any of these
@@ -154,7 +161,7 @@ def frame(res, a: int = 0, b: int | None = None, *, identifier: bool | None = No
     return pl.DataFrame([v.alias(k) for k, v in columns.items()])
 
 
-def records(res) -> list[dict]:
+def records(res: WindowResult) -> list[dict]:
     """The records as dictionaries (for the small, indented JSON document)."""
     out = frame(res).to_dicts()
     for record in out:
@@ -163,7 +170,7 @@ def records(res) -> list[dict]:
     return out
 
 
-def ndjson(table) -> bytes:
+def ndjson(table: pl.DataFrame) -> bytes:
     """One record a line."""
     buffer = io.BytesIO()
     table.write_ndjson(buffer)
@@ -171,7 +178,7 @@ def ndjson(table) -> bytes:
     return data.replace(_NO_IDENTIFIER, b"") if "identifier" in table.columns else data
 
 
-def json_stream(tables: Iterable) -> Iterator[bytes]:
+def json_stream(tables: Iterable[pl.DataFrame]) -> Iterator[bytes | memoryview]:
     """One JSON array of every record of the frames, in order, as it is produced.
 
     The array's members are the NDJSON lines joined by commas (a JSON text holds no raw
@@ -189,11 +196,11 @@ def json_stream(tables: Iterable) -> Iterator[bytes]:
     yield b"]\n"
 
 
-def ndjson_stream(tables: Iterable) -> Iterator[bytes]:
+def ndjson_stream(tables: Iterable[pl.DataFrame]) -> Iterator[bytes]:
     return (ndjson(table) for table in tables)
 
 
-def csv_columns(lost_keys, *, with_identifier: bool) -> list[str]:
+def csv_columns(lost_keys: Sequence[str], *, with_identifier: bool) -> list[str]:
     """The CSV header: the plain fields in record order (``identifier`` second), then the
     nested ones, flattened: ``windows``, then ``lost_<limit>_min`` per limit."""
     plain = [f.key for f in FIELDS if f.kind not in (WINDOWS, LOST, OPTIONAL_TEXT)]
@@ -208,7 +215,7 @@ def csv_columns(lost_keys, *, with_identifier: bool) -> list[str]:
     return plain + nested
 
 
-def csv(table, lost_keys, *, header: bool) -> bytes:
+def csv(table: pl.DataFrame, lost_keys: Sequence[str], *, header: bool) -> bytes:
     """The frame as CSV rows (with the header line when ``header``)."""
     import polars as pl
 
@@ -232,12 +239,12 @@ def csv(table, lost_keys, *, header: bool) -> bytes:
     return buffer.getvalue()
 
 
-def csv_stream(tables: Iterable, lost_keys) -> Iterator[bytes]:
+def csv_stream(tables: Iterable[pl.DataFrame], lost_keys: Sequence[str]) -> Iterator[bytes]:
     for k, table in enumerate(tables):
         yield csv(table, lost_keys, header=k == 0)
 
 
-def parquet(tables: Iterable) -> bytes:
+def parquet(tables: Iterable[pl.DataFrame]) -> bytes:
     """Every record in one Parquet file (the nested fields stay nested)."""
     import polars as pl
 
