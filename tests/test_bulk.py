@@ -178,7 +178,7 @@ def test_blocks_cover_every_target_once(monkeypatch: pytest.MonkeyPatch) -> None
         assert all(b == c for (_, b), (c, _) in zip(seen, seen[1:]))
 
 
-def test_errors_survive_the_trip_from_a_worker() -> None:
+def test_errors_pickle_with_their_message_and_status() -> None:
     one = InputError("bad value", file="t.csv", line=4, field="dec")
     many = InputErrors([one, InputError("empty name", line=9)])
     for exc in (one, many, OutputError("disk full")):
