@@ -1,17 +1,23 @@
-"""Benchmark: ``skyplan windows`` on 100,000 random targets, against astropy's AltAz grid.
+"""Benchmark: ``skyplan windows`` on 10,000 and 100,000 random targets, against astropy.
 
 Run by hand (not part of the test suite):
 
-    python benchmarks/bench_windows.py [--targets 100000] [--subset 2000]
+    python benchmarks/bench_windows.py [--small 10000] [--targets 100000] [--repeat 5]
 
-(a) end to end in a fresh process: read the CSV, compute the night and every target's
-    windows, write JSON to a new file; wall time measured inside the process from before
-    the CLI import (interpreter start excluded), the peak resident memory of the process
-    and of its largest worker; the same run writing over the previous output, and in one
-    process (``SKYPLAN_WORKERS=1``);
-(b) astropy's SkyCoord → AltAz transform over the same night on a 5-minute grid for a
-    subset of the targets, also the best of fresh processes; the per-target speed ratio is
-    printed.
+(a) skyplan end to end: ``python -m skyplan windows CATALOG ... -f json --out FILE`` in a
+    fresh process, timed from outside (interpreter start, imports, reading the CSV, the
+    night, every target's windows, JSON, atomic write), with the peak resident memory of
+    that process (``os.wait4``); best of ``--repeat`` runs, each writing a new file;
+(b) astropy's SkyCoord -> AltAz transform over the same night on a 5-minute grid, in a
+    fresh process, the transform alone (imports excluded), in pieces of 10,000 targets
+    (memory), best of ``--astropy-repeat`` runs;
+(c) the windows engine alone (``compute_windows``), best of 3.
+
+Two ratios are printed, each labelled: the end-to-end ratio per target at ``--targets``
+(skyplan's whole command against astropy's transform alone, so it favours astropy), and
+the marginal cost per target: the slope of each tool's time between ``--small`` and
+``--targets`` targets, which leaves out what does not grow with the catalogue
+(interpreter start, imports, the night, the ephemeris).
 """
 
 from __future__ import annotations
@@ -22,6 +28,7 @@ import os
 import subprocess
 import sys
 import tempfile
+import time
 from pathlib import Path
 
 import numpy as np
@@ -34,20 +41,6 @@ latitude = 38.2
 longitude = -2.9
 elevation = 1300
 zone = "Europe/Madrid"
-"""
-
-RUN_SKYPLAN = r"""
-import resource, sys, time
-t0 = time.perf_counter()
-from skyplan.cli.app import main
-try:
-    main(sys.argv[1:])
-except SystemExit as exc:
-    code = exc.code
-t1 = time.perf_counter()
-peak_mib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-worker_mib = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0
-print(f"RESULT {t1 - t0:.3f} {peak_mib:.1f} {code} {worker_mib:.1f}")
 """
 
 RUN_ENGINE = r"""
@@ -82,10 +75,11 @@ rng = np.random.default_rng(1)
 ra = rng.uniform(0, 360, n); dec = np.degrees(np.arcsin(rng.uniform(-1, 1, n)))
 t = Time(np.arange(start, end, 300.0), format="unix")
 loc = EarthLocation(lat=38.2 * u.deg, lon=-2.9 * u.deg, height=1300 * u.m)
+frame = AltAz(obstime=t[None, :], location=loc)
 t0 = time.perf_counter()
-c = SkyCoord(ra[:, None] * u.deg, dec[:, None] * u.deg)
-aa = c.transform_to(AltAz(obstime=t[None, :], location=loc))
-alt = aa.alt.deg
+for a in range(0, n, 10_000):
+    c = SkyCoord(ra[a:a + 10_000, None] * u.deg, dec[a:a + 10_000, None] * u.deg)
+    alt = c.transform_to(frame).alt.deg
 t1 = time.perf_counter()
 print(f"RESULT {t1 - t0:.3f} {alt.shape[1]}")
 """
@@ -100,20 +94,58 @@ def write_catalogue(path: Path, n: int) -> None:
         f.writelines(f"T{i:07d},{ra[i]:.6f},{dec[i]:.6f}\n" for i in range(n))
 
 
-def run(code: str, *args: str, env: dict | None = None) -> list[str]:
+def run(code: str, *args: str) -> list[str]:
     out = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True,
-                         check=False, env=env)
+                         check=False)
     for line in out.stdout.splitlines():
         if line.startswith("RESULT"):
             return line.split()[1:]
     raise SystemExit(f"benchmark run failed:\n{out.stderr}")
 
 
+def run_command(argv: list[str]) -> tuple[float, float]:
+    """Wall seconds (interpreter start included) and peak resident MiB of one command."""
+    start = time.perf_counter()
+    child = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(child.pid, 0)
+    wall = time.perf_counter() - start
+    if os.waitstatus_to_exitcode(status) != 0:
+        raise SystemExit(f"skyplan failed: {child.stderr.read().decode()}")
+    child.stderr.close()
+    return wall, usage.ru_maxrss / 1024.0
+
+
+def skyplan_runs(tmp: Path, n: int, repeat: int) -> tuple[list[float], float]:
+    cat = tmp / f"targets{n}.csv"
+    out = tmp / f"windows{n}.json"
+    write_catalogue(cat, n)
+    sites_file = tmp / "sites.toml"
+    sites_file.write_text(SITES_TOML)
+    # a configured site, as in a cron job (its zone is given: no zone lookup)
+    argv = [sys.executable, "-m", "skyplan", "windows", str(cat), "--site", "bench",
+            "--sites-file", str(sites_file), "--date", DATE, "--moon-gap", "20", "-f", "json",
+            "--out", str(out), "--quiet"]
+    walls, peaks = [], []
+    for _ in range(repeat):
+        out.unlink(missing_ok=True)  # each run writes a new file
+        wall, peak = run_command(argv)
+        walls.append(wall)
+        peaks.append(peak)
+    if len(json.loads(out.read_text())) != n:
+        raise SystemExit(f"expected {n} records")
+    return walls, max(peaks)
+
+
+def _all(values) -> str:
+    return ", ".join(f"{v:.2f}" for v in values)
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
+    ap.add_argument("--small", type=int, default=10_000)
     ap.add_argument("--targets", type=int, default=100_000)
-    ap.add_argument("--subset", type=int, default=2_000)
-    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--astropy-repeat", type=int, default=2)
     args = ap.parse_args()
     # an installed package has its bytecode compiled by pip; do the same for a checkout
     import compileall
@@ -121,33 +153,10 @@ def main() -> None:
     import skyplan
 
     compileall.compile_dir(str(Path(skyplan.__file__).parent), quiet=1)
-    with tempfile.TemporaryDirectory() as tmp:
-        cat = Path(tmp) / "targets.csv"
-        out = Path(tmp) / "windows.json"
-        write_catalogue(cat, args.targets)
-        sites_file = Path(tmp) / "sites.toml"
-        sites_file.write_text(SITES_TOML)
-        # a configured site, as in a cron job (its zone is given: no zone lookup)
-        cli = ["windows", str(cat), "--site", "bench", "--sites-file", str(sites_file),
-               "--date", DATE, "--moon-gap", "20", "-f", "json", "--out", str(out), "--quiet"]
-        walls, peaks, worker_peaks, alone, replacing = [], [], [], [], []
-        for _ in range(args.repeat):
-            # each timed run writes a new file: replacing the last run's 51 MB file adds the
-            # file system's work of freeing it (timed separately below)
-            out.unlink(missing_ok=True)
-            wall, peak, code, worker_peak = run(RUN_SKYPLAN, *cli)
-            if code not in ("0", "None"):
-                raise SystemExit(f"skyplan exited with {code}")
-            walls.append(float(wall))
-            peaks.append(float(peak))
-            worker_peaks.append(float(worker_peak))
-            replacing.append(float(run(RUN_SKYPLAN, *cli)[0]))  # over the file just written
-            out.unlink()
-            one = run(RUN_SKYPLAN, *cli, env={**os.environ, "SKYPLAN_WORKERS": "1"})
-            alone.append(float(one[0]))
-        doc = json.loads(out.read_text())
-        if len(doc) != args.targets:
-            raise SystemExit(f"expected {args.targets} records, got {len(doc)}")
+    sizes = (args.small, args.targets)
+    with tempfile.TemporaryDirectory() as folder:
+        tmp = Path(folder)
+        sky = {n: skyplan_runs(tmp, n, args.repeat) for n in sizes}
         night = json.loads(subprocess.run(
             [sys.executable, "-m", "skyplan", "night", "--site", SITE, "--date", DATE, "-f",
              "json"], capture_output=True, text=True, check=True).stdout)
@@ -157,32 +166,37 @@ def main() -> None:
             return dt.datetime.fromisoformat(s.replace("Z", "+00:00")).timestamp()
 
         start, end = unix(night["sunset"]), unix(night["sunrise"])
-        # astropy like skyplan: each run in a fresh process, the best of them kept
-        astropy_runs = [run(RUN_ASTROPY, str(args.subset), str(start), str(end))
-                        for _ in range(args.repeat)]
-        a_wall = min(float(wall) for wall, _ in astropy_runs)
-        n_times = astropy_runs[0][1]
-        (engine,) = run(RUN_ENGINE, str(cat), SITE, DATE)
-    best = min(walls)
-    per_sky = best / args.targets
-    per_astropy = float(a_wall) / args.subset
+        astro = {n: [run(RUN_ASTROPY, str(n), str(start), str(end))
+                     for _ in range(args.astropy_repeat)] for n in sizes}
+        (engine,) = run(RUN_ENGINE, str(tmp / f"targets{args.targets}.csv"), SITE, DATE)
     print(f"machine: {os.cpu_count()} cores; numpy {np.__version__}")
-    print(f"skyplan windows, {args.targets:,} targets, CSV in, JSON out: "
-          f"best {best:.2f} s of {args.repeat} (all: {', '.join(f'{w:.2f}' for w in walls)}); "
-          f"peak RSS {max(peaks):.0f} MiB, largest worker {max(worker_peaks):.0f} MiB")
-    print(f"the same replacing the previous run's output: best {min(replacing):.2f} s "
-          f"(all: {', '.join(f'{w:.2f}' for w in replacing)})")
-    print(f"the same in one process (SKYPLAN_WORKERS=1): best {min(alone):.2f} s "
-          f"(all: {', '.join(f'{w:.2f}' for w in alone)})")
-    print(f"astropy AltAz, {args.subset:,} targets x {n_times} times (5-min grid): "
-          f"best {a_wall:.2f} s of {args.repeat} (all: "
-          f"{', '.join(f'{float(w):.2f}' for w, _ in astropy_runs)})")
-    per_engine = float(engine) / args.targets
-    print(f"windows engine alone (compute_windows, best of 3): {float(engine):.2f} s")
-    print(f"per target: skyplan end to end {per_sky * 1e6:.1f} µs, "
-          f"engine {per_engine * 1e6:.1f} µs; astropy {per_astropy * 1e6:.1f} µs")
-    print(f"speed ratio: end to end {per_astropy / per_sky:.0f}x, "
-          f"engine {per_astropy / per_engine:.0f}x")
+    for n in sizes:
+        walls, peak = sky[n]
+        print(f"skyplan windows, {n:,} targets, CSV in, JSON out, interpreter start included: "
+              f"best {min(walls):.2f} s of {len(walls)} (all: {_all(walls)}); "
+              f"peak RSS {peak:.0f} MiB")
+    n_times = astro[args.targets][0][1]
+    a_best = {n: min(float(w) for w, _ in runs) for n, runs in astro.items()}
+    for n in sizes:
+        print(f"astropy AltAz, {n:,} targets x {n_times} times (5-min grid), transform "
+              f"alone: best {a_best[n]:.2f} s of {len(astro[n])} "
+              f"(all: {_all(float(w) for w, _ in astro[n])})")
+    print(f"windows engine alone (compute_windows, {args.targets:,} targets, best of 3): "
+          f"{float(engine):.2f} s")
+    s_best = {n: min(sky[n][0]) for n in sizes}
+    big = args.targets
+    per_sky, per_astropy = s_best[big] / big, a_best[big] / big
+    print(f"end to end per target at {big:,}: skyplan {per_sky * 1e6:.1f} µs (whole command), "
+          f"astropy {per_astropy * 1e6:.1f} µs (transform alone): ratio "
+          f"{per_astropy / per_sky:.0f}x")
+    span = big - args.small
+    m_sky = (s_best[big] - s_best[args.small]) / span
+    m_astropy = (a_best[big] - a_best[args.small]) / span
+    print(f"marginal cost per target (slope {args.small:,} -> {big:,}): skyplan "
+          f"{m_sky * 1e6:.1f} µs, astropy {m_astropy * 1e6:.1f} µs: ratio "
+          f"{m_astropy / m_sky:.0f}x")
+    print(f"engine per target: {float(engine) / big * 1e6:.1f} µs: ratio to astropy's "
+          f"transform {per_astropy / (float(engine) / big):.0f}x")
 
 
 if __name__ == "__main__":

@@ -27,6 +27,13 @@ RA_A = (5 + 35 / 60 + 17.3 / 3600) * 15
 DEC_A = -(5 + 23 / 60 + 28 / 3600)
 
 
+@pytest.fixture(autouse=True)
+def fast_path_for_small_files(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Files of any size take polars' fast path where they qualify (the size limit only
+    spares small files the import), so that these small files check it."""
+    monkeypatch.setattr(delimited, "FAST_FROM_ROWS", 1)
+
+
 def write(tmp_path: Path, name: str, text: str) -> Path:
     path = tmp_path / name
     path.write_text(text, encoding="utf-8")
@@ -577,16 +584,50 @@ def test_fast_path_reads_what_the_general_path_reads(
 def test_plain_decimal_columns_are_read_at_once(tmp_path: Path, monkeypatch) -> None:
     read_at_once = []
 
-    def spy(data, start, end):
-        numbers = real(data, start, end)
+    def spy(cells):
+        numbers = real(cells)
         read_at_once.append(numbers is not None)
         return numbers
 
-    real = decimaltext.read_decimals
-    monkeypatch.setattr(decimaltext, "read_decimals", spy)
+    real = delimited.Cells.numbers
+    monkeypatch.setattr(delimited.Cells, "numbers", spy)
     path = write(tmp_path, "p.csv", "name,ra,dec,epoch\na,10.5,-20.25,J2000\nb,400,+7,2015.5\n")
     with pytest.raises(InputErrors) as info:
         read_catalog(path)
     assert read_at_once == [True, True, False]  # ra, dec at once; "J2000" is not a decimal
     (problem,) = info.value.problems  # 400 is out of range: its text is named as written
     assert (problem.line, problem.field) == (3, "ra") and "'400'" in problem.message
+
+
+def _polars_cells(texts: list[str]) -> delimited.Cells:
+    import polars as pl
+
+    return delimited.Cells(pl.Series(texts, dtype=pl.String))
+
+
+@pytest.mark.parametrize("text", _PLAIN_TEXTS + _OTHER_TEXTS)
+def test_column_reader_gives_what_float_gives(text: str) -> None:
+    """The fast path's column reader (polars): plain decimals of any length, bit for bit
+    what Python's float() gives (the reference); anything else is left to the general
+    path, and sends the whole column there."""
+    numbers = _polars_cells([text]).numbers()
+    if not (text == "" or re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)", text, re.ASCII)):
+        assert numbers is None
+        return
+    assert numbers is not None
+    expected = np.float64(float(text)) if text else np.float64(np.nan)
+    assert numbers[0].tobytes() == expected.tobytes()
+    assert _polars_cells([text, "1e3"]).numbers() is None
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.one_of(
+    st.floats(allow_nan=False, allow_infinity=False).map(repr),
+    st.text(st.sampled_from(list("0123456789.+-e _")), max_size=25)), max_size=8))
+def test_column_reader_agrees_with_float(texts: list[str]) -> None:
+    numbers = _polars_cells(texts).numbers()
+    plain = [t == "" or re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)", t, re.ASCII) for t in texts]
+    assert (numbers is not None) == all(plain)
+    if numbers is not None:
+        expected = np.array([float(t) if t else np.nan for t in texts], dtype=np.float64)
+        assert numbers.tobytes() == expected.tobytes()

@@ -2,6 +2,7 @@
 
 ``sites`` (where), ``targets`` (what), ``night`` (when), ``windows`` (limits and windows),
 ``plan`` (the night's visits), ``positions`` (frame conversion and name look-up), ``clock``
-(time at a site), ``charts`` (what the charts show; plan files read back), ``times`` (how
+(time at a site), ``bulk`` (large catalogues, computed and written block by block),
+``charts`` (what the charts show; plan files read back), ``times`` (how
 instants are handed out: timezone-aware datetimes and astropy Time columns).
 """

@@ -67,12 +67,9 @@ class Windows:
 
     def to_records(self) -> list[dict]:
         """One record per target, as in the JSON output (ISO 8601 times, null for none)."""
-        import orjson
+        from skyplan.render import windowcolumns
 
-        from skyplan.render import records, windowview
-
-        recs = windowview.window_records(self.result, text_times=False)
-        return orjson.loads(records.to_json(recs, indent=False, clean=False))
+        return windowcolumns.records(self.result)
 
     def to_table(self):
         """An astropy QTable, one row per target; angles in deg, times as UTC ``Time``."""

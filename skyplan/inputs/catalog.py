@@ -63,7 +63,7 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
-from skyplan.inputs import decimaltext, delimited
+from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
@@ -201,7 +201,7 @@ class _Columns:
     ignored: list[str]
     problems: dict[int, list[tuple[str | None, str]]]  # row -> [(column, message)]
     trimmed: bool = False  # every text is printable ASCII without a space at either end
-    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see decimaltext.read_decimals
+    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see delimited.Cells
 
 
 def read_catalog(path: str | Path, *, skip_bad: bool = False) -> CatalogRead:
@@ -296,7 +296,7 @@ def _columns_from_grid(source: str, grid: delimited.Grid) -> _Columns:
         if isinstance(column, delimited.Cells):
             numbers = None
             if key not in _TEXT_FIELDS:
-                numbers = decimaltext.read_decimals(column.data, column.start, column.end)
+                numbers = column.numbers()
             if numbers is None:
                 column = column.texts()
             else:  # the text of a cell is made only if it is read again

@@ -1,6 +1,6 @@
 """Plain decimal text read by arithmetic, a whole column at once.
 
-Catalogue columns and the IERS table are mostly plain decimals (``-12.345``); reading them
+The IERS table holds plain decimals (``-12.345``); reading them
 character position by character position over all rows, with one division at the end, is
 several times faster than converting a Python string per value, and gives the same doubles.
 """

@@ -5,11 +5,12 @@ starting with ``#``, blank lines and lines of separators only are skipped; line 
 the lines of the file as an editor shows them.  A row with fewer fields than the header has
 its missing trailing fields empty; a row with more is a problem of that row.
 
-Text without quote characters takes a fast path: one numpy pass over its bytes finds the
-fields and checks every row's width, and the columns stay bytes (:class:`Cells`) until a
-column's text is needed; plain decimal columns are then read by
-:func:`skyplan.inputs.decimaltext.read_decimals` without making text at all.  Anything irregular
-goes through :mod:`csv`, which also names what is wrong.
+Text of more than :data:`FAST_FROM_ROWS` rows, without quote characters, in which every line
+holds a row takes a fast path: polars' CSV reader splits it into columns (:class:`Cells`)
+that stay polars strings until a column's text is needed, and plain decimal columns are read
+as numbers at once.  Anything irregular
+(quotes, comments, blank lines, rows of another width, whatever polars refuses) goes through
+:mod:`csv`, which also names what is wrong.
 """
 
 from __future__ import annotations
@@ -29,6 +30,7 @@ from skyplan.errors import InputError
 MAX_FIELD_CHARS = 1000  # longer fields are refused (per row)
 MAX_ROWS = 5_000_000  # more data rows than this refuses the whole file
 MAX_FILE_BYTES = 1 << 30  # larger text files are refused before reading
+FAST_FROM_ROWS = 2000  # smaller files go through csv: importing polars would take longer
 BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 
@@ -158,98 +160,91 @@ class Grid:
     trimmed: bool = False  # every cell is printable ASCII without a space at either end
 
 
+PLAIN_DECIMAL = r"^[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)$"  # as Python's float reads it exactly
+
+
 class Cells(Sequence[str]):
-    """One column of rows held as UTF-8 bytes, by where each cell starts and ends in them.
+    """One column read by polars: the text of a cell is made when it is asked for,
+    :meth:`texts` makes the whole column at once, and :meth:`numbers` reads it as plain
+    decimals without making text at all."""
 
-    A cell's text is made when it is asked for, and :meth:`texts` makes the whole column at
-    once.  In the bytes every cell is followed by ``separator`` (the delimiter, or the line
-    feed after the last column), which no cell holds.
-    """
-
-    def __init__(self, data: np.ndarray, start: np.ndarray, end: np.ndarray, separator: str):
-        self.data, self.start, self.end, self.separator = data, start, end, separator
+    def __init__(self, series) -> None:
+        self.series = series
 
     def __len__(self) -> int:
-        return len(self.start)
+        return len(self.series)
 
     def __getitem__(self, row: int | slice) -> str | list[str]:  # type: ignore[override]
         if isinstance(row, slice):
-            return [self[i] for i in range(len(self))[row]]
-        return self.data[self.start[row] : self.end[row]].tobytes().decode()
+            return self.series[row].to_list()
+        return self.series[row]
 
     def texts(self) -> list[str]:
-        """Every cell's text: the cells are gathered with their separators and split once."""
-        if not len(self):
-            return []
-        size = self.end - self.start + 1  # with the separator
-        step = np.ones(int(size.sum()), dtype=np.intp)  # from one gathered byte to the next
-        step[0] = self.start[0]
-        step[np.cumsum(size[:-1])] = self.start[1:] - self.end[:-1]
-        texts = self.data[np.cumsum(step)].tobytes().decode().split(self.separator)
-        texts.pop()  # the empty text after the last separator
-        return texts
+        return self.series.to_list()
+
+    def numbers(self) -> np.ndarray | None:
+        """The column as numbers if every cell is a plain decimal (``[+|-]digits[.digits]``,
+        one run of digits may be empty) or empty (NaN); else None.
+
+        polars reads decimal text correctly rounded, so the values are bit for bit what
+        Python's ``float`` gives for the same text."""
+        import polars as pl
+
+        s = self.series
+        if not (s.str.contains(PLAIN_DECIMAL) | (s == "")).all():
+            return None
+        return s.replace("", None).cast(pl.Float64).fill_null(np.nan).to_numpy()
 
 
-def _split_regular(
-    text: str, lines: list[str] | None, content: range | list[int], delimiter: str
-) -> Grid | None:
-    """Fast split of text without quote characters, if every row has the header's width.
+def _split_regular(text: str, rows: int, delimiter: str) -> Grid | None:
+    """Columns of text without quote characters in which every line holds a row, read by
+    polars' CSV reader, if every row has the header's width.
 
     Without quotes a row is simply its line split at the delimiter, exactly as :mod:`csv`
-    reads it.  The rows are joined into one text, each ending in a line feed; one numpy pass
-    over its bytes finds where fields end and checks that every row has the header's width.
-    The columns are :class:`Cells` over those bytes, so that text is made only for the
-    columns that need it.  ``lines`` None means that every line of ``text`` holds a row.
-    Returns None when some row has a different number of fields (the csv path then reports
-    it).
+    reads it; row ``i`` is then on line ``i + 2``.  Returns None when some row has another
+    number of fields, or polars refuses the text (the csv path then names what is wrong).
     """
-    if lines is None:
-        cut = text.find("\n") + 1 or len(text)
-        header_text, body = text[:cut], text[cut:]
-        where = np.arange(2, len(content) + 1, dtype=np.int64)
-    else:
-        header_text = lines[content[0]]
-        body = "".join([lines[i] for i in content[1:]])
-        where = np.array(content[1:], dtype=np.int64) + 1
-    header = header_text.rstrip("\r\n").split(delimiter)
-    width, rows = len(header), len(where)
-    if "\r" in body:
-        body = body.replace("\r\n", "\n").replace("\r", "\n")
-    if body and not body.endswith("\n"):
-        body += "\n"
-    data = np.frombuffer(body.encode(), dtype=np.uint8)  # UTF-8: ASCII bytes are characters
-    line_end = data == ord("\n")
-    field_end = np.flatnonzero(line_end | (data == ord(delimiter)))
-    # The body has one line end per row: the row widths are right when the field ends
-    # number rows * width and every width-th of them is a line end.
-    if len(field_end) != rows * width or not line_end[field_end[width - 1 :: width]].all():
+    import polars as pl
+
+    cut = text.find("\n") + 1 or len(text)
+    header = text[:cut].rstrip("\r\n").split(delimiter)
+    width = len(header)
+    if text.count(delimiter) != (width - 1) * rows or rows < 2:
+        return None  # with no row longer than the header (polars refuses those): one shorter
+    data = text.encode()
+    try:
+        table = pl.read_csv(data, has_header=False, skip_rows=1, separator=delimiter,
+                            quote_char=None, infer_schema=False, empty_string_is_null=False,
+                            truncate_ragged_lines=False, raise_if_empty=False)
+    except pl.exceptions.PolarsError:
         return None
-    field_start = np.zeros_like(field_end)
-    field_start[1:] = field_end[:-1] + 1
-    wide = field_end - field_start > MAX_FIELD_CHARS  # bytes: at least the characters
-    wide_rows = np.unique(np.flatnonzero(wide) // width)
-    separators = [delimiter] * (width - 1) + ["\n"]
-    columns: list[Sequence[str]] = [
-        Cells(data, field_start[k::width], field_end[k::width], separators[k])
-        for k in range(width)
-    ]
-    trimmed = _trimmed_printable(data, field_start, field_end)
-    return Grid(header, content[0] + 1, columns, where, wide_rows, {}, trimmed)
+    if table.height != rows - 1 or table.width != width:
+        return None
+    columns = table.get_columns()
+    length = table.select(pl.max_horizontal(pl.all().str.len_chars())).to_series()
+    wide_rows = np.flatnonzero((length > MAX_FIELD_CHARS).to_numpy())
+    trimmed = _trimmed_printable(data, delimiter.encode())
+    where = np.arange(2, rows + 1, dtype=np.int64)
+    return Grid(header, 1, [Cells(c) for c in columns], where, wide_rows, {}, trimmed)
 
 
-def _trimmed_printable(data: np.ndarray, field_start: np.ndarray, field_end: np.ndarray) -> bool:
-    """Whether every field of the bytes is printable ASCII without a space at either end.
-
-    ``str.strip`` leaves such text as it is and :data:`_UNPRINTABLE` finds nothing in it.
-    Bytes outside printable ASCII may only be the field ends (line ends, tab separators).
-    An empty field's first and last bytes are field ends, never a space.
-    """
-    outside = data - np.uint8(0x20) > 0x7E - 0x20  # below 0x20 wraps round to above 0xDF
-    if np.count_nonzero(outside) != np.count_nonzero(outside[field_end]):
+def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
+    """Whether every field of text in which every line is a row is printable ASCII without a
+    space at either end (``str.strip`` then leaves it as it is and :data:`_UNPRINTABLE`
+    finds nothing in it).  Bytes outside printable ASCII may only be line ends (LF, CR LF)
+    and tab separators."""
+    a = np.frombuffer(data, np.uint8)
+    outside = np.count_nonzero(a - np.uint8(0x20) > 0x7E - 0x20)
+    ends = data.count(b"\n") + data.count(b"\r") + (data.count(b"\t") if delimiter == b"\t" else 0)
+    if outside != ends:
         return False
-    space = ord(" ")
-    return not ((data[field_start] == space).any() or (data[field_end - 1] == space).any())
-
+    space = np.flatnonzero(a == ord(" "))
+    if not len(space):
+        return True
+    edges = np.frombuffer(delimiter + b"\n\r", np.uint8)  # the text's ends count as line ends
+    before = np.where(space > 0, a[space - 1], ord("\n"))
+    after = np.where(space < len(a) - 1, a[np.minimum(space + 1, len(a) - 1)], ord("\n"))
+    return not (np.isin(before, edges).any() or np.isin(after, edges).any())
 
 
 def _split_rows(rows: list[list[str]], starts: list[int]) -> Grid:
@@ -322,7 +317,8 @@ def read_grid(path: Path, source: str, delimiter: str | None) -> Grid:
     else:
         lines, content = _content_lines(text, delimiter, source)
         if content:
-            grid = _split_regular(text, lines, content, delimiter)
+            fast = lines is None and len(content) > FAST_FROM_ROWS
+            grid = _split_regular(text, len(content), delimiter) if fast else None
             if grid is None:
                 lines = _lines(text) if lines is None else lines
                 grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source))
