@@ -26,7 +26,7 @@ AIRMASS_MODEL = "kasten-young"  # Kasten & Young (1989)
 REFRACTION_MODEL = "bennett"  # Bennett (1982) / Sæmundsson (1986)
 
 # The bundled ephemeris (JPL DE421, shipped by skyfield-data) and the span it covers
-# (Folkner, Williams & Boggs 2008, JPL IOM 343R-08-003).
+# (Folkner, Williams & Boggs 2009, JPL IOM 343R-08-003).
 EPHEMERIS_NAME = "DE421"
 EPHEMERIS_FIRST = "1900-01-01"
 EPHEMERIS_LAST = "2053-10-01"

@@ -27,7 +27,7 @@ class SkyplanError(Exception):
         return " ".join(str(self).split())
 
     def __reduce__(self):
-        """Pickle as it is, message and attributes (a worker process hands errors back)."""
+        """Pickle as it is, message and attributes (an error crosses a process boundary whole)."""
         return _restore, (type(self), self.args, dict(self.__dict__))
 
 

@@ -11,7 +11,6 @@ from __future__ import annotations
 import functools
 import warnings
 from collections.abc import Callable
-from contextlib import contextmanager
 from typing import TypeVar
 
 _notices: list[str] = []
@@ -53,28 +52,3 @@ def as_warnings(function: F) -> F:
 
     return call  # type: ignore[return-value]
 
-
-class Held:
-    """Notices taken out of the list for a while (see :func:`held`)."""
-
-    def __init__(self) -> None:
-        self.lines: list[str] = []
-
-    def release(self) -> None:
-        """Record the held notices now, after whatever was recorded meanwhile."""
-        for line in self.lines:
-            add(line)
-        self.lines = []
-
-
-@contextmanager
-def held():
-    """Hold back the notices recorded inside the block until ``.release()`` is called, so
-    that work done out of order (in another process) reports in the usual order."""
-    start = len(_notices)
-    box = Held()
-    try:
-        yield box
-    finally:
-        box.lines = _notices[start:]
-        del _notices[start:]

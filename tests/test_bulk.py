@@ -24,7 +24,7 @@ import pytest
 
 from skyplan.api import bulk
 from skyplan.cli.app import main
-from skyplan.engine import night, timescales, windows
+from skyplan.engine import night, windows
 from skyplan.errors import (
     EXIT_BAD_INPUT,
     InputError,
@@ -186,27 +186,6 @@ def test_errors_pickle_with_their_message_and_status() -> None:
         assert type(back) is type(exc) and back.one_line() == exc.one_line()
         assert back.exit_status == exc.exit_status
     assert pickle.loads(pickle.dumps(many)).problems[0].line == 4
-
-
-def test_iers_table_read_in_one_step_matches_the_line_reader() -> None:
-    """The bundled finals2000A.all (IERS ReadMe.finals2000A layout), both readers."""
-    from skyplan.engine import ephemeris
-
-    raw = ephemeris.iers_finals_path().read_bytes()
-    fast = timescales._columns_fixed(raw)
-    assert fast is not None  # the shipped table is regular: the fast reader is used
-    slow = timescales._columns_by_line(raw)
-    for name in slow[0]:
-        np.testing.assert_array_equal(fast[0][name], slow[0][name])
-        assert fast[0][name].dtype == slow[0][name].dtype
-    np.testing.assert_array_equal(fast[1], slow[1])
-    np.testing.assert_array_equal(fast[2], slow[2])
-    # one changed byte anywhere in a record's layout sends the table to the line reader
-    damaged = bytearray(raw)
-    damaged[188 * 100 + 57] = ord("X")  # the I/P flag of line 101
-    assert timescales._columns_fixed(bytes(damaged)) is None
-    with pytest.raises(ValueError, match="line 101"):
-        timescales._parse_finals(bytes(damaged), "t")
 
 
 def test_a_background_flush_error_is_reported(tmp_path: Path,

@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import catalog as catalog_module
-from skyplan.inputs import decimaltext, delimited
+from skyplan.inputs import delimited
 from skyplan.inputs.catalog import Catalog, read_catalog
 
 # 05:35:17.3 = (5 + 35/60 + 17.3/3600) * 15 deg = 83.8220833 deg
@@ -458,15 +458,6 @@ def test_fuzz_only_input_errors(tmp_path: Path, data: bytes, skip_bad: bool) -> 
     assert all(name for name in cat.name)
 
 
-def _decimal_cells(texts: list[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Bytes of texts each followed by a comma, and where each text starts and ends."""
-    data = np.frombuffer("".join(t + "," for t in texts).encode(), dtype=np.uint8)
-    end = np.flatnonzero(data == ord(","))
-    start = np.zeros_like(end)
-    start[1:] = end[:-1] + 1
-    return data, start, end
-
-
 # Texts that Python's float() reads (or refuses) in ways a decimal reader could get wrong.
 # The reference is float() itself: a correctly rounded conversion (David Gay's algorithm),
 # which is what the general path gives for every entry.
@@ -480,50 +471,6 @@ _OTHER_TEXTS = [
     "1.2.3", "1-2", "++1", "J2015.5", "0x10", "1234567890123456", "0.000000000000001",
     "1.0000000000000002", "12345678901234567", "\xa01", "1\x00", " ",
 ]
-
-
-@pytest.mark.parametrize("text", _PLAIN_TEXTS + _OTHER_TEXTS)
-def test_decimal_reader_gives_what_float_gives(text: str) -> None:
-    numbers = decimaltext.read_decimals(*_decimal_cells([text]))
-    if text not in _PLAIN_TEXTS:
-        assert numbers is None  # left to the general path
-        return
-    assert numbers is not None
-    if text == "":
-        assert np.isnan(numbers[0])  # an empty cell: NaN, as the general path gives
-    else:
-        assert numbers[0].tobytes() == np.float64(float(text)).tobytes()  # bit for bit
-    # one text that is not a plain decimal sends the whole column to the general path
-    assert decimaltext.read_decimals(*_decimal_cells([text, "1e3"])) is None
-
-
-_DIGIT_RUN = st.text(st.sampled_from(list("0123456789")), max_size=10)
-
-
-@settings(max_examples=200, deadline=None)
-@given(
-    st.lists(
-        st.one_of(
-            st.tuples(st.sampled_from(["", "+", "-"]), _DIGIT_RUN, st.booleans(), _DIGIT_RUN).map(
-                lambda p: p[0] + p[1] + ("." if p[2] else "") + p[3]
-            ),
-            st.floats(allow_nan=False, allow_infinity=False).map(repr),
-            st.text(st.sampled_from(list("0123456789.+-e _")), max_size=18),
-        ),
-        max_size=8,
-    )
-)
-def test_decimal_reader_agrees_with_float(texts: list[str]) -> None:
-    numbers = decimaltext.read_decimals(*_decimal_cells(texts))
-    plain = [
-        t == "" or (re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)", t) and sum(map(str.isdigit, t)) <= 15)
-        for t in texts
-    ]
-    assert (numbers is not None) == all(plain)
-    if numbers is not None:
-        # Python's float() is the reference: bit-for-bit equal values, NaN for empty cells
-        expected = np.array([float(t) if t else np.nan for t in texts], dtype=np.float64)
-        assert numbers.tobytes() == expected.tobytes()
 
 
 def _outcome(path: Path, skip_bad: bool) -> tuple:

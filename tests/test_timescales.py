@@ -274,3 +274,27 @@ def test_clock_reading_against_erfa_and_astropy() -> None:
     assert r.local_time == "2025-01-15T21:30:12+13:00"
     assert r.utc == "2025-01-15T08:30:12.250Z"
     assert r.zone == "Pacific/Auckland"
+
+
+def test_iers_reader_refuses_a_damaged_flag_and_names_its_line() -> None:
+    """A record whose I/P flag (column 58, IERS ReadMe.finals2000A) is damaged: skyfield's
+    reader still takes its numbers, so the check is ours, and it names the line."""
+    raw = bytearray(timescales.iers_finals_path().read_bytes())
+    raw[188 * 100 + 57] = ord("X")  # the flag of line 101 (187 characters and a line feed)
+    with pytest.raises(ValueError, match="line 101"):
+        timescales._parse_finals(bytes(raw), "t")
+
+
+def test_iers_reader_gives_astropys_numbers() -> None:
+    """Every UT1−UTC and pole value of the bundled table, against astropy's own reading of
+    the same file (astropy.utils.iers.IERS_A, its Bulletin A columns, which are the ones we
+    read; astropy's plain UT1_UTC prefers Bulletin B where the file has it)."""
+    from astropy.utils.iers import IERS_A
+
+    ours = timescales.earth_orientation()
+    theirs = IERS_A.open(str(timescales.iers_finals_path()))
+    mjd = np.asarray(theirs["MJD"].value)
+    keep = np.isin(mjd, ours.mjd)
+    order = np.searchsorted(ours.mjd, mjd[keep])
+    np.testing.assert_array_equal(ours.dut1_s[order], np.asarray(theirs["UT1_UTC_A"].value)[keep])
+    np.testing.assert_array_equal(ours.xp_arcsec[order], np.asarray(theirs["PM_x_A"].value)[keep])

@@ -27,7 +27,6 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import DataError
-from skyplan.inputs import decimaltext
 
 DAY_S = 86400.0
 UNIX_EPOCH_JD = 2440587.5  # JD of 1970-01-01T00:00:00 UTC
@@ -53,35 +52,56 @@ class EarthOrientation:
         return float(self.mjd[-1])
 
 
-FINALS_COLUMNS = (("mjd", 7, 15, float), ("dut1", 58, 68, float), ("xp", 18, 27, float),
-                  ("yp", 37, 46, float), ("yy", 0, 2, int), ("mm", 2, 4, int),
-                  ("dd", 4, 6, int))
-FINALS_LINE_BYTES = 188  # 187 characters and a line feed (IERS ReadMe.finals2000A)
+FINALS_DATE_COLUMNS = ((0, 2), (2, 4), (4, 6))  # YY, MM, DD (IERS ReadMe.finals2000A)
+FINALS_UT1_COLUMNS = (58, 68)  # UT1−UTC; column 57 holds its I (observed) / P (predicted) flag
 
 
 def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
-    """Read the fixed-width columns of finals2000A.all (format: IERS ReadMe.finals2000A).
+    """Earth orientation from finals2000A.all (format: IERS ReadMe.finals2000A).
 
-    A damaged table is refused (ValueError naming the line): every record with UT1−UTC must
-    reach its error column, carry an I/P flag and a date that matches its MJD; days follow
-    one another; |UT1−UTC| stays below 1 s (UTC is kept within 0.9 s of UT1, ITU-R TF.460-6)
-    and changes by less than 0.01 s a day apart from whole leap seconds; the pole stays
-    within 1″.
-
-    A table of whole, printable, equal lines (as shipped) is cut into columns by numpy in
-    one step; anything else is read line by line, which also names the first bad line.
+    The columns are read by skyfield's own reader (``skyfield.data.iers``); this function
+    refuses a damaged table (ValueError naming the line), which that reader would pass over:
+    every record with UT1−UTC must match the layout, carry an I/P flag and a date that
+    matches its MJD; days follow one another; |UT1−UTC| stays below 1 s (UTC is kept within
+    0.9 s of UT1, ITU-R TF.460-6) and changes by less than 0.01 s a day apart from whole leap
+    seconds; the pole stays within 1″.
     """
-    found = _columns_fixed(raw)
-    columns, numbers, flags = found if found is not None else _columns_by_line(raw)
-    mjd, dut1 = columns["mjd"], columns["dut1"]
-    year = np.where(columns["yy"] >= 73, 1900, 2000) + columns["yy"] - 1970
-    month = np.clip(columns["mm"], 1, 12) - 1  # a month outside 1..12 fails the MJD match
+    import io
+
+    from skyfield.data.iers import parse_x_y_dut1_from_finals_all
+
+    lines = raw.split(b"\n")
+    a, b = FINALS_UT1_COLUMNS
+    has_ut1 = np.array([bool(line[a:b].strip()) for line in lines])
+    # only the days past the end of the predictions lack UT1−UTC
+    cut = ~has_ut1 & np.array([bool(line[15:].strip()) for line in lines])
+    if cut.any():
+        raise ValueError(f"line {np.argmax(cut) + 1}: the record is cut short or misaligned")
+    numbers = np.flatnonzero(has_ut1) + 1
+    records = [lines[n - 1] for n in numbers]
+    if len(records) < 2:
+        raise ValueError("no UT1−UTC values found")
+    try:
+        table = parse_x_y_dut1_from_finals_all(io.BytesIO(raw))
+    except ValueError:
+        table = None
+    if table is None or len(table) != len(records):
+        bad = _first_unread(records, table)
+        raise ValueError(f"line {numbers[bad]}: the record is cut short or misaligned")
+    flags = np.array([line[a - 1:a] for line in records], dtype="S1")
+    if not np.isin(flags, [b"I", b"P"]).all():
+        raise ValueError(f"line {numbers[np.argmax(~np.isin(flags, [b'I', b'P']))]}: "
+                         "the record is cut short or misaligned")
+    yy, mm, dd = _dates([line[:6] for line in records], numbers)
+    mjd, dut1 = table["utc_mjd"], table["dut1"]
+    xp, yp = table["x_arcseconds"], table["y_arcseconds"]
+    year = np.where(yy >= 73, 1900, 2000) + yy - 1970
+    month = np.clip(mm, 1, 12) - 1  # a month outside 1..12 fails the MJD match
     months = year.astype("datetime64[Y]").astype("datetime64[M]") + month.astype("m8[M]")
-    days = months.astype("datetime64[D]") + (columns["dd"] - 1).astype("m8[D]")
+    days = months.astype("datetime64[D]") + (dd - 1).astype("m8[D]")
     date_mjd = days.astype(np.int64) + 40587.0
-    in_range = (np.abs(dut1) < 1.0) & (np.abs(columns["xp"]) < 1.0) & (
-        np.abs(columns["yp"]) < 1.0)  # False for NaN too
-    odd = (date_mjd != mjd) | (columns["mm"] != month + 1) | ~in_range
+    in_range = (np.abs(dut1) < 1.0) & (np.abs(xp) < 1.0) & (np.abs(yp) < 1.0)  # NaN fails
+    odd = (date_mjd != mjd) | (mm != month + 1) | ~in_range
     if odd.any():
         bad = int(np.flatnonzero(odd)[0])
         raise ValueError(f"line {numbers[bad]}: the date, MJD, UT1−UTC or pole is out of range")
@@ -91,83 +111,33 @@ def _parse_finals(raw: bytes, source: str) -> EarthOrientation:
     jump = np.minimum(np.abs(step), np.abs(np.abs(step) - 1.0))  # leap seconds step by 1 s
     if np.any(jump >= 0.01):
         raise ValueError(f"line {numbers[int(np.argmax(jump >= 0.01)) + 1]}: UT1−UTC jumps")
-    observed = np.flatnonzero(flags == "I")
+    observed = np.flatnonzero(flags == b"I")
     last_obs = float(mjd[observed[-1]]) if observed.size else np.nan
-    return EarthOrientation(mjd, dut1, columns["xp"], columns["yp"], last_obs, source)
+    return EarthOrientation(np.array(mjd), np.array(dut1), np.array(xp), np.array(yp),
+                            last_obs, source)
 
 
-def _columns_fixed(raw: bytes):
-    """Columns, line numbers and I/P flags of a regular table, or None to read it by line."""
-    width = FINALS_LINE_BYTES
-    if not raw or len(raw) % width:
-        return None
-    grid = np.frombuffer(raw, np.uint8).reshape(-1, width)
-    text = grid[:, :-1]
-    if (grid[:, -1] != 10).any() or (text < 32).any() or (text > 126).any():
-        return None
-    has_ut1 = (grid[:, 58:68] != 32).any(axis=1)
-    if (~has_ut1 & (grid[:, 15:-1] != 32).any(axis=1)).any():
-        return None
-    records = grid[has_ut1]
-    flags = records[:, 57].view("S1").astype("U1")
-    if len(records) < 2 or not np.isin(flags, ["I", "P"]).all():
-        return None
-    columns = {}
-    line_start = np.flatnonzero(has_ut1) * width
-    for name, first, last, kind in FINALS_COLUMNS:
-        cells = records[:, first:last]
-        lead = np.argmax(cells != ord(" "), axis=1)  # right-aligned numbers
-        values = decimaltext.read_decimals(grid.reshape(-1), line_start + first + lead,
-                                           line_start + last)
-        if values is None:  # not plain decimals: numpy's reader takes it or refuses it
-            text = np.ascontiguousarray(cells).view(f"S{last - first}").ravel()
-            try:
-                values = text.astype(float)
-            except ValueError:
-                return None
-        if kind is int:
-            if (values != np.round(values)).any():
-                return None
-            values = values.astype(np.int64)
-        columns[name] = values
-    return columns, np.flatnonzero(has_ut1) + 1, flags
+def _dates(cells: list[bytes], numbers: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Year, month and day from the records' YYMMDD columns (right-aligned, space-padded);
+    ValueError names the first line whose date is not made of digits."""
+    grid = np.array(cells, dtype="S6").view(np.uint8).reshape(-1, 6)
+    digit = (grid >= ord("0")) & (grid <= ord("9"))
+    ok = (digit | (grid == ord(" "))).all(axis=1) & digit[:, 1::2].all(axis=1)
+    if not ok.all():
+        raise ValueError(f"line {numbers[np.argmax(~ok)]}: the date is not a number")
+    value = np.where(digit, grid.astype(np.int64) - ord("0"), 0)
+    return tuple(10 * value[:, i] + value[:, i + 1] for i in (0, 2, 4))
 
 
-def _columns_by_line(raw: bytes):
-    """Columns, line numbers and I/P flags, line by line; ValueError names a bad line."""
-    lines = raw.decode("ascii", errors="replace").splitlines()
-    numbers, records = [], []
-    for number, line in enumerate(lines, 1):
-        if line[58:68].strip():
-            if len(line) < FINALS_MIN_CHARS or line[57] not in "IP":
-                raise ValueError(f"line {number}: the record is cut short or misaligned")
-            numbers.append(number)
-            records.append(line)
-        elif line[15:].strip():  # only days past the end of the predictions lack UT1−UTC
-            raise ValueError(f"line {number}: the record is cut short or misaligned")
-    if len(records) < 2:
-        raise ValueError("no UT1−UTC values found")
-    columns = {}
-    for name, first, last, kind in FINALS_COLUMNS:
-        texts = [line[first:last] for line in records]
-        try:
-            columns[name] = np.array(texts, dtype=kind)
-        except ValueError:
-            bad = next(i for i, t in enumerate(texts) if not _reads_as(kind, t))
-            raise ValueError(
-                f"line {numbers[bad]}: {texts[bad].strip()!r} is not a number") from None
-    return columns, numbers, np.array([line[57] for line in records])
+def _first_unread(records: list[str], table) -> int:
+    """Index of the first record that skyfield's reader did not take (0 if none was)."""
+    import re
 
+    from skyfield.data.iers import _R
 
-def _reads_as(kind: type, text: str) -> bool:
-    try:
-        kind(text)
-    except ValueError:
-        return False
-    return True
-
-
-_handed: list[EarthOrientation] = []  # a table parsed by a worker, for the next call below
+    pattern = re.compile(_R.replace(b"(?m)^", b""))
+    return next((i for i, line in enumerate(records) if not pattern.match(line)),
+                0 if table is None else min(len(table), len(records) - 1))
 
 
 def iers_finals_path() -> Path:
@@ -179,9 +149,7 @@ def iers_finals_path() -> Path:
 
 @functools.cache
 def earth_orientation() -> EarthOrientation:
-    """The bundled IERS table, parsed once per process (or handed over by a worker)."""
-    if _handed:
-        return _handed.pop()
+    """The bundled IERS table, parsed once per process."""
     path = iers_finals_path()
     try:
         return _parse_finals(path.read_bytes(), str(path))
@@ -191,13 +159,6 @@ def earth_orientation() -> EarthOrientation:
             "astropy-iers-data (pip install --force-reinstall astropy-iers-data)"
         ) from None
 
-
-def hand_over(table: EarthOrientation) -> None:
-    """Keep a table that a worker process parsed from the same file, instead of parsing it
-    again here (ignored once this process has its own)."""
-    if earth_orientation.cache_info().currsize == 0:
-        _handed[:] = [table]
-        earth_orientation()
 
 
 def unix_to_mjd(unix: np.ndarray) -> np.ndarray:

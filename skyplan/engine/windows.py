@@ -34,7 +34,7 @@ import numpy as np
 
 from skyplan.defaults import RISE_SET_ALT_DEG
 from skyplan.engine import airmass as am
-from skyplan.engine import events, frames, timescales
+from skyplan.engine import events, frames
 from skyplan.engine import night as night_mod
 from skyplan.engine.intervals import Intervals, intersect
 from skyplan.engine.limitintervals import (
@@ -92,19 +92,6 @@ class WindowResult:
 
 
 # ------------------------------------------------------------------ main
-
-
-def preload(targets: TargetSet) -> None:
-    """Load the data :func:`compute_windows` reads (ERFA, the IERS table; for the Sun, Moon,
-    planets and orbits the ephemeris too), so that forked workers share one copy."""
-    import erfa  # noqa: F401
-
-    from skyplan.engine import ephemeris
-
-    timescales.earth_orientation()
-    if (targets.body != "").any():
-        ephemeris.planets()
-        ephemeris.timescale()
 
 
 def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Limits,
