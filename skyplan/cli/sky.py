@@ -53,10 +53,12 @@ def window_data(run, fmt: str):
     first = next(results)
     lost_keys = list(first.lost_s)
 
+    text_times = fmt != "parquet"  # Parquet keeps instants as UTC timestamps
+
     def tables():
-        yield windowcolumns.frame(first, identifier=identifier)
+        yield windowcolumns.frame(first, identifier=identifier, text_times=text_times)
         for res in results:
-            yield windowcolumns.frame(res, identifier=identifier)
+            yield windowcolumns.frame(res, identifier=identifier, text_times=text_times)
 
     if fmt == "json":
         return windowcolumns.json_stream(tables())

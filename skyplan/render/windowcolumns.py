@@ -5,7 +5,8 @@ one column of a polars DataFrame, and JSON, NDJSON, CSV and Parquet are all writ
 polars from that frame.  A new output field is added to :data:`FIELDS` alone.
 
 Values: numbers rounded to the places given here (NaN and infinities are null), instants as
-ISO 8601 UTC text to the second with ``Z`` (null where an event does not happen), windows
+ISO 8601 UTC text to the second with ``Z`` (in Parquet, UTC timestamps to the second; null
+where an event does not happen), windows
 as a list of ``{start, end, minutes}``, the minutes lost to each limit as one object, and
 ``identifier`` only in the records of targets whose name was resolved (in Parquet, a column
 that is null elsewhere).  CSV flattens the
@@ -88,8 +89,9 @@ def _numbers(values, places: int):
     return pl.Series(a).fill_nan(None)
 
 
-def _instants(unix):
-    """ISO 8601 UTC text to the second with Z; null for NaN."""
+def _instants(unix, text: bool = True):
+    """ISO 8601 UTC text to the second with Z (or, with ``text`` false, UTC datetimes to the
+    second); null for NaN."""
     import polars as pl
 
     u = np.round(np.asarray(unix, dtype=float))
@@ -97,18 +99,19 @@ def _instants(unix):
     seconds = pl.Series(np.where(np.isfinite(u), u, 0.0).astype("int64"))
     if len(missing):
         seconds = seconds.scatter(missing, None)
-    return pl.from_epoch(seconds, time_unit="s").dt.strftime(ISO_FORMAT)
+    instants = pl.from_epoch(seconds, time_unit="s").dt.replace_time_zone("UTC")
+    return instants.dt.strftime(ISO_FORMAT) if text else instants
 
 
-def _windows(res, a: int, b: int):
+def _windows(res, a: int, b: int, text: bool = True):
     """Each target's windows as a list of ``{start, end, minutes}`` (empty: no window)."""
     import polars as pl
 
     w = res.windows
     lo, hi = np.searchsorted(w.rows, [a, b])  # intervals are sorted by row
     start, end = w.start[lo:hi], w.end[lo:hi]
-    parts = pl.DataFrame({"row": (w.rows[lo:hi] - a).astype("int64"), "start": _instants(start),
-                          "end": _instants(end),
+    parts = pl.DataFrame({"row": (w.rows[lo:hi] - a).astype("int64"),
+                          "start": _instants(start, text), "end": _instants(end, text),
                           "minutes": _numbers((end - start) / 60.0, MINUTE_PLACES)})
     lists = parts.group_by("row", maintain_order=True).agg(
         pl.struct("start", "end", "minutes").alias("windows"))
@@ -130,11 +133,12 @@ def has_identifiers(res: WindowResult) -> bool:
 
 
 def frame(res: WindowResult, a: int = 0, b: int | None = None, *,
-          identifier: bool | None = None) -> pl.DataFrame:
+          identifier: bool | None = None, text_times: bool = True) -> pl.DataFrame:
     """Targets ``a`` to ``b`` as a DataFrame, one column per field of :data:`FIELDS`.
 
     ``identifier`` says whether the identifier column is there (default: when any of these
-    targets has one); it holds null where a target has none.
+    targets has one); it holds null where a target has none.  ``text_times`` false keeps
+    instants as UTC datetimes (for Parquet) instead of ISO 8601 text.
     """
     import polars as pl
 
@@ -146,13 +150,13 @@ def frame(res: WindowResult, a: int = 0, b: int | None = None, *,
         if f.kind == NUMBER:
             columns[f.key] = _numbers(f.values(res, s), f.places)
         elif f.kind == INSTANT:
-            columns[f.key] = _instants(f.values(res, s))
+            columns[f.key] = _instants(f.values(res, s), text_times)
         elif f.kind == FLAG:
             columns[f.key] = pl.Series(np.asarray(f.values(res, s), dtype=bool))
         elif f.kind == TEXT:
             columns[f.key] = pl.Series(np.asarray(f.values(res, s)).astype(str), dtype=pl.String)
         elif f.kind == WINDOWS:
-            columns[f.key] = _windows(res, a, b)
+            columns[f.key] = _windows(res, a, b, text_times)
         elif f.kind == LOST:
             columns[f.key] = _lost(res, s)
         elif identifier:  # OPTIONAL_TEXT
