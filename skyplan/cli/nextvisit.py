@@ -71,9 +71,8 @@ def next_cmd(
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
                            elements, start_option="--at")
-    with common.named_as(at="--at", start="--at", done="--done"):
-        answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,
-                                      at=got.at, done=done, computed=got.computed)
+    answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,
+                                  at=got.at, done=done, computed=got.computed)
     if fmt == "json":
         common.emit(records.to_json(answer.to_record()), out)
     else:

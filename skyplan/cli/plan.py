@@ -105,9 +105,8 @@ def plan_cmd(
                       elements)
         step("scheduling")
         try:
-            with common.named_as(start="--start", done="--done"):
-                made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
-                                     computed=got.computed, start=got.at, done=done)
+            made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
+                                 computed=got.computed, start=got.at, done=done)
         except NothingObservable as exc:
             if out is not None:
                 emit_plan(exc.plan, fmt, out)

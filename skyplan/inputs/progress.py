@@ -80,10 +80,10 @@ def read_done(path: str | Path, zone, night_span: tuple[float, float],
     try:
         raw = Path(where).read_bytes()
     except FileNotFoundError:
-        raise InputError("no such file", file=where, field="--done") from None
+        raise InputError("no such file (the log of visits done)", file=where) from None
     except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", file=where,
-                         field="--done") from None
+        raise InputError(f"cannot read the log of visits done: {exc.strerror or exc}",
+                         file=where) from None
     if len(raw) > MAX_DONE_BYTES:
         raise InputError(f"larger than {MAX_DONE_BYTES // 2**20} MiB; a night's log is far "
                          "smaller", file=where)
