@@ -251,7 +251,6 @@ def test_unknown_done_names_are_notes(tmp_path, capsys) -> None:
 
 def test_api_start_done_and_next_visit(capsys) -> None:
     import skyplan
-    from skyplan.api.nextvisit import next_visit
 
     site = skyplan.site(demo=True)
     night = skyplan.night(site, "2026-12-18")
@@ -262,7 +261,8 @@ def test_api_start_done_and_next_visit(capsys) -> None:
     records = made.to_records()
     assert records and all(r["start"] >= "2026-12-18T22:00:00Z" for r in records)
     assert "Cinder Veil" not in {r["name"] for r in records}
-    answer = next_visit(programme, site, at=at, done=["Cinder Veil"], method="dispatch")
+    answer = skyplan.next_visit(programme, site, at=at, done=["Cinder Veil"],
+                                method="dispatch")
     assert answer.status == "observe" and answer.at == at
     assert answer.to_record()["visit"] == records[0]
     assert answer.next_possible == dt.datetime.fromisoformat(

@@ -49,7 +49,14 @@ def start_instant(text: str, zone, night_date: dt.date, *, field: str = "--start
 
     clock = _CLOCK.match(text.strip())
     if clock is None:
-        return timeinput.parse_instant(text, zone, field=field)
+        try:
+            return timeinput.parse_instant(text, zone, field=field)
+        except InputError as exc:
+            if not exc.message.startswith("cannot read"):
+                raise
+            raise InputError(f"cannot read {text!r} as a time: use 'now', HH:MM on the "
+                             "night's clock, or ISO 8601 such as 2026-12-18T23:00:00Z or "
+                             "2026-12-18T23:00+01:00", field=field) from None
     hour, minute = int(clock.group(1)), int(clock.group(2))
     day = night_date if hour >= 12 else night_date + dt.timedelta(days=1)
     return timeinput.parse_instant(f"{day.isoformat()}T{hour:02d}:{minute:02d}", zone,

@@ -152,8 +152,7 @@ def next_reasons(p, choice, zone) -> list[str]:
     if choice.window_end_unix == choice.window_end_unix:
         out.append(f"its window closes at {_hhmm(choice.window_end_unix, zone)} "
                    f"({iso_utc(choice.window_end_unix)})")
-    out.append(f"visit {v.repeat}; {choice.left} still needed of this target"
-               if choice.left > 1 else f"visit {v.repeat}, the last one needed of this target")
+    out.append(f"visit {v.repeat} of {v.repeat + choice.left - 1} of this target")
     return out
 
 
@@ -185,8 +184,9 @@ def next_record(status: str, at: float, p, choice, site, generated_at: float) ->
 def next_table(status: str, at: float, p, choice, site):
     """The answer of ``skyplan next`` for a person: a few lines."""
     zone = ZoneInfo(p.windows.night.zone)
-    t = _table(f"Next at {site.name}, {_hhmm(at, zone)} ({p.windows.night.zone}) on the night "
-               f"of {p.windows.night.date.isoformat()}: {_NEXT_HEADLINE[status]}", SAFETY)
+    t = _table(f"Next at {site.name}, {_hhmm(at, zone)} {p.windows.night.zone}, night of "
+               f"{p.windows.night.date.isoformat()}: {_NEXT_HEADLINE[status]}", SAFETY)
+    t.show_header = False
     t.add_column("", justify="left")
     t.add_column("", justify="left")
     if not p.visits:
