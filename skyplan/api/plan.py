@@ -200,6 +200,9 @@ def rest_of_night(names, site: Site, night: Night, start: dt.datetime | None, do
                 timeinput.local_noon_unix(night.date + dt.timedelta(days=1), site.tzinfo))
         log = progress.read_done(done, site.tzinfo, span, night.date.isoformat())
         visits, source = log.visits, log.path
+        if log.kind == "plan" and not visits:
+            notices.add(f'{source}: no observation is marked "done": true; nothing counted '
+                        "as done")
     elif isinstance(done, progress.DoneLog):
         visits, source = done.visits, done.path
     elif done is not None:

@@ -55,9 +55,9 @@ def next_cmd(
 ) -> int:
     """What to observe now: the first visit of the plan of the rest of the night.
 
-    The same as the first observation of 'plan --start AT --done FILE' with the same
-    options.  Exit status 0 when a target can be observed now, 3 when nothing can (the
-    answer then gives the next possible visit, or none tonight), 2 for bad input.
+    It is the first observation of 'plan --start AT --done FILE' with the same options.
+
+    Exit status 0: observe now; 3: nothing now (the answer gives the next possible visit).
     """
     from skyplan.api import nextvisit
     from skyplan.errors import EXIT_NOTHING_OBSERVABLE, EXIT_OK

@@ -87,8 +87,9 @@ def plan_cmd(
 ) -> None:
     """The night's observations in order, each target as high as the night allows.
 
-    Exit status 0 with a plan, 2 for bad input, 3 when nothing is observable tonight (with
-    --out, the file then holds a plan of that night without observations).
+    Exit status 0 with a plan, 2 for bad input, 3 when nothing is observable tonight.
+
+    With --out and status 3 the file holds that night's plan without observations.
     """
     from skyplan.api import plan as planning
     from skyplan.errors import NothingObservable
