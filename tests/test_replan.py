@@ -225,7 +225,10 @@ def test_bad_plan_done_file_and_bad_options(whole_night, tmp_path, capsys) -> No
     path.write_text(json.dumps(marked, indent=2))
     code, _, err = run(["plan", *FAST, "--done", str(path)], capsys)
     assert code == EXIT_BAD_INPUT
-    assert err.startswith(f"skyplan: {path}, field 'observations[1].done'")
+    text = path.read_text().splitlines()
+    line = next(k for k, t in enumerate(text, 1) if t.strip() == '"done": "yes"')
+    opens = [k for k, t in enumerate(text[:line], 1) if t == "    {"]  # json.dumps indent 2
+    assert err.startswith(f"skyplan: {path}:{opens[-1]}, field 'observations[1].done'")
     marked["observations"][1]["done"] = True
     marked["night"]["date"] = "2026-12-17"
     path.write_text(json.dumps(marked, indent=2))
@@ -284,3 +287,16 @@ def test_next_agrees_with_the_optimised_plan_too(capsys) -> None:
     first = json.loads(out)["observations"][0]
     code, out, _ = run(["next", *opts, "--at", "23:00"], capsys)
     assert json.loads(out)["visit"] == first
+
+
+def test_now_is_the_current_time(monkeypatch, capsys) -> None:
+    from skyplan.inputs import timeinput
+
+    monkeypatch.setattr(timeinput, "_now",
+                        lambda: dt.datetime(2026, 12, 18, 22, 0, tzinfo=dt.UTC))
+    now = plan_json(["--start", "now"], capsys)
+    clock = plan_json(["--start", "23:00"], capsys)  # 22:00Z is 23:00 in Madrid
+    assert now["rest_of_night"]["start"] == "2026-12-18T22:00:00Z"
+    assert now["observations"] == clock["observations"]
+    code, out, _ = run(["next", *FAST, "-f", "json"], capsys)  # --at defaults to now
+    assert json.loads(out)["visit"] == clock["observations"][0]

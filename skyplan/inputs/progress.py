@@ -157,7 +157,11 @@ class _Reader:
         for i, rec in enumerate(obs):
             if not isinstance(rec, dict):
                 raise self.fail("not an object", field=f"observations[{i}]")
-            visit = self.visit(rec, None, f"observations[{i}].", default_done=False)
+            try:
+                visit = self.visit(rec, None, f"observations[{i}].", default_done=False)
+            except InputError as exc:
+                raise self.fail(exc.message, _element_line(text, "observations", i),
+                                exc.field) from None
             if visit is not None:
                 out.append(visit)
         return tuple(out)
@@ -194,3 +198,37 @@ class _Reader:
             raise self.fail(f"{value} is not in the night of {self.date} (noon to noon, "
                             "local time); is this another night's log?", line, field)
         return unix
+
+
+def _element_line(text: str, key: str, index: int) -> int | None:
+    """The line on which element ``index`` of the array ``key`` starts (for a message only:
+    the first ``"key": [`` of the text, scanned with strings skipped)."""
+    found = re.search('"' + re.escape(key) + r'"\s*:\s*\[', text)
+    if found is None:
+        return None
+    depth, quoted, escaped, expect, seen = 0, False, False, True, -1
+    for pos in range(found.end(), len(text)):  # runs only to report an error
+        c = text[pos]
+        if quoted:
+            if escaped:
+                escaped = False
+            elif c == "\\":
+                escaped = True
+            elif c == '"':
+                quoted = False
+            continue
+        if depth == 0 and c == ",":
+            expect = True
+        elif depth == 0 and expect and c not in " \t\r\n]":
+            expect, seen = False, seen + 1
+            if seen == index:
+                return text.count("\n", 0, pos) + 1
+        if c == '"':
+            quoted = True
+        elif c in "{[":
+            depth += 1
+        elif c in "}]":
+            depth -= 1
+            if depth < 0:
+                return None
+    return None
