@@ -300,3 +300,49 @@ def test_now_is_the_current_time(monkeypatch, capsys) -> None:
     assert now["observations"] == clock["observations"]
     code, out, _ = run(["next", *FAST, "-f", "json"], capsys)  # --at defaults to now
     assert json.loads(out)["visit"] == clock["observations"][0]
+
+
+def test_progress_counts_names_against_the_catalogue() -> None:
+    import numpy as np
+
+    from skyplan.planning import replan
+
+    names = np.array(["B", "A", "C", "A"], dtype=object)  # a duplicate: the first counts
+    rest = replan.progress(names, None, ["A", "Z", "A", "C", "Y", "Z"],
+                           [10.0, np.nan, 30.0, 5.0, np.nan, np.nan],
+                           [20.0, np.nan, 40.0, 8.0, np.nan, np.nan])
+    assert rest.done.tolist() == [0, 2, 1, 0]
+    assert rest.unknown == ("Z", "Y")
+    assert np.isnan(rest.last_start_unix[0]) and rest.last_start_unix[1] == 30.0
+    assert rest.busy_start.tolist() == [5.0, 10.0, 30.0]
+    assert rest.busy_end.tolist() == [8.0, 20.0, 40.0]
+    merged = replan.progress(names, None, ["A", "B"], [0.0, 5.0], [10.0, 12.0])
+    assert merged.busy_start.tolist() == [0.0] and merged.busy_end.tolist() == [12.0]
+
+
+def test_rest_windows_match_a_brute_force_check() -> None:
+    import numpy as np
+
+    from skyplan.engine.intervals import Intervals
+    from skyplan.planning import replan
+
+    rng = np.random.default_rng(7)
+    rows = np.repeat(np.arange(6), 2)
+    start = np.sort(rng.uniform(0, 1000, 12).reshape(6, 2), axis=1)
+    s = np.concatenate([start[:, :1], start[:, 1:] + 1000], axis=1).ravel()
+    e = s + rng.uniform(50, 600, 12)
+    windows = Intervals.build(rows, s, e)
+    rest = replan.progress(np.array(list("abcdef"), dtype=object), 400.0,
+                           ["b", "d", "e"], [700.0, 1200.0, 1500.0],
+                           [760.0, 1300.0, np.nan])
+    got = replan.rest_windows(windows, rest, spacing_s=100.0)
+    t = np.arange(0.0, 2700.0, 0.5)
+    for r in range(6):
+        inside = ((t[:, None] > windows.start[windows.rows == r])
+                  & (t[:, None] < windows.end[windows.rows == r])).any(axis=1)
+        want = inside & (t > 400.0) & ~((t >= 700) & (t <= 760)) & ~((t >= 1200) & (t <= 1300))
+        want &= t > {1: 800.0, 3: 1300.0, 4: 1600.0}.get(r, -np.inf)
+        have = ((t[:, None] > got.start[got.rows == r])
+                & (t[:, None] < got.end[got.rows == r])).any(axis=1)
+        assert (have == want).all(), r
+    assert replan.rest_windows(windows, None, 100.0) is windows
