@@ -32,6 +32,8 @@ _HOMES = {
     "plan": "skyplan.api.plan",
     "plan_settings": "skyplan.api.plan",
     "Plan": "skyplan.api.plan",
+    "next_visit": "skyplan.api.nextvisit",
+    "NextVisit": "skyplan.api.nextvisit",
     "convert": "skyplan.api.positions",
     "Conversion": "skyplan.api.positions",
     "find": "skyplan.api.positions",

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import datetime as dt
 import time
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -79,6 +81,7 @@ class Plan:
     site: Site = field(repr=False)
     night: Night = field(repr=False)
     result: object = field(repr=False)  # skyplan.planning.build.NightPlan
+    rest: object = field(default=None, repr=False)  # skyplan.planning.replan.Progress
 
     @property
     def visits(self) -> list:
@@ -108,7 +111,7 @@ class Plan:
         """The document ``skyplan plan --format json`` writes."""
         from skyplan.render import planview
 
-        return planview.plan_document(self.result, self.site, time.time())
+        return planview.plan_document(self.result, self.site, time.time(), self.rest)
 
     def to_records(self) -> list[dict]:
         """One record per visit, as in the JSON ``observations`` (and NDJSON lines)."""
@@ -146,19 +149,73 @@ class Plan:
 @as_warnings
 def plan(targets: Targets, site: Site, night: Night, limits: Limits | None = None,
          settings: PlanSettings | None = None, *, computed: Windows | None = None,
-         **options) -> Plan:
+         start: dt.datetime | None = None, done=None, **options) -> Plan:
     """The night's visits in order, each target as high as the night allows.
 
     ``options`` are those of :func:`plan_settings` (or pass ``settings`` made by it);
     ``computed``: the targets' windows already computed with :func:`skyplan.windows`.
-    Raises :class:`skyplan.NothingObservable` when no target has a window.
+    ``start``: an aware datetime; plan only the rest of the night from then (before dusk:
+    the whole night).  ``done``: what is done already, its visits not planned again and
+    repeats counted: a file (a plan document with ``"done": true`` observations, NDJSON
+    lines with ``name``, ``start``, ``end``, or one name a line), or a list of names.
+    Raises :class:`skyplan.NothingObservable` when nothing can be observed; its ``plan``
+    attribute is then the plan without visits for that night (every target explained).
     """
-    from skyplan.planning import build
+    from skyplan.errors import NothingObservable
+    from skyplan.planning import build, emptynight
 
     chosen = settings if settings is not None else plan_settings(**options)
     if computed is None:
         computed = windows(targets, site, night, limits)
     res = computed.result
-    made = build.make_night_plan(res, targets.priority, targets.exposure_s,
-                                 chosen.overheads, chosen.options)
-    return Plan(site, night, made)
+    rest = rest_of_night(res.names, site, night, start, done)
+    try:
+        made = build.make_night_plan(res, targets.priority, targets.exposure_s,
+                                     chosen.overheads, chosen.options, rest=rest)
+    except NothingObservable as exc:
+        exc.plan = Plan(site, night, emptynight.empty_night_plan(
+            res, targets.priority, chosen.overheads, chosen.options, rest), rest)
+        raise
+    return Plan(site, night, made, rest)
+
+
+def rest_of_night(names, site: Site, night: Night, start: dt.datetime | None, done):
+    """The planner's :class:`skyplan.planning.replan.Progress` for ``start`` and ``done``
+    (None when both are None); done names not in the programme become notices."""
+    from skyplan import notices
+    from skyplan.errors import InputError
+    from skyplan.inputs import progress, timeinput
+    from skyplan.planning import replan
+
+    if start is None and done is None:
+        return None
+    start_unix = None
+    if start is not None:
+        if not isinstance(start, dt.datetime) or start.tzinfo is None:
+            raise InputError("give an aware datetime (with a time zone)", field="start")
+        start_unix = start.timestamp()
+    visits, source = (), "done"
+    if isinstance(done, (str, Path)):
+        span = (timeinput.local_noon_unix(night.date, site.tzinfo),
+                timeinput.local_noon_unix(night.date + dt.timedelta(days=1), site.tzinfo))
+        log = progress.read_done(done, site.tzinfo, span, night.date.isoformat())
+        visits, source = log.visits, log.path
+        if log.kind == "plan" and not visits:
+            notices.add(f'{source}: no observation is marked "done": true; nothing counted '
+                        "as done")
+    elif isinstance(done, progress.DoneLog):
+        visits, source = done.visits, done.path
+    elif done is not None:
+        if any(not isinstance(v, str) or not v.strip() for v in done):
+            raise InputError("a list of target names", field="done")
+        visits = tuple(progress.DoneVisit(v.strip(), None, None) for v in done)
+    nan = float("nan")
+    rest = replan.progress(
+        names, start_unix, [v.name for v in visits],
+        [nan if v.start is None else v.start for v in visits],
+        [nan if v.end is None else v.end for v in visits])
+    if rest.unknown:
+        shown = ", ".join(rest.unknown[:10]) + (" ..." if len(rest.unknown) > 10 else "")
+        notices.add(f"{source}: {len(rest.unknown)} done name(s) not in the programme, "
+                    f"not counted: {shown}")
+    return rest

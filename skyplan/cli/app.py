@@ -35,6 +35,7 @@ COMMANDS = (
     ("night", "skyplan.cli.night"),
     ("windows", "skyplan.cli.sky"),
     ("plan", "skyplan.cli.plan"),
+    ("next", "skyplan.cli.nextvisit"),
     ("chart", "skyplan.cli.charts"),
     ("clock", "skyplan.cli.clock"),
     ("convert", "skyplan.cli.convert"),

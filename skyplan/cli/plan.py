@@ -2,10 +2,46 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import typer
 
 from skyplan.cli import options as common
 from skyplan.cli import sky
+
+START_HELP = ("Plan only the rest of the night from this time: 'now', HH:MM on the night's "
+              "local clock (after noon the evening, before noon the next morning) or ISO 8601 "
+              "with Z or an offset.  Before dusk: the whole night.")
+DONE_HELP = ("Visits done already, not planned again (repeats counted): a plan JSON with "
+             "\"done\": true observations, NDJSON lines with name (start, end), or one name a "
+             "line.")
+
+# The options of a plan, shared with ``skyplan next`` (the same options give the same plan).
+Catalog = typer.Argument(None, help="Target list (CSV/TSV/ECSV/VOTable/FITS).")
+Date = typer.Option(None, "--date", "-d", help=sky.DATE_HELP)
+Done = typer.Option(None, "--done", help=DONE_HELP)
+Exposure = typer.Option(300.0, "--exposure", help="Exposure in seconds for targets without an "
+                        "exposure column value.")
+Setup = typer.Option(60.0, "--setup", help="Fixed setup overhead per visit, seconds.")
+Repeats = typer.Option(1, "--repeats", help="Visits per target.")
+Spacing = typer.Option(0.0, "--spacing", help="Minimum minutes between the starts of repeats "
+                       "of one target.")
+SlewRate = typer.Option("2,2", "--slew-rate", help="Slew rates AZ,ALT in degrees per second "
+                        "(or one value for both).")
+Settle = typer.Option(10.0, "--settle", help="Settle time after each slew, seconds.")
+TimeLimit = typer.Option(5.0, "--time-limit", help="Optimiser time limit, seconds.")
+AirmassSlack = typer.Option(
+    0.15, "--airmass-slack", help="Below the top priority, place a visit only at an air mass "
+    "within this fraction of the target's best tonight (0.15 = 15 %); negative turns the rule "
+    "off.")
+PriorityCut = typer.Option(None, "--priority-cut", help="Leave out targets with a lower "
+                           "priority.")
+AllowNearSun = typer.Option(False, "--allow-near-sun", help="Allow targets near the Sun into "
+                            "the plan (only with a proper solar filter).")
+Elements = typer.Option(None, "--elements", help="Orbital elements file (MPC one-line formats) "
+                        "for comets and asteroids named in the catalogue.")
+SkipBad = typer.Option(False, "--skip-bad-rows", help="Skip malformed catalogue rows "
+                       "(reported) instead of stopping.")
 
 
 def register(app: typer.Typer) -> None:
@@ -13,9 +49,11 @@ def register(app: typer.Typer) -> None:
 
 
 def plan_cmd(
-    catalog: str = typer.Argument(None, help="Target list (CSV/TSV/ECSV/VOTable/FITS)."),
+    catalog: str = Catalog,
     site: str = common.SiteOpt,
-    date: str = typer.Option(None, "--date", "-d", help=sky.DATE_HELP),
+    date: str = Date,
+    start: str = typer.Option(None, "--start", help=START_HELP),
+    done: str = Done,
     min_alt: float = sky.MinAlt,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
@@ -27,33 +65,22 @@ def plan_cmd(
     no_horizon_profile: bool = sky.NoProfile,
     airmass_model: str = sky.AirmassModel,
     refraction: str = sky.Refraction,
-    exposure: float = typer.Option(300.0, "--exposure", help="Exposure in seconds for targets "
-                                   "without an exposure column value."),
-    setup: float = typer.Option(60.0, "--setup", help="Fixed setup overhead per visit, seconds."),
-    repeats: int = typer.Option(1, "--repeats", help="Visits per target."),
-    spacing: float = typer.Option(0.0, "--spacing", help="Minimum minutes between the starts of "
-                                  "repeats of one target."),
-    slew_rate: str = typer.Option("2,2", "--slew-rate", help="Slew rates AZ,ALT in degrees per "
-                                  "second (or one value for both)."),
-    settle: float = typer.Option(10.0, "--settle", help="Settle time after each slew, seconds."),
+    exposure: float = Exposure,
+    setup: float = Setup,
+    repeats: int = Repeats,
+    spacing: float = Spacing,
+    slew_rate: str = SlewRate,
+    settle: float = Settle,
     method: str = typer.Option("optimal", "--method", help="optimal (integer program, HiGHS) or "
                                "dispatch (fast greedy)."),
-    time_limit: float = typer.Option(5.0, "--time-limit", help="Optimiser time limit, seconds."),
-    airmass_slack: float = typer.Option(
-        0.15, "--airmass-slack", help="Below the top priority, place a visit only at an air mass "
-        "within this fraction of the target's best tonight (0.15 = 15 %); negative turns the rule "
-        "off."),
-    priority_cut: int = typer.Option(None, "--priority-cut",
-                                     help="Leave out targets with a lower priority."),
-    allow_near_sun: bool = typer.Option(False, "--allow-near-sun", help="Allow targets near the "
-                                        "Sun into the plan (only with a proper solar filter)."),
-    elements: str = typer.Option(None, "--elements", help="Orbital elements file (MPC one-line "
-                                 "formats) for comets and asteroids named in the catalogue."),
+    time_limit: float = TimeLimit,
+    airmass_slack: float = AirmassSlack,
+    priority_cut: int = PriorityCut,
+    allow_near_sun: bool = AllowNearSun,
+    elements: str = Elements,
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
-    skip_bad: bool = typer.Option(False, "--skip-bad-rows",
-                                  help="Skip malformed catalogue rows (reported) instead of "
-                                  "stopping."),
+    skip_bad: bool = SkipBad,
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
@@ -61,41 +88,41 @@ def plan_cmd(
     """The night's observations in order, each target as high as the night allows.
 
     Exit status 0 with a plan, 2 for bad input, 3 when nothing is observable tonight.
+
+    With --out and status 3 the file holds that night's plan without observations.
     """
     from skyplan.api import plan as planning
-    from skyplan.api import targets, windows
-    from skyplan.cli.night import night_of
-    from skyplan.planning import dispatch as scheduling
-    from skyplan.render import planview, records, tables
+    from skyplan.errors import NothingObservable
 
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
-    method = common.check_format(method, scheduling.METHODS, "--method")
-    rates = _rates(slew_rate)
-    with common.named_as(exposure_s="--exposure", setup_s="--setup", settle_s="--settle",
-                         spacing_min="--spacing", time_limit_s="--time-limit",
-                         repeats="--repeats"):
-        settings = planning.plan_settings(
-            exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_min=spacing,
-            slew_rate_deg_s=rates, settle_s=settle, method=method, time_limit_s=time_limit,
-            airmass_slack=airmass_slack, priority_cut=priority_cut,
-            allow_near_sun=allow_near_sun)
+    chosen = settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
+                      airmass_slack, priority_cut, allow_near_sun)
     limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     with _progress(quiet) as step:
         step("reading targets and computing windows")
-        the_site = common.get_site(site, sites_file, demo)
-        lim = windows.limits(the_site, **limits_kw)
-        the_night = night_of(the_site, date, demo)
-        chosen = targets.read_targets(catalog, skip_bad_rows=skip_bad, elements=elements,
-                                      demo=demo)
-        computed = windows.windows(chosen, the_site, the_night, lim)
+        got = prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad,
+                      elements)
         step("scheduling")
-        made = planning.plan(chosen, the_site, the_night, lim, settings, computed=computed)
+        try:
+            made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
+                                 computed=got.computed, start=got.at, done=done)
+        except NothingObservable as exc:
+            if out is not None:
+                emit_plan(exc.plan, fmt, out)
+            raise
+    emit_plan(made, fmt, out)
+
+
+def emit_plan(made, fmt: str, out: str | None) -> None:
+    """The plan in the asked format, to stdout or atomically to ``out``."""
+    from skyplan.render import planview, records, tables
+
     plan = made.result
     if fmt == "table":
         edges, codes = made.timeline()
-        text = tables.render_text(planview.plan_table(plan, the_site, codes, edges,
+        text = tables.render_text(planview.plan_table(plan, made.site, codes, edges,
                                                       color=common.is_terminal()))
         if plan.not_placed:
             text += tables.render_text(planview.not_placed_table(plan))
@@ -108,6 +135,61 @@ def plan_cmd(
         common.emit(records.to_ndjson(doc["observations"]), out)
     else:
         common.emit(records.to_csv(doc["observations"]), out)
+
+
+def settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
+             airmass_slack, priority_cut, allow_near_sun):
+    """The checked plan settings of a command's options (errors name the options)."""
+    from skyplan.api import plan as planning
+    from skyplan.planning import dispatch as scheduling
+
+    method = common.check_format(method, scheduling.METHODS, "--method")
+    rates = _rates(slew_rate)
+    with common.named_as(exposure_s="--exposure", setup_s="--setup", settle_s="--settle",
+                         spacing_min="--spacing", time_limit_s="--time-limit",
+                         repeats="--repeats"):
+        return planning.plan_settings(
+            exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_min=spacing,
+            slew_rate_deg_s=rates, settle_s=settle, method=method, time_limit_s=time_limit,
+            airmass_slack=airmass_slack, priority_cut=priority_cut,
+            allow_near_sun=allow_near_sun)
+
+
+@dataclass(frozen=True)
+class Prepared:
+    site: object
+    night: object
+    limits: object
+    targets: object
+    computed: object
+    at: object  # the start as an aware datetime, or None
+
+
+def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, elements,
+            *, start_option: str = "--start") -> Prepared:
+    """Site, night (an ISO ``start`` without ``--date`` names it), limits, targets, windows
+    and the start as an aware datetime."""
+    import datetime as dt
+
+    from skyplan.api import targets, windows
+    from skyplan.cli.night import night_of
+    from skyplan.inputs import progress
+
+    the_site = common.get_site(site, sites_file, demo)
+    zone = the_site.tzinfo
+    if start is not None and date is None and not progress.is_clock_time(start):
+        date = progress.night_date_of(progress.start_instant(start, zone, None,
+                                                             field=start_option), zone)
+        date = date.isoformat()
+    lim = windows.limits(the_site, **limits_kw)
+    the_night = night_of(the_site, date, demo)
+    at = None
+    if start is not None:
+        at = dt.datetime.fromtimestamp(progress.start_instant(
+            start, zone, the_night.date, field=start_option), dt.UTC)
+    chosen = targets.read_targets(catalog, skip_bad_rows=skip_bad, elements=elements, demo=demo)
+    computed = windows.windows(chosen, the_site, the_night, lim)
+    return Prepared(the_site, the_night, lim, chosen, computed, at)
 
 
 def _rates(text: str) -> tuple[float, float]:

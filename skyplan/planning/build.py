@@ -16,7 +16,7 @@ from skyplan.engine import airmass as am
 from skyplan.engine import events
 from skyplan.errors import NothingObservable
 from skyplan.planning import dispatch as scheduling
-from skyplan.planning import model
+from skyplan.planning import model, replan
 
 SLOT_STEP_S = 120.0
 
@@ -96,15 +96,24 @@ SCHEDULER_TEXT = {
 
 
 def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads: Overheads,
-                    options: model.PlanOptions, progress=None) -> NightPlan:
-    """Schedule the targets that have windows; explain every target left out."""
+                    options: model.PlanOptions, progress=None,
+                    rest: replan.Progress | None = None) -> NightPlan:
+    """Schedule the targets that have windows; explain every target left out.
+
+    ``rest``: plan only the rest of the night (see :mod:`skyplan.planning.replan`).
+    """
     n = len(res.names)
+    wins = replan.rest_windows(res.windows, rest, overheads.spacing_s)
+    todo = replan.remaining(overheads.repeats, n, rest)
     has = np.zeros(n, bool)
-    has[np.unique(res.windows.rows)] = True
+    has[np.unique(wins.rows)] = True
+    has &= todo > 0
     if not has.any():
-        raise NothingObservable("no target can be observed tonight within the limits")
+        raise NothingObservable("no target can be observed tonight within the limits"
+                                if rest is None else "nothing left to observe tonight")
     idx = np.nonzero(has)[0]
-    start, end = float(res.windows.start.min()), float(res.windows.end.max())
+    best = replan.best_airmass_left(res, wins)
+    start, end = float(wins.start[has[wins.rows]].min()), float(wins.end[has[wins.rows]].max())
     slots = events.grid(start, end, SLOT_STEP_S)
     sky = res.sky
     rr = np.repeat(idx, len(slots))
@@ -115,24 +124,25 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     x = am.airmass(alt, res.limits.airmass_model)
     remap = np.full(n, -1)
     remap[idx] = np.arange(len(idx))
-    keep = has[res.windows.rows]
+    keep = has[wins.rows]
     exp = np.where(np.isfinite(exposure_s[idx]), exposure_s[idx], overheads.default_exposure_s)
     req = model.PlanRequest(
-        slot_unix=slots, win_target=remap[res.windows.rows[keep]],
-        win_start_unix=res.windows.start[keep], win_end_unix=res.windows.end[keep],
-        exposure_s=exp, repeats=np.full(len(idx), overheads.repeats),
+        slot_unix=slots, win_target=remap[wins.rows[keep]],
+        win_start_unix=wins.start[keep], win_end_unix=wins.end[keep],
+        exposure_s=exp, repeats=todo[idx],
         spacing_s=np.full(len(idx), overheads.spacing_s), priority=priority[idx],
-        best_airmass=res.best_airmass[idx],
+        best_airmass=best[idx],
         sun_flag=res.near_sun[idx] | res.daylight_window[idx],
         airmass=x, alt_deg=alt, az_deg=az, setup_s=overheads.setup_s,
         slew=model.SlewModel(overheads.slew_az_deg_s, overheads.slew_alt_deg_s,
                                   overheads.settle_s),
     )
     plan = scheduling.make_plan(req, options)
-    visits = _describe(res, plan, idx, priority, exp, overheads)
+    visits = replan.renumbered(_describe(res, plan, idx, priority, exp, overheads), rest, best)
+    gone = replan.left_out(res, wins, todo, rest, overheads.repeats)
     missing = []
     for i in np.nonzero(~has)[0]:
-        code, text = _reason(res, int(i))
+        code, text = gone.get(int(i)) or _reason(res, int(i))
         missing.append((int(i), code, text))
     for j, code in sorted(plan.not_placed.items()):
         missing.append((int(idx[j]), code, SCHEDULER_TEXT.get(code, code)))

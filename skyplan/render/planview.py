@@ -10,7 +10,7 @@ from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import _table, site_record
 from skyplan.render.windowview import _hhmm
 
-SCHEMA = "skyplan.plan/1"
+SCHEMA = "skyplan.plan/1.1"
 SAFETY = ("Advice only: the telescope's own limits, interlocks and the site's rules come first. "
           "Never point unfiltered optics at or near the Sun.")
 
@@ -31,7 +31,9 @@ def visit_record(v) -> dict:
     }
 
 
-def plan_document(p, site, generated_at: float) -> dict:
+def plan_document(p, site, generated_at: float, rest=None) -> dict:
+    """The plan as one JSON-ready document; ``rest`` (a re-plan's Progress) adds
+    ``rest_of_night``: the start and the visits counted as done, per target."""
     from skyplan.render.nightview import night_record
 
     res = p.windows
@@ -61,9 +63,20 @@ def plan_document(p, site, generated_at: float) -> dict:
             "idle_minutes": round(m.idle_minutes, 2), "objective": round(m.objective, 6),
             "gap": m.gap, "proven_optimal": m.proven_optimal, "method": m.method,
         },
+        **({} if rest is None else {"rest_of_night": rest_record(rest, res.names)}),
         "safety": SAFETY,
         "software": {"name": "skyplan", "version": __version__},
         "generated_at": iso_utc(generated_at),
+    }
+
+
+def rest_record(rest, names) -> dict:
+    """Where a re-plan starts and what it counted as done (targets in catalogue order)."""
+    done = rest.done
+    return {
+        "start": None if rest.start_unix is None else iso_utc(rest.start_unix),
+        "done": [{"name": str(names[i]), "visits": int(done[i])} for i in done.nonzero()[0]],
+        "unknown_done": list(rest.unknown),
     }
 
 
@@ -117,4 +130,76 @@ def not_placed_table(p):
         t.add_column(col)
     for i, _code, text in p.not_placed:
         t.add_row(str(res.names[i]), str(int(p.priority[i])), text)
+    return t
+
+
+NEXT_SCHEMA = "skyplan.next/1"
+_NEXT_HEADLINE = {
+    "observe": "observe now",
+    "wait": "nothing can be observed now",
+    "over": "nothing left to observe tonight",
+}
+
+
+def next_reasons(p, choice, zone) -> list[str]:
+    """Why the first visit of ``p`` was chosen, one short sentence each."""
+    v = p.visits[0]
+    top = ("the highest of the targets left" if v.priority >= choice.top_priority
+           else f"the highest left is {choice.top_priority}; the plan places those later")
+    out = [f"priority {v.priority}, {top}",
+           f"air mass {v.airmass_mid:.2f} at mid-exposure (best left tonight "
+           f"{v.best_airmass:.2f})"]
+    if choice.window_end_unix == choice.window_end_unix:
+        out.append(f"its window closes at {_hhmm(choice.window_end_unix, zone)} "
+                   f"({iso_utc(choice.window_end_unix)})")
+    out.append(f"visit {v.repeat} of {v.repeat + choice.left - 1} of this target")
+    return out
+
+
+def next_record(status: str, at: float, p, choice, site, generated_at: float) -> dict:
+    """The answer of ``skyplan next``: the visit (as a plan observation), why, what follows."""
+    zone = ZoneInfo(p.windows.night.zone)
+    first = p.visits[0] if p.visits else None
+    return {
+        "schema": NEXT_SCHEMA,
+        "at": iso_utc(at),
+        "status": status,
+        "summary": _NEXT_HEADLINE[status],
+        "night": p.windows.night.date.isoformat(),
+        "visit": None if first is None else visit_record(first),
+        "wait_s": None if first is None else round(max(first.start - at, 0.0), 1),
+        "next_possible": None if first is None else iso_utc(first.start),
+        "why": [] if first is None else next_reasons(p, choice, zone),
+        "then": [{k: r[k] for k in ("seq", "name", "repeat", "start", "end")}
+                 for r in (visit_record(v) for v in p.visits[1:4])],
+        "remaining": {"visits": len(p.visits),
+                      "targets": len({v.target for v in p.visits})},
+        "site": site_record(site, brief=True),
+        "safety": SAFETY,
+        "software": {"name": "skyplan", "version": __version__},
+        "generated_at": iso_utc(generated_at),
+    }
+
+
+def next_table(status: str, at: float, p, choice, site):
+    """The answer of ``skyplan next`` for a person: a few lines."""
+    zone = ZoneInfo(p.windows.night.zone)
+    t = _table(f"Next at {site.name}, {_hhmm(at, zone)} {p.windows.night.zone}, night of "
+               f"{p.windows.night.date.isoformat()}: {_NEXT_HEADLINE[status]}", SAFETY)
+    t.show_header = False
+    t.add_column("", justify="left")
+    t.add_column("", justify="left")
+    if not p.visits:
+        t.add_row("next possible", "none tonight")
+        return t
+    v = p.visits[0]
+    wait = max(v.start - at, 0.0)
+    t.add_row("visit", f"{v.name} (repeat {v.repeat}), {v.exposure_s / 60:.0f} min exposure")
+    t.add_row("start", f"{_hhmm(v.start, zone)} ({iso_utc(v.start)}), in {wait / 60:.0f} min"
+              if wait >= 60 else f"{_hhmm(v.start, zone)} ({iso_utc(v.start)}), now")
+    t.add_row("pointing", f"alt {v.alt_mid_deg:.0f}° az {v.az_mid_deg:.0f}° (mid-exposure)")
+    for k, line in enumerate(next_reasons(p, choice, zone)):
+        t.add_row("why" if k == 0 else "", line)
+    for k, n in enumerate(p.visits[1:4]):
+        t.add_row("then" if k == 0 else "", f"{_hhmm(n.start, zone)} {n.name}")
     return t

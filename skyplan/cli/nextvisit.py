@@ -1,0 +1,80 @@
+"""Command ``next``: what to observe now, for a control script that asks between visits."""
+
+from __future__ import annotations
+
+import typer
+
+from skyplan.cli import options as common
+from skyplan.cli import plan as planopts
+from skyplan.cli import sky
+
+AT_HELP = ("The moment asked about: 'now' (default), HH:MM on the night's local clock (after "
+           "noon the evening, before noon the next morning) or ISO 8601 with Z or an offset.")
+
+
+def register(app: typer.Typer) -> None:
+    app.command("next")(next_cmd)
+
+
+def next_cmd(
+    catalog: str = planopts.Catalog,
+    site: str = common.SiteOpt,
+    at: str = typer.Option("now", "--at", "-t", help=AT_HELP),
+    date: str = planopts.Date,
+    done: str = planopts.Done,
+    min_alt: float = sky.MinAlt,
+    max_airmass: float = sky.MaxAirmass,
+    dark: str = sky.Dark,
+    moon_gap: float = sky.MoonGap,
+    sun_gap: float = sky.SunGap,
+    ha_range: str = sky.HaRange,
+    dec_range: str = sky.DecRange,
+    between: str = sky.Between,
+    no_horizon_profile: bool = sky.NoProfile,
+    airmass_model: str = sky.AirmassModel,
+    refraction: str = sky.Refraction,
+    exposure: float = planopts.Exposure,
+    setup: float = planopts.Setup,
+    repeats: int = planopts.Repeats,
+    spacing: float = planopts.Spacing,
+    slew_rate: str = planopts.SlewRate,
+    settle: float = planopts.Settle,
+    method: str = typer.Option("dispatch", "--method", help="dispatch (fast greedy, default "
+                               "here) or optimal (integer program, as plan's default)."),
+    time_limit: float = planopts.TimeLimit,
+    airmass_slack: float = planopts.AirmassSlack,
+    priority_cut: int = planopts.PriorityCut,
+    allow_near_sun: bool = planopts.AllowNearSun,
+    elements: str = planopts.Elements,
+    sites_file: str = common.SitesFileOpt,
+    demo: bool = common.DemoOpt,
+    skip_bad: bool = planopts.SkipBad,
+    fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
+    out: str = common.OutOpt,
+    quiet: bool = common.QuietOpt,
+) -> int:
+    """What to observe now: the first visit of the plan of the rest of the night.
+
+    It is the first observation of 'plan --start AT --done FILE' with the same options.
+
+    Exit status 0: observe now; 3: nothing now (the answer gives the next possible visit).
+    """
+    from skyplan.api import nextvisit
+    from skyplan.errors import EXIT_NOTHING_OBSERVABLE, EXIT_OK
+    from skyplan.render import records, tables
+
+    common.set_quiet(quiet)
+    fmt = common.check_format(fmt, ("table", "json"))
+    chosen = planopts.settings(exposure, setup, repeats, spacing, slew_rate, settle, method,
+                               time_limit, airmass_slack, priority_cut, allow_near_sun)
+    limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+                               dec_range, between, no_horizon_profile, airmass_model, refraction)
+    got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
+                           elements, start_option="--at")
+    answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,
+                                  at=got.at, done=done, computed=got.computed)
+    if fmt == "json":
+        common.emit(records.to_json(answer.to_record()), out)
+    else:
+        common.emit(tables.render_text(answer.to_table()), out)
+    return EXIT_OK if answer.status == "observe" else EXIT_NOTHING_OBSERVABLE
