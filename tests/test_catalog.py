@@ -17,8 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from skyplan.errors import InputError, InputErrors
-from skyplan.inputs import catalog as catalog_module
-from skyplan.inputs import delimited
+from skyplan.inputs import catalogtypes, delimited
 from skyplan.inputs.catalog import Catalog, read_catalog
 
 # 05:35:17.3 = (5 + 35/60 + 17.3/3600) * 15 deg = 83.8220833 deg
@@ -484,7 +483,7 @@ def _outcome(path: Path, skip_bad: bool) -> tuple:
     cat = read.catalog
     columns = [
         [(type(x), x) for x in a.tolist()] if a.dtype == object else (a.dtype, a.tobytes())
-        for a in (getattr(cat, f) for f in catalog_module._ARRAY_FIELDS)
+        for a in (getattr(cat, f) for f in catalogtypes._ARRAY_FIELDS)
     ]
     skipped = [(e.message, e.line, e.field) for e in read.skipped]
     return ("read", columns, skipped, read.duplicates, read.ignored_columns)

@@ -1,0 +1,103 @@
+"""The catalogue's types: :class:`Catalog` (targets as numpy columns), :class:`CatalogRead`
+(a catalogue with what its reader noticed) and :class:`Columns`, the raw columns that every
+format reader hands on to be checked (:mod:`skyplan.inputs.catalogrows`).
+
+The formats and columns are described in :mod:`skyplan.inputs.catalog`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from skyplan.errors import InputError
+
+_ARRAY_FIELDS = (
+    "name",
+    "ra_deg",
+    "dec_deg",
+    "pm_ra_masyr",
+    "pm_dec_masyr",
+    "epoch_jyear",
+    "parallax_mas",
+    "radial_velocity_kms",
+    "priority",
+    "exposure_s",
+    "notes",
+    "line",
+)
+
+
+@dataclass
+class Catalog:
+    """Targets as equal-length numpy columns.
+
+    ``ra_deg``/``dec_deg`` are NaN for rows that give a name only.  ``priority``: higher
+    numbers are more important (default 1).  ``exposure_s``: NaN means the command's
+    default.  ``line``: where the row is in ``source`` — the 1-based line of a text file
+    (CSV, TSV, TXT, ECSV), or the 1-based row number of a FITS or VOTable table.
+    """
+
+    name: np.ndarray  # object array of str
+    ra_deg: np.ndarray
+    dec_deg: np.ndarray
+    pm_ra_masyr: np.ndarray  # μα·cos δ
+    pm_dec_masyr: np.ndarray
+    epoch_jyear: np.ndarray
+    parallax_mas: np.ndarray
+    radial_velocity_kms: np.ndarray
+    priority: np.ndarray  # int64
+    exposure_s: np.ndarray
+    notes: np.ndarray  # object array of str
+    line: np.ndarray  # int64
+    source: str = ""
+
+    def __post_init__(self) -> None:
+        lengths = {f: len(getattr(self, f)) for f in _ARRAY_FIELDS}
+        if len(set(lengths.values())) > 1:
+            raise ValueError(f"catalogue columns differ in length: {lengths}")
+
+    def __len__(self) -> int:
+        return len(self.name)
+
+    def subset(self, index: np.ndarray | Sequence[int]) -> Catalog:
+        """The rows picked by an integer index array or a boolean mask, in that order."""
+        picked = np.asarray(index)
+        if picked.ndim != 1:
+            raise ValueError("subset needs a one-dimensional index or mask")
+        if picked.size == 0:
+            picked = picked.astype(np.intp)
+        return Catalog(**{f: getattr(self, f)[picked] for f in _ARRAY_FIELDS}, source=self.source)
+
+    @property
+    def needs_lookup(self) -> np.ndarray:
+        """True for rows whose position must be found from the name (RA or Dec is NaN)."""
+        return np.isnan(self.ra_deg) | np.isnan(self.dec_deg)
+
+
+@dataclass
+class CatalogRead:
+    """A catalogue as read, with what the reader noticed on the way."""
+
+    catalog: Catalog
+    skipped: list[InputError] = field(default_factory=list)  # one per dropped row
+    duplicates: list[str] = field(default_factory=list)  # names given more than once
+    ignored_columns: list[str] = field(default_factory=list)  # header names not used
+
+
+
+@dataclass
+class Columns:
+    """What a format reader hands on: raw column values by field, before any checking."""
+
+    source: str
+    headers: dict[str, str]  # field -> column name as written in the file
+    values: dict[str, Sequence[object]]  # field -> text (or numbers from typed tables)
+    where: np.ndarray  # line (text files) or row number (tables) of each row
+    in_lines: bool  # whether ``where`` holds text lines
+    ignored: list[str]
+    problems: dict[int, list[tuple[str | None, str]]]  # row -> [(column, message)]
+    trimmed: bool = False  # every text is printable ASCII without a space at either end
+    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see delimited.Cells
