@@ -8,8 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from skyplan.planning import build, replan
-from skyplan.planning import model
+from skyplan.planning import build, model, replan
 
 
 def empty_night_plan(res, priority: np.ndarray, overheads: build.Overheads,
@@ -33,7 +32,7 @@ def empty_night_plan(res, priority: np.ndarray, overheads: build.Overheads,
         codes[i], texts[i] = code, text
     order = np.lexsort((np.arange(n), -np.asarray(priority, dtype=np.int64)))
     missing = [(int(i), str(codes[i]), str(texts[i])) for i in order]
-    metrics = scheduling.PlanMetrics(
+    metrics = model.PlanMetrics(
         placed=0, possible=0, airmass_excess=float("nan"), idle_minutes=0.0, objective=0.0,
         solver_objective=None, dual_bound=None, gap=None, method=options.method,
         proven_optimal=False)
