@@ -231,8 +231,8 @@ def _split_regular(text: str, rows: int, delimiter: str) -> Grid | None:
 def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
     """Whether every field of text in which every line is a row is printable ASCII without a
     space at either end (``str.strip`` then leaves it as it is and the unprintable-character
-    check of ``catalogrows`` finds nothing in it).  Bytes outside printable ASCII may only be line ends (LF, CR LF)
-    and tab separators."""
+    check of ``catalogrows`` finds nothing in it).  Bytes outside printable ASCII may only be
+    line ends (LF, CR LF) and tab separators."""
     a = np.frombuffer(data, np.uint8)
     outside = np.count_nonzero(a - np.uint8(0x20) > 0x7E - 0x20)
     ends = data.count(b"\n") + data.count(b"\r") + (data.count(b"\t") if delimiter == b"\t" else 0)
