@@ -160,18 +160,12 @@ def split_position(text: str) -> tuple[str, str] | None:
         half = len(words) // 2
         parts = [" ".join(words[:half]), " ".join(words[half:])]
     first, second = (p.strip() for p in parts)
-    for part in (first, second):
-        if not any(_reads(part, hours) for hours in (True, False)):
+    for part, hours in ((first, True), (second, False)):
+        try:
+            _read(part, "angle", "", hours=hours)  # hours also take a bare decimal or d/m/s
+        except ValueError:
             return None
     return first, second
-
-
-def _reads(text: str, hours: bool) -> bool:
-    try:
-        _read(text, "angle", "", hours=hours)
-    except ValueError:
-        return False
-    return True
 
 
 def _as_text(value: object) -> str | None:

@@ -68,9 +68,9 @@ def night_table(n, site) -> list:
     m = n.moon
     lst = {k: "—" if n.lst_deg[k] is None else format_hms(n.lst_deg[k], 0)
            for k in ("dusk", "dawn")}
+    state = STATE_TEXT.get(n.sun_state, n.sun_state)
     footer = [
-        f"{STATE_TEXT.get(n.sun_state, n.sun_state)}; dark (Sun below −18°) for "
-        f"{n.dark_hours:.2f} h.",
+        f"{state[:1].upper()}{state[1:]}; dark (Sun below −18°) for {n.dark_hours:.2f} h.",
         f"Sidereal time {lst['dusk']} at dusk and {lst['dawn']} at dawn (astronomical "
         "twilight, or the nearest event when the Sun does not reach −18°).",
         f"Moon {100 * m.illumination:.0f}% lit, {'waxing' if m.waxing else 'waning'} "

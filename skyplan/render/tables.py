@@ -22,16 +22,20 @@ A view builds a :class:`Sheet` and hands it (or a list of sheets and :class:`Str
     sheet.column("type", rank=6, fate="drop")             # may go
     sheet.column("RA", justify="right")
     sheet.column("note", rank=9, fate="wrap", style="dim")  # may wrap onto more lines
-    sheet.add_row("M42", ("M 42 = NGC 1976", "M 42"), "nebula", "05:35:16", "…")
+    sheet.add_row("M42", ("M 42 = NGC 1976", "M 42"), "nebula", "05:35:16", "bright")
 
 Columns appear in the order declared; ``rank`` says how important a column is (lower is
 more important; by default the order of declaration).  A cell is text, a rich ``Text``
 (styles kept), or a pair ``(full, short)``: the short form is used when the table is too
 wide.  :func:`fit` then, until the table fits: (1) shortens columns, least important first;
 (2) applies each column's ``fate``, least important first: ``drop`` (the column goes;
-the footer says so), ``note`` (its values are listed below the table, one line per row),
-``wrap`` (its cells wrap at spaces onto more lines), ``keep`` (nothing); (3) as a last
-resort wraps the widest column.  ``--wide`` skips all of it.
+the footer names it), ``note`` (its values go below the table, one line per row, led by
+the row's first cell), ``wrap`` (every ``wrap`` column narrows together, widest first, to
+no less than 12 characters, its cells wrapping at spaces), ``keep`` (nothing); short forms
+come back where there is room; (3) as a last resort the widest columns wrap.  ``--wide``
+skips all of it.  A command offers ``--wide`` with ``wide: bool = options.WideOpt`` and
+passes ``wide=wide`` to :func:`render_text` (the windows and plan views are next: their
+timeline cells can be rich ``Text`` with colours, kept as they are).
 """
 
 from __future__ import annotations
