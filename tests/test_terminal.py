@@ -316,3 +316,23 @@ def test_flags_show_no_type(capsys, command):
     status, out, _ = run(capsys, command, "--help")
     assert status == 0
     assert "<bool>" not in out and "--wide" in out
+
+
+def test_polar_night_lists_missing_events_last(capsys, monkeypatch):
+    # Longyearbyen, 78.2 N, in December: polar night (no sunset, no civil twilight)
+    monkeypatch.setenv("COLUMNS", "80")
+    status, out, err = run(capsys, "night", "--site", "78.2,15.6", "--date", "2026-12-18")
+    assert status == 0, err
+    _check_fits(out, 80)
+    rows = [x for x in out.splitlines() if re.match(r"^(sunset|sunrise|civil|nautical|astro)", x)]
+    dashed = [i for i, x in enumerate(rows) if "—" in x]
+    timed = [i for i, x in enumerate(rows) if "—" not in x]
+    assert dashed and timed and max(timed) < min(dashed)
+    assert "not this night" in out and "Polar night" in out
+
+
+def test_find_json_notes_unknown_names(capsys):
+    status, out, err = run(capsys, "find", "M42", "Vgea", "-f", "json", "--at", AT)
+    assert status == 0
+    assert [r["query"] for r in json.loads(out)] == ["M42"]
+    assert "skyplan: note: not found: Vgea" in err

@@ -29,6 +29,10 @@ def find_cmd(
     with options.named_as(at="--at"):
         found = positions.find(list(name), at=at, elements=elements)
     if fmt == "json":
+        from skyplan import notices
+
+        for query, problem in found.unknown:  # the table marks them; JSON gets a note each
+            notices.add(f"not found: {query}: {problem}")
         options.emit(records.to_json(found.to_records()), None)
     else:
         table = findview.found_table(found.found, found.unknown)

@@ -85,7 +85,8 @@ def night_table(n, site) -> list:
     events.sort(key=lambda e: (e[1] is None, e[1] or 0.0))
     for name, when, note in events:
         if when is None:
-            t.add_row(name, "—", "—", note or "does not happen this night")
+            t.add_row(name, "—", "—", f"{note}: not this night" if note else
+                      "does not happen this night")
             continue
         local = iso_local(when, zone)[:16].replace("T", " ")
         t.add_row(name, (local, local[5:]), iso_utc(when)[11:16] + "Z", note)
@@ -93,5 +94,5 @@ def night_table(n, site) -> list:
     strip = Strip("local hour", "Moon alt.", [f"{dt.datetime.fromtimestamp(h, zone):%H}h"
                                               for h in hours],
                   [f"{a:+.0f}°" for a in alts],
-                  title="The Moon's altitude, hour by hour from sunset")
+                  title="The Moon's altitude, hour by hour through the night")
     return [t, strip] if len(hours) else [t]
