@@ -144,7 +144,7 @@ def _text(value, style: str | None):
 
     if isinstance(value, Text):
         return value
-    return Text("" if value is None else str(value), style=style or "")
+    return Text("" if value is None else " ".join(str(value).splitlines()), style=style or "")
 
 
 def _wrap(text, width: int) -> list:
