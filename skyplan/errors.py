@@ -26,6 +26,10 @@ class SkyplanError(Exception):
     def one_line(self) -> str:
         return " ".join(str(self).split())
 
+    def lines(self) -> list[str]:
+        """The message as the CLI prints it, one line each (one line for most errors)."""
+        return [self.one_line()]
+
     def __reduce__(self):
         """Pickle as it is, message and attributes (an error crosses a process boundary whole)."""
         return _restore, (type(self), self.args, dict(self.__dict__))
@@ -70,10 +74,16 @@ class InputError(SkyplanError):
 
 
 class InputErrors(InputError):
-    """Several input problems at once (e.g. every bad row of a catalogue)."""
+    """Several input problems at once (e.g. every bad row of a catalogue).
+
+    ``str()`` is one line (for logs and the API); :meth:`lines` is what the CLI prints: a
+    count, then each problem on a line of its own (file:line, field, what is wrong), at
+    most ``limit`` of them, then ``and N more``.
+    """
 
     def __init__(self, problems: list[InputError], *, limit: int = 20) -> None:
         self.problems = problems
+        self.limit = limit
         if len(problems) == 1:
             super().__init__(problems[0].one_line())
             return
@@ -86,6 +96,16 @@ class InputErrors(InputError):
 
     def _compose(self) -> str:  # the message is already complete
         return self.message
+
+    def lines(self) -> list[str]:
+        if len(self.problems) == 1:
+            return [self.one_line()]
+        shown = [p.one_line() for p in self.problems[:max(self.limit, 0)]]
+        more = len(self.problems) - len(shown)
+        files = {p.file for p in self.problems}
+        where = f" in {next(iter(files))}" if len(files) == 1 and None not in files else ""
+        return ([f"{len(self.problems)} problems{where}:"] + [f"  {line}" for line in shown]
+                + ([f"  and {more} more"] if more else []))
 
 
 class OutputError(SkyplanError):

@@ -21,9 +21,9 @@ class Conversion:
         return len(self.result.lon_deg)
 
     def to_records(self) -> list[dict]:
-        from skyplan.render import tables
+        from skyplan.render import convertview
 
-        return tables.conversion_records(self.result)
+        return convertview.conversion_records(self.result)
 
     def to_table(self):
         """An astropy QTable: name, identifier, the two angles of the frame (deg), and for
@@ -68,7 +68,9 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
     """Convert positions between frames: icrs, fk5, apparent, horizon, ecliptic, galactic.
 
     ``positions``: a catalogue file, two angles of ``from_frame`` (``["05h35m17s",
-    "-05d23m28s"]``), or target names.  ``at`` is needed for the apparent and horizon
+    "-05d23m28s"]``, or one text holding both: ``"05:35:17 -05:23:28"``,
+    ``"05:35:17,-05:23:28"``), or target names.  The horizon frame's two angles are
+    azimuth (from north through east), then altitude.  ``at`` is needed for the apparent and horizon
     frames and the ecliptic of date: an aware datetime, astropy Time, ISO 8601 text (without
     an offset: the site's clock) or 'now'.  ``site`` is needed for the horizon frame.
     ``refraction``: bennett, erfa or none.
@@ -77,7 +79,7 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
     from skyplan.engine import convert as conversion
     from skyplan.engine import ephemeris, frames
     from skyplan.errors import InputError
-    from skyplan.inputs import targets
+    from skyplan.inputs import angles, targets
 
     for value, name, allowed in ((from_frame, "from_frame", frames.FRAMES),
                                  (to_frame, "to_frame", frames.FRAMES),
@@ -94,6 +96,9 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
         ephemeris.check_in_span(unix, unix, field="at")
     if isinstance(positions, (str, Path)):
         positions = [str(positions)]
+    positions = [str(p) for p in positions]
+    if len(positions) == 1 and not Path(positions[0]).is_file():
+        positions = list(angles.split_position(positions[0]) or positions)
     found = targets.targets_from_arguments([str(p) for p in positions], from_frame,
                                            skip_bad=skip_bad_rows, demo=demo)
     request = conversion.ConversionRequest(
@@ -105,9 +110,11 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
 
 @dataclass(frozen=True, eq=False)
 class Lookup:
-    """What names resolve to (``to_records``: as ``skyplan find -f json``)."""
+    """What names resolve to (``to_records``: as ``skyplan find -f json``); ``unknown``
+    holds the names that did not resolve, each with the problem (and the closest names)."""
 
     found: list = field(repr=False)  # skyplan.engine.find.Found
+    unknown: list[tuple[str, str]] = field(default_factory=list)
 
     def __len__(self) -> int:
         return len(self.found)
@@ -136,7 +143,11 @@ class Lookup:
 
 @as_warnings
 def find(names: list[str] | str, *, at=None, elements: str | Path | None = None) -> Lookup:
-    """What each name resolves to, offline; moving targets placed at ``at`` (default now)."""
+    """What each name resolves to, offline; moving targets placed at ``at`` (default now).
+
+    Names that do not resolve are listed in ``unknown``; when none resolves, the problems
+    are raised (an InputError, or InputErrors for several names).
+    """
     from skyplan.api.targets import _orbits
     from skyplan.api.times import posix
     from skyplan.engine import ephemeris
@@ -147,4 +158,15 @@ def find(names: list[str] | str, *, at=None, elements: str | Path | None = None)
     orbits = _orbits(elements)
     unix = posix("now" if at is None else at)
     ephemeris.check_in_span(unix, unix, field="at")
-    return Lookup(lookup.look_up(list(names), orbits, unix))
+    from skyplan.errors import InputError, InputErrors
+
+    found, unknown, problems = [], [], []
+    for name in names:  # a handful of names typed by hand
+        try:
+            found += lookup.look_up([name], orbits, unix)
+        except InputError as exc:
+            unknown.append((name, exc.message))
+            problems.append(exc)
+    if not found and problems:
+        raise problems[0] if len(problems) == 1 else InputErrors(problems)
+    return Lookup(found, unknown)

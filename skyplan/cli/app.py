@@ -3,7 +3,8 @@
 Commands parse options, call the public API (``skyplan.api``) and hand results to a
 renderer; no astronomy here.  Each command lives in a module of its own, which registers it
 on the app :func:`build` makes for one run; only the command asked for is imported.
-Every error reaches the user as one line on stderr, starting ``skyplan:``, with a documented
+Every error reaches the user as one line on stderr, starting ``skyplan:`` (several problems
+at once: a count, then a line each, at most 20, then ``and N more``), with a documented
 exit status (``skyplan/errors.py``; the list with examples is ``docs/errors.md``).  Notices
 from the engine follow the result as ``skyplan: note: ...`` lines, and so does any warning a
 library raises that was not handled where it arose: nothing else is ever written to stderr.
@@ -118,8 +119,11 @@ def _click_module():
 
 
 def plain_line(text: str) -> str:
-    """One printable line: white space runs folded, control characters escaped, length cut."""
-    folded = " ".join(str(text).split())
+    """One printable line: white space runs folded (a short indent kept), control
+    characters escaped, length cut."""
+    text = str(text)
+    indent = " " * min(len(text) - len(text.lstrip(" ")), 4)
+    folded = indent + " ".join(text.split())
     shown = _UNPRINTABLE.sub(lambda m: repr(m.group())[1:-1], folded)
     if len(shown) > MAX_LINE_CHARS:
         shown = shown[: MAX_LINE_CHARS - 1] + "…"
@@ -176,8 +180,10 @@ def main(argv: list[str] | None = None) -> None:
         except errors.SkyplanError as exc:
             if debug:
                 raise
-            _print_notices(notices.take(), caught)
-            _fail(exc.one_line(), exc.exit_status)
+            _print_notices(notices.take(), caught, bad_input=isinstance(exc, errors.InputError))
+            for line in exc.lines()[:-1]:
+                _say(line)
+            _fail(exc.lines()[-1], exc.exit_status)
         except typer.Exit as exc:
             status = exc.exit_code
         except typer.Abort:
@@ -210,14 +216,23 @@ def main(argv: list[str] | None = None) -> None:
     raise SystemExit(status)
 
 
-def _print_notices(lines: list[str], caught: list[warnings.WarningMessage]) -> None:
+def _print_notices(lines: list[str], caught: list[warnings.WarningMessage], *,
+                   bad_input: bool = False) -> None:
     """Notices (the API's SkyplanWarnings, in their order, then any recorded outside the
-    API), then any library warning nobody handled, each as one ``note`` line."""
+    API), then any library warning nobody handled, each as one ``note`` line.
+
+    Before a bad-input error, the site's zone warnings are left out: the error is what to
+    fix first, and the warning comes back with the result.
+    """
     from skyplan.cli import options
     from skyplan.notices import SkyplanWarning
 
     ours = [w for w in caught if issubclass(w.category, SkyplanWarning)]
     lines = [str(w.message) for w in ours] + lines
+    if bad_input:
+        from skyplan.inputs.sites import SITE_WARNING
+
+        lines = [line for line in lines if not line.startswith(SITE_WARNING)]
     for warning in caught:
         if not issubclass(warning.category, SkyplanWarning):
             lines.append(f"{warning.category.__name__}: {warning.message}")

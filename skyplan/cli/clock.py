@@ -19,10 +19,11 @@ def clock(
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
     out: str = options.OutOpt,
     quiet: bool = options.QuietOpt,
+    wide: bool = options.WideOpt,
 ) -> None:
     """UTC, local time, UT1, TT, Julian dates and sidereal times at a site."""
     from skyplan.api import clock as clock_api
-    from skyplan.render import records, tables
+    from skyplan.render import clockview, records, tables
 
     options.set_quiet(quiet)
     fmt = options.check_format(fmt, ("table", "json"))
@@ -32,4 +33,5 @@ def clock(
     if fmt == "json":
         options.emit(records.to_json(reading.to_records()), out)
     else:
-        options.emit(tables.render_text(tables.clock_table(reading.reading, the_site)), out)
+        options.emit(tables.render_text(clockview.clock_table(reading.reading, the_site),
+                                        wide=wide), out)

@@ -17,8 +17,10 @@ def register(app: typer.Typer) -> None:
 def convert(
     position: list[str] = typer.Argument(
         None,
-        help="A catalogue file, or a position as two values (RA DEC, or the two angles of the "
-        "--from frame), or target names.",
+        help="A catalogue file, or a position (RA DEC; l b; λ β; for --from horizon AZ ALT, "
+        "azimuth from north through east, then altitude; the output lists them in the same "
+        "order) as two values or one ('05:35:17.3 -05:23:28', '05:35:17.3,-05:23:28', "
+        "5h35m17.3s -5d23m28s), or target names.",
     ),
     from_frame: str = typer.Option("icrs", "--from", help="Frame of the input: " + FRAME_HELP),
     to_frame: str = typer.Option("horizon", "--to", help="Frame of the output: " + FRAME_HELP),
@@ -43,11 +45,12 @@ def convert(
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = options.OutOpt,
     quiet: bool = options.QuietOpt,
+    wide: bool = options.WideOpt,
 ) -> None:
     """Convert positions between frames (ICRS, FK5, apparent, horizon, ecliptic, galactic)."""
     from skyplan.api import positions
     from skyplan.engine import frames
-    from skyplan.render import records, tables
+    from skyplan.render import convertview, records, tables
 
     options.set_quiet(quiet)
     fmt = options.check_format(fmt, ("table", "json", "ndjson", "csv"))
@@ -70,4 +73,5 @@ def convert(
     elif fmt == "csv":
         options.emit(records.to_csv(rows), out)
     else:
-        options.emit(tables.render_text(tables.conversion_table(result.result)), out)
+        options.emit(tables.render_text(convertview.conversion_table(result.result), wide=wide),
+                     out)

@@ -19,6 +19,7 @@ def find_cmd(
     at: str = typer.Option("now", "--at", "-t", help="Instant for the place of moving targets. "
                            + options.TIME_NOTE),
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
+    wide: bool = options.WideOpt,
 ) -> None:
     """What a target name resolves to: catalogue, identifiers, position, motion, magnitude."""
     from skyplan.api import positions
@@ -28,6 +29,11 @@ def find_cmd(
     with options.named_as(at="--at"):
         found = positions.find(list(name), at=at, elements=elements)
     if fmt == "json":
+        from skyplan import notices
+
+        for query, problem in found.unknown:  # the table marks them; JSON gets a note each
+            notices.add(f"not found: {query}: {problem}")
         options.emit(records.to_json(found.to_records()), None)
     else:
-        options.emit(tables.render_text(findview.found_table(found.found)), None)
+        table = findview.found_table(found.found, found.unknown)
+        options.emit(tables.render_text(table, wide=wide), None)

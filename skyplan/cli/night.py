@@ -31,6 +31,7 @@ def night_cmd(
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
     out: str = options.OutOpt,
     quiet: bool = options.QuietOpt,
+    wide: bool = options.WideOpt,
 ) -> None:
     """Sunset, twilights, darkness, the Moon and sidereal times for one night."""
     from skyplan.render import nightview, records, tables
@@ -42,4 +43,5 @@ def night_cmd(
     if fmt == "json":
         options.emit(records.to_json(n.to_records()), out)
     else:
-        options.emit(tables.render_text(nightview.night_table(n.engine_night, the_site)), out)
+        options.emit(tables.render_text(nightview.night_table(n.engine_night, the_site),
+                                        wide=wide), out)

@@ -33,6 +33,11 @@ SiteOpt = typer.Option(None, "--site", "-s", help=SITE_HELP)
 SitesFileOpt = typer.Option(None, "--sites-file", help=SITES_FILE_HELP)
 DemoOpt = typer.Option(False, "--demo", help=DEMO_HELP)
 QuietOpt = typer.Option(False, "--quiet", "-q", help="Print nothing but the result (no notes).")
+WideOpt = typer.Option(
+    False, "--wide", "-w",
+    help="Tables: every column in full, lines as long as needed (else fitted to COLUMNS, "
+    "the terminal, or 100 columns).",
+)
 OutOpt = typer.Option(
     None, "--out", "-o", help="Write to this file (atomically: temporary file, then rename)."
 )

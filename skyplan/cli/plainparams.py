@@ -16,6 +16,12 @@ typer release no longer has them.  Only parameter objects that carry an unset
 
 from __future__ import annotations
 
+import re
+
+# A value such as -05:23:28, -5d23m28s, -5.39 or -5°23′28″: a negative angle or number,
+# never an option (no option of ours is a dash and a digit).
+NEGATIVE_VALUE = re.compile(r"-\.?\d[\d.:hmsd°′″'\" ]*")
+
 _KINDS = {str: "text", float: "number", int: "whole number", bool: "yes or no"}
 _BOOLS = {"1": True, "true": True, "yes": True, "on": True,
           "0": False, "false": False, "no": False, "off": False}
@@ -77,7 +83,14 @@ def _plain_kind(param) -> type | None:
     return desc.annotation if desc.annotation in _KINDS else None
 
 
+def _no_type(ctx) -> None:
+    """A flag's help shows no value type (typer would show ``<bool>``)."""
+    return None
+
+
 def _give(param) -> bool:
+    if getattr(param, "is_flag", False) and hasattr(param, "display_type_rich"):
+        param.display_type_rich = _no_type
     kind = _plain_kind(param)
     if kind is list:
         param._runtime_param = TextList()
@@ -101,6 +114,29 @@ def _with_help_option(cmd) -> None:
     cmd.get_help_option = get_help_option
 
 
+def _negative_values_positional(cmd) -> None:
+    """A negative angle typed as a value (``-5d23m28s``) is read as a value, not as a run
+    of short options (click would read ``-5d23m28s`` as ``-5 -d ... -s``)."""
+    made = getattr(cmd, "make_parser", None)
+    if made is None:
+        return
+
+    def make_parser(ctx):
+        parser = made(ctx)
+        process = parser._process_opts
+
+        def _process_opts(arg, state):
+            if NEGATIVE_VALUE.fullmatch(arg):
+                state.largs.append(arg)
+            else:
+                process(arg, state)
+
+        parser._process_opts = _process_opts
+        return parser
+
+    cmd.make_parser = make_parser
+
+
 def install(command) -> int:
     """Give every plain option of ``command`` and its subcommands our conversion.
 
@@ -112,5 +148,6 @@ def install(command) -> int:
         cmd = stack.pop()
         stack.extend(getattr(cmd, "commands", {}).values())
         _with_help_option(cmd)
+        _negative_values_positional(cmd)
         done += sum(_give(param) for param in getattr(cmd, "params", ()))
     return done

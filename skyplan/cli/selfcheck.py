@@ -13,18 +13,19 @@ def register(app: typer.Typer) -> None:
 
 def selfcheck(
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
+    wide: bool = options.WideOpt,
 ) -> None:
     """Check the installation offline against reference cases with known answers."""
     from skyplan.api import clock
     from skyplan.errors import SelfcheckFailed
-    from skyplan.render import records, tables
+    from skyplan.render import checkview, records, tables
 
     fmt = options.check_format(fmt, ("table", "json"))
     report = clock.selfcheck()
     if fmt == "json":
         options.emit(records.to_json(tables.selfcheck_record(report)), None)
     else:
-        options.emit(tables.render_text(tables.selfcheck_table(report)), None)
+        options.emit(tables.render_text(checkview.selfcheck_table(report), wide=wide), None)
     if not report.ok:
         failed = [c.name for c in report.checks if not c.ok]
         raise SelfcheckFailed(f"selfcheck: {len(failed)} of {len(report.checks)} checks "

@@ -21,13 +21,14 @@ def register(app: typer.Typer) -> None:
 def sites_list(
     sites_file: str = options.SitesFileOpt,
     demo: bool = options.DemoOpt,
+    wide: bool = options.WideOpt,
 ) -> None:
     """List the sites in the sites file."""
     from skyplan.api import sites
-    from skyplan.render import tables
+    from skyplan.render import siteview, tables
 
     parsed = sites.sites(sites_file, demo=demo)
-    options.emit(tables.render_text(tables.sites_table(parsed)), None)
+    options.emit(tables.render_text(siteview.sites_table(parsed), wide=wide), None)
 
 
 def sites_show(
@@ -35,10 +36,11 @@ def sites_show(
     sites_file: str = options.SitesFileOpt,
     demo: bool = options.DemoOpt,
     fmt: str = typer.Option("table", "--format", "-f", help="table, json or toml."),
+    wide: bool = options.WideOpt,
 ) -> None:
     """Show one site: position, zone, weather, horizon profile and default limits."""
     from skyplan.inputs import sites
-    from skyplan.render import records, tables
+    from skyplan.render import records, siteview, tables
 
     fmt = options.check_format(fmt, ("table", "json", "toml"))
     the_site = options.get_site(name, sites_file, demo)
@@ -47,7 +49,7 @@ def sites_show(
     elif fmt == "toml":
         options.emit(sites.site_to_toml(the_site), None)
     else:
-        options.emit(tables.render_text(tables.site_table(the_site)), None)
+        options.emit(tables.render_text(siteview.site_table(the_site), wide=wide), None)
 
 
 def sites_check(file: Path = typer.Argument(..., help="Sites file to check.")) -> None:

@@ -7,8 +7,8 @@ import typer
 from skyplan.cli import options as common
 from skyplan.inputs.limits import SPECS
 
-DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight'); "
-             "default: the current night.")
+DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight', "
+             "'tomorrow'); default: the current night.")
 
 
 def _limit_option(key: str):

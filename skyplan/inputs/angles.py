@@ -143,6 +143,31 @@ def parse_angle_deg(text: str) -> float:
     return _read(text, "angle", "use degrees like 30, 30:15:00 or 30d15m", hours=False)
 
 
+def split_position(text: str) -> tuple[str, str] | None:
+    """The two angles of a position typed as one value, or None when it is not two angles
+    (a target name such as ``M 42``).
+
+    Accepted: ``"05:35:17.3 -05:23:28"``, ``"05:35:17.3,-05:23:28"``,
+    ``"5h35m17.3s -5d23m28s"``, ``"05 35 17.3 -05 23 28"`` (a comma, or the words halved).
+    """
+    if len(text) > 2 * MAX_ANGLE_CHARS:
+        return None
+    parts = text.split(",")
+    if len(parts) != 2:
+        words = text.split()
+        if len(words) not in (2, 4, 6):
+            return None
+        half = len(words) // 2
+        parts = [" ".join(words[:half]), " ".join(words[half:])]
+    first, second = (p.strip() for p in parts)
+    for part, hours in ((first, True), (second, False)):
+        try:
+            _read(part, "angle", "", hours=hours)  # hours also take a bare decimal or d/m/s
+        except ValueError:
+            return None
+    return first, second
+
+
 def _as_text(value: object) -> str | None:
     """Entry of a column as stripped text; None for an empty or missing entry."""
     if value is None:

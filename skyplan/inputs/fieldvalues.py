@@ -45,6 +45,31 @@ def angle(value: object) -> float:
     return number(value)
 
 
+_COMPASS = {"N": 1.0, "S": -1.0, "E": 1.0, "W": -1.0}
+
+
+def compass_angle(value: object, axis: str) -> float:
+    """Degrees as :func:`angle` reads them, or with a compass letter before or after:
+    ``"31:57:30N"``, ``"111:35:48W"``, ``"S 33.5"``.  ``axis`` is ``"lat"`` (N or S) or
+    ``"lon"`` (E or W); S and W are negative."""
+    if isinstance(value, str):
+        text = value.strip()
+        letter = ""
+        if text and text[-1].upper() in _COMPASS:
+            letter, text = text[-1].upper(), text[:-1].strip()
+        elif text and text[0].upper() in _COMPASS:
+            letter, text = text[0].upper(), text[1:].strip()
+        if letter:
+            allowed, what = ("NS", "latitude") if axis == "lat" else ("EW", "longitude")
+            if letter not in allowed:
+                raise ValueError(f"{value!r}: a {what} takes {allowed[0]} or {allowed[1]}, "
+                                 f"not {letter}")
+            if text[:1] in ("+", "-"):
+                raise ValueError(f"{value!r}: give a sign or a compass letter, not both")
+            return _COMPASS[letter] * angle(text)
+    return angle(value)
+
+
 def number(value: object) -> float:
     """A finite TOML number (not a boolean)."""
     if isinstance(value, bool) or not isinstance(value, int | float):

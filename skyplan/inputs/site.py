@@ -144,3 +144,76 @@ def zone_info(zone: str) -> zoneinfo.ZoneInfo:
     except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError) as exc:
         raise ValueError(f"unknown IANA time zone {zone!r}") from exc
 
+
+
+# --------------------------------------------------------------------------- zone checks
+
+ZONE_SLACK_DEG = 40.0  # how far a site may lie from its zone's meridian before a check
+
+
+def standard_offset_h(zone: str, year: int = 2026) -> float:
+    """The zone's standard offset from UTC in hours: the smaller of its January and July
+    offsets (summer time only ever adds)."""
+    import datetime as dt
+
+    tz = zone_info(zone)
+    return min(dt.datetime(year, m, 1, 12, tzinfo=tz).utcoffset().total_seconds()
+               for m in (1, 7)) / 3600.0
+
+
+def _continent(zone: str) -> str:
+    return zone.split("/", 1)[0] if "/" in zone else zone
+
+
+def _at_sea(zone: str) -> bool:
+    return zone.startswith("Etc/") or zone in ("UTC", "GMT")
+
+
+def _quiet_zone(lat_deg: float, lon_deg: float) -> str | None:
+    finder = _zone_finder()
+    return None if finder is None else finder.timezone_at(lng=normalise_lon(lon_deg),
+                                                          lat=lat_deg)
+
+
+def _flips(lat: float, lon: float, fits) -> str | None:
+    """The first sign flip (longitude, latitude, both) that puts the point where ``fits``
+    says it belongs, described for a message."""
+    for new_lat, new_lon, what in ((lat, -lon, f"longitude {-lon:+.4f}"),
+                                   (-lat, lon, f"latitude {-lat:+.4f}"),
+                                   (-lat, -lon, f"latitude {-lat:+.4f} and longitude "
+                                                f"{-lon:+.4f}")):
+        found = _quiet_zone(new_lat, new_lon)
+        if found is not None and fits(found):
+            return f"{what} (a flipped sign?) lies in {found}"
+    return None
+
+
+def zone_warning(site: Site) -> str | None:
+    """One line when the site's coordinates and time zone disagree, naming the likely fix.
+
+    A site in a land zone whose longitude lies more than :data:`ZONE_SLACK_DEG` from the
+    zone's meridian (15 degrees times its standard UTC offset) is looked up with
+    timezonefinder: if the zone found there is on another continent (the first part of the
+    IANA name), the line says so.  A site whose zone (named or found) is an ``Etc/`` zone
+    and where timezonefinder finds only an ocean zone is in the open sea.  Either way, a
+    flipped sign of the latitude or longitude that would fit is named.  None when all is
+    well, or when timezonefinder is not installed.
+    """
+    lat, lon, zone = site.lat_deg, site.lon_deg, site.zone
+    where = f"site {site.name} at {lat:+.4f},{lon:+.4f}"
+    if _at_sea(zone):
+        found = _quiet_zone(lat, lon)
+        if found is None or not _at_sea(found):
+            return None
+        fix = _flips(lat, lon, lambda z: not _at_sea(z))
+        return (f"{where} lies in the open sea (zone {found}); "
+                + (f"check the coordinates: {fix}" if fix else "check the coordinates"))
+    meridian = 15.0 * standard_offset_h(zone)
+    if abs((lon - meridian + 180.0) % 360.0 - 180.0) <= ZONE_SLACK_DEG:
+        return None
+    found = _quiet_zone(lat, lon)
+    if found is None or found == zone or _continent(found) == _continent(zone):
+        return None
+    fix = _flips(lat, lon, lambda z: z == zone or _continent(z) == _continent(zone))
+    return (f"{where} lies in {found}, not in its zone {zone} (meridian {meridian:+.0f}°); "
+            + (f"check the coordinates: {fix}" if fix else "check the coordinates and zone"))

@@ -14,7 +14,7 @@ from pathlib import Path
 
 from skyplan.errors import InputError
 from skyplan.inputs.atmosphere import geopotential_m, isa_pressure_hpa, isa_temperature_c
-from skyplan.inputs.fieldvalues import decimal, in_range
+from skyplan.inputs.fieldvalues import compass_angle, decimal, in_range
 from skyplan.inputs.horizon import HorizonProfile, read_horizon_file
 from skyplan.inputs.site import (
     ELEVATION_RANGE_M,
@@ -22,6 +22,7 @@ from skyplan.inputs.site import (
     nautical_zone,
     normalise_lon,
     zone_at,
+    zone_warning,
 )
 from skyplan.inputs.sitesfile import (
     SitesFile,
@@ -32,10 +33,11 @@ from skyplan.inputs.sitesfile import (
 )
 
 __all__ = [
-    "NO_SITE_MESSAGE", "HorizonProfile", "Site", "SitesFile", "check_sites_file",
+    "NO_SITE_MESSAGE", "SITE_WARNING", "HorizonProfile", "Site", "SitesFile", "check_sites_file",
     "default_sites_path", "find_site", "geopotential_m", "isa_pressure_hpa",
     "isa_temperature_c", "load_sites", "load_sites_file", "nautical_zone", "normalise_lon",
-    "parse_site_spec", "read_horizon_file", "resolve_site", "site_to_toml", "zone_at",
+    "checked", "parse_site_spec", "read_horizon_file", "resolve_site", "site_to_toml",
+    "zone_at", "zone_warning",
 ]
 
 NO_SITE_MESSAGE = (
@@ -45,18 +47,20 @@ NO_SITE_MESSAGE = (
 
 
 def parse_site_spec(text: str) -> Site:
-    """A site from ``LAT,LON[,ELEV_M]`` in decimal degrees (east positive) and metres."""
+    """A site from ``LAT,LON[,ELEV_M]``: degrees (decimal, east positive; or sexagesimal
+    ``D:M:S``; or with a compass letter, ``31:57:30N,111:35:48W``) and metres."""
     parts = text.split(",")
     if len(parts) not in (2, 3):
         raise InputError(
-            f"expected LAT,LON[,ELEV_M] in decimal degrees and metres, got {text!r}", field="site"
+            f"expected LAT,LON[,ELEV_M] in degrees and metres, got {text!r}", field="site"
         )
     labels = ("latitude", "longitude", "elevation")
     ranges = ((-90.0, 90.0, ""), (-180.0, 360.0, ""), (*ELEVATION_RANGE_M, " m"))
+    readers = (lambda v: compass_angle(v, "lat"), lambda v: compass_angle(v, "lon"), decimal)
     values = []
-    for part, label, (lo, hi, unit) in zip(parts, labels, ranges, strict=False):
+    for part, label, (lo, hi, unit), read in zip(parts, labels, ranges, readers, strict=False):
         try:
-            values.append(in_range(decimal(part), lo, hi, label, unit))
+            values.append(in_range(read(part), lo, hi, label, unit))
         except ValueError as exc:
             raise InputError(f"{label}: {exc} (in {text!r})", field="site") from None
     lat, lon = values[0], normalise_lon(values[1])
@@ -100,7 +104,7 @@ def resolve_site(spec: str | None, sites_file: str | None) -> Site:
     in ``sites_file`` or :func:`default_sites_path`.
     """
     if spec is not None and "," in spec:
-        return parse_site_spec(spec)
+        return checked(parse_site_spec(spec))
     path = Path(sites_file).expanduser() if sites_file else default_sites_path()
     if spec is None or not spec.strip():
         if not path.is_file():
@@ -108,7 +112,7 @@ def resolve_site(spec: str | None, sites_file: str | None) -> Site:
         parsed = load_sites_file(path)
         if parsed.default is None:
             raise InputError(f"{NO_SITE_MESSAGE} (sites file {path} has no default)", field="site")
-        return _pick(parsed.default, parsed)
+        return checked(_pick(parsed.default, parsed))
     if not path.is_file():
         raise InputError(
             f"site {spec.strip()!r} not found: no sites file at {path}; name one with "
@@ -116,7 +120,21 @@ def resolve_site(spec: str | None, sites_file: str | None) -> Site:
             "or give --site LAT,LON[,ELEV]",
             field="site",
         )
-    return _pick(spec, load_sites_file(path))
+    return checked(_pick(spec, load_sites_file(path)))
+
+
+SITE_WARNING = "warning: site "  # how the notes of :func:`checked` begin
+
+
+def checked(site: Site) -> Site:
+    """``site``, after a note when its coordinates and zone disagree (see
+    :func:`skyplan.inputs.site.zone_warning`); the note begins with :data:`SITE_WARNING`."""
+    from skyplan import notices
+
+    warning = zone_warning(site)
+    if warning:
+        notices.add(f"warning: {warning}")
+    return site
 
 
 def _pick(name: str, parsed: SitesFile) -> Site:

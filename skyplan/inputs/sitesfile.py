@@ -5,8 +5,9 @@ The sites file is TOML (read with the standard :mod:`tomllib`)::
     default = "ridge"                 # optional: the site used when --site is not given
 
     [site.ridge]                      # one table per site; the name is matched case-insensitively
-    latitude = 31.2                   # degrees, north positive, or a string "+31:12:00"
+    latitude = 31.2                   # degrees, north positive, or a string "+31:12:00"/"31:12N"
     longitude = -110.5                # degrees, east positive (0..360 accepted), or "-110:30:00"
+                                      # or "110:30:00W"
     elevation = 2100                  # metres above sea level (optional, default 0)
     zone = "America/Phoenix"          # optional IANA zone; found from the coordinates if absent
     pressure = 790.0                  # hPa (optional; standard atmosphere if absent)
@@ -41,7 +42,7 @@ from pathlib import Path
 
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import limits as limits_mod
-from skyplan.inputs.fieldvalues import angle, in_range, number, shown
+from skyplan.inputs.fieldvalues import compass_angle, in_range, number, shown
 from skyplan.inputs.horizon import horizon_from_table
 from skyplan.inputs.site import (
     ELEVATION_RANGE_M,
@@ -288,8 +289,8 @@ def _site_from_table(
     for key in ("latitude", "longitude"):
         if key not in table:
             problem(f"missing {key}", key)
-    lat = value("latitude", angle, -90.0, 90.0, "latitude")
-    lon = value("longitude", angle, -180.0, 360.0, "longitude")
+    lat = value("latitude", lambda v: compass_angle(v, "lat"), -90.0, 90.0, "latitude")
+    lon = value("longitude", lambda v: compass_angle(v, "lon"), -180.0, 360.0, "longitude")
     elevation = value("elevation", number, *ELEVATION_RANGE_M, "elevation", " m")
     pressure = value("pressure", number, *PRESSURE_RANGE_HPA, "pressure", " hPa")
     temperature = value("temperature", number, *TEMPERATURE_RANGE_C, "temperature", " C")

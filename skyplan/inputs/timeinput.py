@@ -7,9 +7,10 @@ Accepted forms for an instant (``--at``):
 * a bare ISO date/time, read in the site's local zone (IANA rules, daylight saving
   included): ``2026-12-01T21:30``; a bare date means local midnight.
 
-A night date (``--date``) is a local calendar date ``YYYY-MM-DD``, ``today`` or ``tonight``;
-the night is the one that begins on the evening of that date.  With no date, the current
-night is used: before local noon that is the night that began the previous evening.
+A night date (``--date``) is a local calendar date ``YYYY-MM-DD``, ``today`` or ``tonight``
+(the same), or ``tomorrow``; the night is the one that begins on the evening of that date.
+With no date, the current night is used: before local noon that is the night that began
+the previous evening.
 """
 
 from __future__ import annotations
@@ -86,16 +87,19 @@ def _resolve_local(naive: dt.datetime, zone: ZoneInfo, field: str) -> dt.datetim
 
 def parse_night_date(text: str | None, zone: ZoneInfo, *, field: str = "--date") -> dt.date:
     """The local date whose evening starts the night."""
-    if text is None or text.strip().lower() in ("", "tonight", "today"):
+    if text is None or text.strip().lower() in ("", "tonight", "today", "tomorrow"):
         local = _now().astimezone(zone)
         if text is None and local.hour < 12:
             return (local - dt.timedelta(days=1)).date()
+        if text is not None and text.strip().lower() == "tomorrow":
+            return (local + dt.timedelta(days=1)).date()
         return local.date()
     try:
         return dt.date.fromisoformat(text.strip())
     except ValueError:
         raise InputError(
-            f"cannot read {text!r} as a date; use YYYY-MM-DD, 'today' or 'tonight'", field=field
+            f"cannot read {text!r} as a date; use YYYY-MM-DD, 'today', 'tonight' or 'tomorrow'",
+            field=field
         ) from None
 
 

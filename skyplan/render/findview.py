@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from skyplan.inputs.angles import format_dms, format_hms
 from skyplan.inputs.timeinput import iso_utc
-from skyplan.render.tables import _table
+from skyplan.render.tables import Sheet
 
 
 def found_record(f) -> dict:
@@ -24,19 +24,37 @@ def found_record(f) -> dict:
     }
 
 
-def found_table(found):
-    t = _table("Names resolved offline", caption="fixed targets: ICRS at epoch J2000.0; "
-               "Sun, Moon, planets and orbits: geocentric astrometric place at the given time")
-    for col in ("name", "identifier", "type", "RA", "Dec", "motion", "mag", "source"):
-        t.add_column(col)
+def found_table(found, unknown=()) -> Sheet:
+    """One row per name: the resolved ones with identifier, type, position, motion,
+    magnitude and source; the ``unknown`` ones (pairs of name and problem) marked, with the
+    closest known names below the table."""
+    footer = ["fixed targets: ICRS at epoch J2000.0; Sun, Moon, planets and orbits: "
+              "geocentric astrometric place at the given time"]
+    if unknown:
+        footer.insert(0, f"{len(found)} of {len(found) + len(unknown)} names resolved; "
+                         "not found:")
+        footer[1:1] = [f"  {name}: {problem}" for name, problem in unknown]
+    t = Sheet("Names resolved offline", footer=footer)
+    t.column("name", fate="wrap")
+    t.column("identifier", rank=3, fate="wrap")
+    t.column("type", rank=6, fate="drop")
+    t.column("RA", justify="right", rank=1)
+    t.column("Dec", justify="right", rank=2)
+    t.column("motion", rank=7, fate="note")
+    t.column("mag", justify="right", rank=4, fate="drop")
+    t.column("source", rank=8, fate="note")
     for f in found:
         r = f.resolved
         if r.kind in ("body", "orbit"):
-            motion = f"{f.distance_au:.4f} au at {iso_utc(f.unix)}"
+            motion = (f"{f.distance_au:.4f} au at {iso_utc(f.unix)}", f"{f.distance_au:.4f} au")
         else:
             motion = (f"pm {r.pm_ra_masyr:+.2f}, {r.pm_dec_masyr:+.2f} mas/yr; "
                       f"plx {r.parallax_mas:.2f} mas")
         mag = "" if r.magnitude is None or r.magnitude != r.magnitude else f"{r.magnitude:.2f}"
-        t.add_row(r.query, r.identifier, r.object_type, format_hms(f.ra_deg, 2),
-                  format_dms(f.dec_deg, 1), motion, mag, r.source)
+        ident = r.identifier
+        t.add_row(r.query, (ident, ident.split(" = ")[0]), r.object_type,
+                  format_hms(f.ra_deg, 2), format_dms(f.dec_deg, 1), motion, mag,
+                  (r.source, r.source.split(" (")[0]))
+    for name, _problem in unknown:
+        t.add_row(name, "not found (below)", "", "", "", "", "", "")
     return t
