@@ -312,7 +312,8 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
 def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object], plain: bool) -> bool:
     """Whether decimal RAs were most likely written in hours: at least
     :data:`RA_HOURS_MIN_ROWS` rows give an RA, every one is below 24, one at least is 1 or
-    more, and every RA is a plain decimal number (``plain``: known to be) (sexagesimal RA is hours by definition)."""
+    more, and every RA is a plain decimal number (``plain``: known to be so; sexagesimal RA
+    is hours by definition)."""
     given = ra_deg[np.isfinite(ra_deg)]
     if len(given) < RA_HOURS_MIN_ROWS or given.max() >= 24.0 or given.max() < 1.0:
         return False

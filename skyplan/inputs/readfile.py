@@ -65,7 +65,8 @@ def open_input(path: str | Path, *, what: str = "file") -> BinaryIO:
     try:
         fd = os.open(path, flags)
     except FileNotFoundError:
-        raise InputError(f"no such {what}", file=source) from None
+        raise InputError(f"cannot read the {what}: not found (no such file)",
+                         file=source) from None
     except OSError as exc:
         raise InputError(f"cannot read the {what}: {exc.strerror or exc}", file=source) from None
     mode = os.fstat(fd).st_mode
