@@ -27,7 +27,6 @@ from typing import BinaryIO
 from skyplan.errors import InputError
 
 STDIN = "-"  # the path that means standard input
-_CHUNK = 1 << 22  # bytes read at a time
 
 
 def _size_text(size: int) -> str:
@@ -82,27 +81,19 @@ def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
     """The content of ``path`` (``-``: standard input): at most ``limit`` bytes.
 
     Raises :class:`InputError` as :func:`open_input` does, and when the content goes past
-    ``limit`` bytes (reading stops there: memory never holds more than ``limit`` plus one
-    chunk).
+    ``limit`` bytes.  One read of at most ``limit + 1`` bytes fills a single buffer (the
+    pages of the part never filled are never touched), so memory holds the content once.
     """
     source = str(path)
-    chunks: list[bytes] = []
-    total = 0
     with open_input(path, what=what) as handle:
         try:
-            while chunk := handle.read(min(_CHUNK, limit + 1 - total)):
-                chunks.append(chunk)
-                total += len(chunk)
-                if total > limit:
-                    raise InputError(f"larger than {_size_text(limit)}; a {what} of at most "
-                                     f"{_size_text(limit)} is read", file=source)
+            data = handle.read(limit + 1)
         except OSError as exc:
             raise InputError(f"cannot read the {what}: {exc.strerror or exc}",
                              file=source) from None
-    if len(chunks) == 1:
-        return chunks[0]
-    data = b"".join(chunks)
-    chunks.clear()
+    if len(data) > limit:
+        raise InputError(f"larger than {_size_text(limit)}; a {what} of at most "
+                         f"{_size_text(limit)} is read", file=source)
     return data
 
 
