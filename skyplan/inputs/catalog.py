@@ -1,9 +1,15 @@
 """Target lists: reading a catalogue file into a :class:`Catalog` of numpy columns.
 
-Formats are chosen by the file extension:
+Formats are chosen by ``input_format`` (``csv``, ``tsv``, ``ecsv``, ``votable``, ``fits``)
+or else by the file extension; ``-`` reads standard input and needs ``input_format``.  Every
+file is read through :mod:`skyplan.inputs.readfile` (a regular file, or ``-``; at most
+1 GiB, counted while reading):
 
-- ``.csv`` (comma), ``.tsv`` (tab), ``.txt`` (tab if the header line has a tab, else comma),
-  UTF-8, read as the standard :mod:`csv` module reads them (fields may be quoted).  Lines
+- ``.csv`` and ``.txt`` (the separator told by the header line: tab if it holds one, else
+  ``;`` if it holds more semicolons than commas, else comma), ``.tsv`` (tab), UTF-8, read as
+  the standard :mod:`csv` module reads them (fields may be quoted).  With ``;`` or tab as
+  separator a numeric cell may use a decimal comma (``83,82``).  Lines of at most 1 MiB,
+  headers of at most 10,000 columns.  Lines
   starting with ``#``, blank lines and lines of separators only are skipped; line numbers in
   messages are the lines of the file as an editor shows them.  A row with fewer fields than
   the header has its missing trailing fields empty; a row with more is an error.
@@ -35,6 +41,8 @@ RA is sexagesimal hours (``05:35:17.3``) or decimal degrees; Dec is sexagesimal 
 degrees (see :mod:`skyplan.inputs.angles`).  A row giving a name but neither RA nor Dec is kept with
 NaN coordinates, to be resolved by name later; a row giving only one of them is an error.
 Columns with other names are ignored and listed in :attr:`CatalogRead.ignored_columns`.
+A decimal RA is read as degrees; when it looks like hours (at least 3 RAs, all plain decimal
+numbers below 24, one at least 1 or more) a notice says so.
 Checks: |proper motion| below 100000 mas/yr, parallax >= 0, |radial velocity| below the
 speed of light, exposure > 0, priority a whole number from 0 to 1000000, Julian epochs from
 J1000 to J3000 (``B``-prefixed Besselian epochs are refused), fields at most 1000 characters,

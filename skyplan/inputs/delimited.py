@@ -1,6 +1,9 @@
 """Delimited text (CSV, TSV, TXT) into columns of cells, before any checking.
 
-UTF-8 text, read as the standard :mod:`csv` module reads it (fields may be quoted).  Lines
+UTF-8 text, read as the standard :mod:`csv` module reads it (fields may be quoted); the
+separator is given or told by the header line (:func:`sniff_delimiter`).  A line longer than
+:data:`MAX_LINE_BYTES` or a header of more than :data:`MAX_COLUMNS` columns refuses the file
+before it is split, so that the work stays linear in the size of the file.  Lines
 starting with ``#``, blank lines and lines of separators only are skipped; line numbers are
 the lines of the file as an editor shows them.  A row with fewer fields than the header has
 its missing trailing fields empty; a row with more is a problem of that row.
