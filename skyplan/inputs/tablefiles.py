@@ -84,6 +84,20 @@ def _refuse_xml_declarations(data: bytes, source: str) -> None:
                          file=source, line=exc.lineno) from None
 
 
+# How a column is declared, counted before parsing (astropy's VOTable parser takes time that
+# grows with the square of the number of columns: 32,000 of them took close to a minute).
+_COLUMN_MARKS = {"votable": (b"<FIELD", b":FIELD"), "ascii.ecsv": (b"# - {name:", b"#- {name:")}
+
+
+def _refuse_wide(data: bytes, fmt: str, source: str) -> None:
+    """Refuse a table declaring more than :data:`delimited.MAX_COLUMNS` columns (a count of
+    the declarations in one linear pass, comments included; FITS allows 999)."""
+    columns = sum(data.count(mark) for mark in _COLUMN_MARKS.get(fmt, ()))
+    if columns > delimited.MAX_COLUMNS:
+        raise InputError(f"the table declares {columns} columns; at most "
+                         f"{delimited.MAX_COLUMNS} are read", file=source)
+
+
 def _ecsv_data_lines(text: str, n_rows: int) -> np.ndarray | None:
     """Lines of the data rows of an ECSV file, or None if rows and lines do not pair up."""
     numbers = [
@@ -145,6 +159,7 @@ def read_table(data: bytes, source: str, fmt: str, label: str) -> Columns:
     """The raw columns of an astropy-read table from the file's bytes (``fmt`` for astropy,
     ``label`` for messages)."""
     text = None
+    _refuse_wide(data, fmt, source)
     if fmt == "votable":
         _refuse_xml_declarations(data, source)
     elif fmt == "ascii.ecsv":
