@@ -577,3 +577,52 @@ def test_column_reader_agrees_with_float(texts: list[str]) -> None:
     if numbers is not None:
         expected = np.array([float(t) if t else np.nan for t in texts], dtype=np.float64)
         assert numbers.tobytes() == expected.tobytes()
+
+
+# ---------------------------------------------------------------------------------------
+# Separators told by the header, decimal commas, standard input
+
+
+@pytest.mark.parametrize(("header", "expected"), [
+    ("name,ra,dec", ","),
+    ("name;ra;dec", ";"),
+    ("name\tra\tdec", "\t"),
+    ("name;ra;dec;notes, with a comma", ";"),  # more semicolons than commas
+    ("name,ra,dec,notes; with a semicolon", ","),
+    ("name", ","),
+])
+def test_separator_told_by_the_header(header: str, expected: str) -> None:
+    assert delimited.sniff_delimiter(header) == expected
+
+
+def test_quoted_semicolon_file_with_decimal_commas(tmp_path: Path) -> None:
+    path = write(tmp_path, "q.csv", 'name;ra;dec;notes\n"M 42; Orion";83,82;-5,39;"a; b"\n'
+                 "Vega;279,23;38,78;\n")
+    cat = read_catalog(path).catalog
+    assert list(cat.name) == ["M 42; Orion", "Vega"] and list(cat.notes) == ["a; b", ""]
+    assert list(cat.ra_deg) == [83.82, 279.23] and list(cat.dec_deg) == [-5.39, 38.78]
+
+
+def test_a_comma_with_a_point_is_not_a_decimal_comma(tmp_path: Path) -> None:
+    path = write(tmp_path, "t.csv", "name;ra;dec\nA;1,083.82;-5,39\n")
+    with pytest.raises(InputErrors) as info:
+        read_catalog(path)
+    (problem,) = info.value.problems
+    assert problem.line == 2 and problem.field == "ra" and "'1,083.82'" in problem.message
+
+
+def test_fits_from_standard_input(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    import io
+    import sys
+
+    from astropy.table import Table
+
+    buffer = io.BytesIO()
+    Table({"name": ["M42", "Vega"], "ra": [83.82, 279.23], "dec": [-5.39, 38.78]}).write(
+        buffer, format="fits")
+    piped = tmp_path / "piped"
+    piped.write_bytes(buffer.getvalue())
+    with piped.open("rb") as handle:
+        monkeypatch.setattr(sys, "stdin", handle)
+        cat = read_catalog("-", input_format="fits").catalog
+    assert cat.source == "<stdin>" and list(cat.ra_deg) == [83.82, 279.23]

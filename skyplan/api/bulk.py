@@ -57,14 +57,14 @@ def catalogue_path(catalog: str | None, demo: bool) -> str | None:
     return catalog
 
 
-def read_catalogue(path: str | None, skip_bad: bool) -> Catalog:
+def read_catalogue(path: str | None, skip_bad: bool, input_format: str | None = None) -> Catalog:
     from skyplan.errors import InputError
     from skyplan.inputs import targets
 
     if path is None:
         raise InputError("give a catalogue file (CSV, TSV, ECSV, VOTable, FITS) or --demo",
                          field="CATALOG")
-    return targets.load_catalog(path, skip_bad=skip_bad)
+    return targets.load_catalog(path, skip_bad=skip_bad, input_format=input_format)
 
 
 def read_orbits(elements: str | None) -> Sequence[OrbitElements]:
@@ -77,8 +77,9 @@ def read_orbits(elements: str | None) -> Sequence[OrbitElements]:
 
 def window_inputs(site: Site, limits_kw: dict, *, date: str | None = None,
                   catalog: str | None = None, demo: bool = False, skip_bad: bool = False,
-                  elements: str | None = None) -> WindowRun:
-    """Limits, night, orbits and targets of a windows run at ``site`` (a resolved Site)."""
+                  elements: str | None = None, input_format: str | None = None) -> WindowRun:
+    """Limits, night, orbits and targets of a windows run at ``site`` (a resolved Site);
+    ``catalog`` ``-`` is standard input, read as ``input_format``."""
     from skyplan.api.windows import limits
     from skyplan.engine import night
     from skyplan.inputs import targets
@@ -87,8 +88,8 @@ def window_inputs(site: Site, limits_kw: dict, *, date: str | None = None,
     the_night = night.compute_night(site, night_date(site, date, demo))
     orbits = read_orbits(elements)
     path = catalogue_path(catalog, demo)
-    cat = read_catalogue(path, skip_bad)
-    tset, _ = targets.target_set(cat, orbits=orbits, source=path)
+    cat = read_catalogue(path, skip_bad, input_format)
+    tset, _ = targets.target_set(cat, orbits=orbits, source=cat.source)
     return WindowRun(site, lim, the_night, tset, orbits)
 
 

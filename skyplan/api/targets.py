@@ -65,8 +65,12 @@ def _orbits(elements: str | Path | None) -> tuple:
 
 @as_warnings
 def read_targets(path: str | Path | None = None, *, skip_bad_rows: bool = False,
-                 elements: str | Path | None = None, demo: bool = False) -> Targets:
+                 elements: str | Path | None = None, demo: bool = False,
+                 input_format: str | None = None) -> Targets:
     """The targets of a catalogue file (CSV, TSV, ECSV, VOTable, FITS).
+
+    ``input_format`` (csv, tsv, ecsv, votable, fits) overrides the extension; the path
+    ``-`` reads standard input and needs it.
 
     Rows with a name only are resolved offline (``elements``: an orbital elements file for
     comets and asteroids).  With ``skip_bad_rows`` malformed rows are dropped and reported
@@ -83,8 +87,8 @@ def read_targets(path: str | Path | None = None, *, skip_bad_rows: bool = False,
                              field="CATALOG")
         path = scenario.demo_path(scenario.DEMO_CATALOG)
     orbits = _orbits(elements)
-    source = str(path)
-    cat = target_input.load_catalog(source, skip_bad=skip_bad_rows)
+    cat = target_input.load_catalog(path, skip_bad=skip_bad_rows, input_format=input_format)
+    source = cat.source
     tset, _ = target_input.target_set(cat, orbits=orbits, source=source)
     return Targets(tset, cat.priority, cat.exposure_s, orbits, source)
 

@@ -84,6 +84,7 @@ def plan_cmd(
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
+    input_format: str = typer.Option(None, "--input-format", help=sky.INPUT_FORMAT_HELP),
 ) -> None:
     """The night's observations in order, each target as high as the night allows.
 
@@ -103,7 +104,7 @@ def plan_cmd(
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         got = prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad,
-                      elements)
+                      elements, input_format=input_format)
         step("scheduling")
         try:
             made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
@@ -166,7 +167,7 @@ class Prepared:
 
 
 def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, elements,
-            *, start_option: str = "--start") -> Prepared:
+            *, start_option: str = "--start", input_format: str | None = None) -> Prepared:
     """Site, night (an ISO ``start`` without ``--date`` names it), limits, targets, windows
     and the start as an aware datetime."""
     import datetime as dt
@@ -187,7 +188,8 @@ def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, e
     if start is not None:
         at = dt.datetime.fromtimestamp(progress.start_instant(
             start, zone, the_night.date, field=start_option), dt.UTC)
-    chosen = targets.read_targets(catalog, skip_bad_rows=skip_bad, elements=elements, demo=demo)
+    chosen = targets.read_targets(catalog, skip_bad_rows=skip_bad, elements=elements, demo=demo,
+                                  input_format=input_format)
     computed = windows.windows(chosen, the_site, the_night, lim)
     return Prepared(the_site, the_night, lim, chosen, computed, at)
 

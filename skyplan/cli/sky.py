@@ -9,6 +9,9 @@ from skyplan.inputs.limits import SPECS
 
 DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight', "
              "'tomorrow'); default: the current night.")
+INPUT_FORMAT_HELP = ("Read the catalogue as csv (separator ',' ';' or tab, told by the header), "
+                     "tsv, ecsv, votable or fits whatever its extension; needed with '-' "
+                     "(standard input).")
 
 
 def _limit_option(key: str):
@@ -99,6 +102,7 @@ def windows_cmd(
                             help="table, json, ndjson, csv or parquet (with --out)."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
+    input_format: str = typer.Option(None, "--input-format", help=INPUT_FORMAT_HELP),
 ) -> None:
     """Rise, transit, set and the observable windows of every target tonight."""
     from skyplan.api import bulk
@@ -111,7 +115,8 @@ def windows_cmd(
     limits_kw = limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
                            between, no_horizon_profile, airmass_model, refraction)
     run = bulk.window_inputs(common.get_site(site, sites_file, demo), limits_kw, date=date,
-                             catalog=catalog, demo=demo, skip_bad=skip_bad, elements=elements)
+                             catalog=catalog, demo=demo, skip_bad=skip_bad, elements=elements,
+                             input_format=input_format)
     if fmt != "table" and not (fmt == "json" and len(run.targets) <= SMALL_JSON):
         # large results and every machine format but JSON: computed and written by blocks
         common.emit(window_data(run, fmt), out)

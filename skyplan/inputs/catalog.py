@@ -1,9 +1,15 @@
 """Target lists: reading a catalogue file into a :class:`Catalog` of numpy columns.
 
-Formats are chosen by the file extension:
+Formats are chosen by ``input_format`` (``csv``, ``tsv``, ``ecsv``, ``votable``, ``fits``)
+or else by the file extension; ``-`` reads standard input and needs ``input_format``.  Every
+file is read through :mod:`skyplan.inputs.readfile` (a regular file, or ``-``; at most
+1 GiB, counted while reading):
 
-- ``.csv`` (comma), ``.tsv`` (tab), ``.txt`` (tab if the header line has a tab, else comma),
-  UTF-8, read as the standard :mod:`csv` module reads them (fields may be quoted).  Lines
+- ``.csv`` and ``.txt`` (the separator told by the header line: tab if it holds one, else
+  ``;`` if it holds more semicolons than commas, else comma), ``.tsv`` (tab), UTF-8, read as
+  the standard :mod:`csv` module reads them (fields may be quoted).  With ``;`` or tab as
+  separator a numeric cell may use a decimal comma (``83,82``).  Lines of at most 1 MiB,
+  headers of at most 10,000 columns.  Lines
   starting with ``#``, blank lines and lines of separators only are skipped; line numbers in
   messages are the lines of the file as an editor shows them.  A row with fewer fields than
   the header has its missing trailing fields empty; a row with more is an error.
@@ -35,6 +41,8 @@ RA is sexagesimal hours (``05:35:17.3``) or decimal degrees; Dec is sexagesimal 
 degrees (see :mod:`skyplan.inputs.angles`).  A row giving a name but neither RA nor Dec is kept with
 NaN coordinates, to be resolved by name later; a row giving only one of them is an error.
 Columns with other names are ignored and listed in :attr:`CatalogRead.ignored_columns`.
+A decimal RA is read as degrees; when it looks like hours (at least 3 RAs, all plain decimal
+numbers below 24, one at least 1 or more) a notice says so.
 Checks: |proper motion| below 100000 mas/yr, parallax >= 0, |radial velocity| below the
 speed of light, exposure > 0, priority a whole number from 0 to 1000000, Julian epochs from
 J1000 to J3000 (``B``-prefixed Besselian epochs are refused), fields at most 1000 characters,
@@ -61,50 +69,77 @@ from pathlib import Path
 import numpy as np
 
 from skyplan.errors import InputError
-from skyplan.inputs import delimited
+from skyplan.inputs import delimited, readfile
 from skyplan.inputs.catalogrows import TEXT_FIELDS, build_catalog, map_headers, too_long
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
 from skyplan.inputs.tablefiles import ASTROPY_FORMATS, read_table
 
-__all__ = ["Catalog", "CatalogRead", "read_catalog"]
+__all__ = ["INPUT_FORMATS", "Catalog", "CatalogRead", "read_catalog"]
 
-_DELIMITED = {".csv": ",", ".tsv": "\t", ".txt": None}
+# --input-format names: the separator (None: told by the header line) or the astropy format
+INPUT_FORMATS = {
+    "csv": None,
+    "tsv": "\t",
+    "ecsv": ASTROPY_FORMATS[".ecsv"],
+    "votable": ASTROPY_FORMATS[".vot"],
+    "fits": ASTROPY_FORMATS[".fits"],
+}
+_DELIMITED = {".csv": None, ".tsv": "\t", ".txt": None}
 
 
-def read_catalog(path: str | Path, *, skip_bad: bool = False) -> CatalogRead:
-    """Read a target list; the format follows the extension (see the module docstring).
+def read_catalog(
+    path: str | Path, *, skip_bad: bool = False, input_format: str | None = None
+) -> CatalogRead:
+    """Read a target list; the format follows ``input_format`` (one of
+    :data:`INPUT_FORMATS`) or else the extension (see the module docstring).  ``-`` reads
+    standard input, which needs ``input_format``.
 
     Raises :class:`InputError` for a file that cannot be read, lacks a required column or is
     beyond the size limits, and :class:`InputErrors` listing every bad field unless
     ``skip_bad`` is set, in which case the rows with bad fields are dropped and listed in
     :attr:`CatalogRead.skipped`.
     """
-    path = Path(path)
-    source = str(path)
-    suffix = path.suffix.lower()
-    if suffix in _DELIMITED:
-        columns = _read_delimited(path, source, _DELIMITED[suffix])
-    elif suffix in ASTROPY_FORMATS:
-        columns = read_table(path, source, *ASTROPY_FORMATS[suffix])
+    source = "<stdin>" if str(path) == readfile.STDIN else str(path)
+    kind = _format_of(str(path), source, input_format)
+    data = readfile.read_input(path, delimited.MAX_FILE_BYTES, what="catalogue")
+    if isinstance(kind, tuple):
+        columns = read_table(data, source, *kind)
     else:
-        known = ", ".join(sorted([*_DELIMITED, *ASTROPY_FORMATS]))
-        raise InputError(
-            f"unknown catalogue format '{suffix or '(no extension)'}'; use one of {known}",
-            file=source,
-        )
+        columns = _columns_from_grid(source, delimited.read_grid(data, source, kind))
     return build_catalog(columns, skip_bad=skip_bad)
+
+
+def _format_of(path: str, source: str, input_format: str | None) -> str | tuple | None:
+    """The separator (None: sniffed) or the astropy format of the input."""
+    if input_format is not None:
+        name = input_format.strip().lower()
+        if name not in INPUT_FORMATS:
+            raise InputError(f"unknown input format {readfile.excerpt(input_format)}; use one "
+                             f"of {', '.join(INPUT_FORMATS)}", field="--input-format")
+        return INPUT_FORMATS[name]
+    if path == readfile.STDIN:
+        raise InputError("standard input has no extension to tell its format; give "
+                         f"--input-format ({'|'.join(INPUT_FORMATS)})", file=source)
+    suffix = Path(path).suffix.lower()
+    if suffix in _DELIMITED:
+        return _DELIMITED[suffix]
+    if suffix in ASTROPY_FORMATS:
+        return ASTROPY_FORMATS[suffix]
+    known = ", ".join(sorted([*_DELIMITED, *ASTROPY_FORMATS]))
+    raise InputError(
+        f"unknown catalogue format '{suffix or '(no extension)'}'; use one of {known} "
+        "(or --input-format)",
+        file=source,
+    )
 
 
 # ---------------------------------------------------------------------------------------
 # CSV, TSV and TXT: split by skyplan.inputs.delimited, mapped here
 
 
-def _read_delimited(path: Path, source: str, delimiter: str | None) -> Columns:
-    return _columns_from_grid(source, delimited.read_grid(path, source, delimiter))
-
-
 def _columns_from_grid(source: str, grid: delimited.Grid) -> Columns:
-    """Map the header and check field sizes."""
+    """Map the header, read decimal commas and check field sizes."""
+    _refuse_other_separator(source, grid)
     positions, headers, ignored = map_headers(source, grid.header, grid.header_line)
     problems = grid.problems
     for i in grid.wide_rows.tolist():
@@ -115,6 +150,8 @@ def _columns_from_grid(source: str, grid: delimited.Grid) -> Columns:
     decimals: dict[str, np.ndarray] = {}
     for key, pos in positions.items():
         column = grid.columns[pos]
+        if key not in TEXT_FIELDS and grid.delimiter != ",":
+            column = delimited.decimal_points(column)
         if isinstance(column, delimited.Cells):
             numbers = None
             if key not in TEXT_FIELDS:
@@ -124,7 +161,16 @@ def _columns_from_grid(source: str, grid: delimited.Grid) -> Columns:
             else:  # the text of a cell is made only if it is read again
                 decimals[key] = numbers
         values[key] = column
-    return Columns(
-        source, headers, values, grid.where, True, ignored, problems, grid.trimmed, decimals
-    )
+    return Columns(source, headers, values, grid.where, True, ignored, problems, grid.trimmed,
+                   decimals)
 
+
+def _refuse_other_separator(source: str, grid: delimited.Grid) -> None:
+    """A header of one column that holds another separator: name the one the file uses."""
+    if len(grid.header) != 1:
+        return
+    other = delimited.sniff_delimiter(grid.header[0])
+    if other != grid.delimiter and other in grid.header[0]:
+        raise InputError(f"this file seems to use {other!r} as separator, not "
+                         f"{grid.delimiter!r}; use --input-format csv or name it .csv",
+                         file=source, line=grid.header_line)

@@ -15,10 +15,12 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 
+from skyplan import notices
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.inputs.readfile import excerpt
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)
@@ -26,6 +28,8 @@ EPOCH_RANGE_JYEAR = (1000.0, 3000.0)  # accepted Julian epoch years, inclusive
 PRIORITY_RANGE = (0, 1_000_000)  # accepted priorities, inclusive; higher = more important
 DEFAULT_PRIORITY = 1
 DEFAULT_EPOCH_JYEAR = 2000.0
+RA_HOURS_MIN_ROWS = 3  # fewer RAs never raise the "RA looks like hours" notice
+_SEXAGESIMAL_MARK = re.compile(r"[^0-9.eE+\-\n]")  # in RA text: not a plain decimal
 
 _ALIASES: dict[str, tuple[str, ...]] = {
     "name": ("name", "target"),
@@ -60,13 +64,11 @@ def map_headers(
     """Column positions by field, the header text by field, and the ignored header names."""
     positions: dict[str, int] = {}
     headers: dict[str, str] = {}
-    ignored: list[str] = []
+    ignored: dict[str, None] = {}  # ordered, and linear in the width of the header
     for position, raw in enumerate(names):
         key = _FIELD_OF_HEADER.get(raw.strip().lower())
         if key is None:
-            label = raw.strip() or f"(unnamed column {position + 1})"
-            if label not in ignored:
-                ignored.append(label)
+            ignored.setdefault(raw.strip() or f"(unnamed column {position + 1})")
         elif key in positions:
             raise InputError(
                 f"columns '{headers[key]}' and '{raw.strip()}' both give {key}; keep one",
@@ -77,9 +79,13 @@ def map_headers(
         else:
             positions[key] = position
             headers[key] = raw.strip()
+    if not positions:  # plainly not a catalogue: refused without quoting it
+        raise InputError("not a catalogue: the header names none of the columns name, ra, "
+                         "dec", file=source, line=line)
     missing = [key for key in _REQUIRED if key not in positions]
     if missing:
-        have = ", ".join(f"'{n.strip()}'" for n in names) or "nothing"
+        have = ", ".join(excerpt(n.strip()) for n in names[:12]) or "nothing"
+        have += ", ..." if len(names) > 12 else ""
         raise InputErrors(
             [
                 InputError(
@@ -91,7 +97,7 @@ def map_headers(
                 for key in missing
             ]
         )
-    return positions, headers, ignored
+    return positions, headers, list(ignored)
 
 
 # ---------------------------------------------------------------------------------------
@@ -233,6 +239,9 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
     dec, dec_errors = parse_dec_column(columns.values["dec_deg"], decimals=decimals.get("dec_deg"))
     note(ra_errors, "ra_deg")
     note(dec_errors, "dec_deg")
+    if _ra_looks_like_hours(ra, columns.values["ra_deg"], "ra_deg" in decimals):
+        notices.add(f"{columns.source}: RA looks like hours: all values < 24; write 05:35:17 "
+                    "or 83.82 (a decimal RA is read as degrees)")
     ra_empty = np.isnan(ra)
     ra_empty[list(ra_errors)] = False
     dec_empty = np.isnan(dec)
@@ -298,6 +307,19 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
     if len(set(names_kept)) < len(names_kept):
         duplicates = [name for name, count in Counter(names_kept).items() if count > 1]
     return CatalogRead(catalog, skipped, duplicates, list(columns.ignored))
+
+
+def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object], plain: bool) -> bool:
+    """Whether decimal RAs were most likely written in hours: at least
+    :data:`RA_HOURS_MIN_ROWS` rows give an RA, every one is below 24, one at least is 1 or
+    more, and every RA is a plain decimal number (``plain``: known to be so; sexagesimal RA
+    is hours by definition)."""
+    given = ra_deg[np.isfinite(ra_deg)]
+    if len(given) < RA_HOURS_MIN_ROWS or given.max() >= 24.0 or given.max() < 1.0:
+        return False
+    if plain or (isinstance(cells, np.ndarray) and cells.dtype.kind == "f"):
+        return True
+    return _SEXAGESIMAL_MARK.search("\n".join(str(c).strip() for c in cells)) is None
 
 
 def _error(columns: Columns, row: int, message: str, column: str | None) -> InputError:

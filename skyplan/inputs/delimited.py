@@ -1,6 +1,9 @@
 """Delimited text (CSV, TSV, TXT) into columns of cells, before any checking.
 
-UTF-8 text, read as the standard :mod:`csv` module reads it (fields may be quoted).  Lines
+UTF-8 text, read as the standard :mod:`csv` module reads it (fields may be quoted); the
+separator is given or told by the header line (:func:`sniff_delimiter`).  A line longer than
+:data:`MAX_LINE_BYTES` or a header of more than :data:`MAX_COLUMNS` columns refuses the file
+before it is split, so that the work stays linear in the size of the file.  Lines
 starting with ``#``, blank lines and lines of separators only are skipped; line numbers are
 the lines of the file as an editor shows them.  A row with fewer fields than the header has
 its missing trailing fields empty; a row with more is a problem of that row.
@@ -20,7 +23,6 @@ import io
 import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 
@@ -29,23 +31,16 @@ from skyplan.errors import InputError
 
 MAX_FIELD_CHARS = 1000  # longer fields are refused (per row)
 MAX_ROWS = 5_000_000  # more data rows than this refuses the whole file
-MAX_FILE_BYTES = 1 << 30  # larger text files are refused before reading
+MAX_FILE_BYTES = 1 << 30  # larger files are refused (counted while reading)
+MAX_LINE_BYTES = 1 << 20  # a longer line refuses the whole file
+MAX_COLUMNS = 10_000  # a header of more columns refuses the whole file
 FAST_FROM_ROWS = 2000  # smaller files go through csv: importing polars would take longer
 BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 
-def _read_text(path: Path, source: str) -> str:
-    """The whole file as text; InputError naming the line of the first non-UTF-8 byte."""
-    try:
-        size = path.stat().st_size
-        if size > MAX_FILE_BYTES:
-            raise InputError(
-                f"file is {size} bytes; catalogues of at most {MAX_FILE_BYTES} bytes are read",
-                file=source,
-            )
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from exc
+def decode(data: bytes, source: str) -> str:
+    """The file's bytes as text; InputError naming the line of the first non-UTF-8 byte."""
+    _refuse_long_lines(data, source)
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -69,6 +64,69 @@ def _read_text(path: Path, source: str) -> str:
             f"last row (line {text.count(chr(10)) + 1}) is incomplete"
         )
     return text
+
+
+def _refuse_long_lines(data: bytes, source: str) -> None:
+    """InputError at the first line longer than :data:`MAX_LINE_BYTES`.
+
+    Scanned in slices, so that the scan holds a few megabytes whatever the file's size.
+    """
+    a = np.frombuffer(data, np.uint8)
+    last_end = -1  # index of the last line end (LF or CR) met
+    step = 1 << 23
+    for start in range(0, len(a), step):
+        part = a[start : start + step]
+        ends = np.flatnonzero((part == 10) | (part == 13)) + start
+        if ends.size:
+            gaps = np.diff(ends, prepend=last_end) - 1
+            if gaps.max() > MAX_LINE_BYTES:
+                j = int(np.argmax(gaps > MAX_LINE_BYTES))
+                _long_line(data, int(ends[j] - gaps[j]), source)
+            last_end = int(ends[-1])
+        if start + len(part) - last_end - 1 > MAX_LINE_BYTES:
+            _long_line(data, last_end + 1, source)
+
+
+def _long_line(data: bytes, begin: int, source: str) -> None:
+    raise InputError(
+        f"a line longer than {MAX_LINE_BYTES} bytes; is this a catalogue of one row per line?",
+        file=source,
+        line=data.count(b"\n", 0, max(begin, 0)) + 1,
+    )
+
+
+def first_content_line(text: str) -> str:
+    """The first line that is not blank or a comment (at most :data:`MAX_LINE_BYTES` of it)."""
+    pos = 0
+    while pos < len(text):
+        end = text.find("\n", pos, pos + MAX_LINE_BYTES)
+        end = min(len(text), pos + MAX_LINE_BYTES) if end < 0 else end + 1
+        line = text[pos:end]
+        stripped = line.lstrip()
+        if stripped and stripped[0] != "#":
+            return line
+        pos = end
+    return ""
+
+
+def sniff_delimiter(header: str) -> str:
+    """The separator of a header line: tab if it holds one, else ';' if it holds more
+    semicolons than commas (spreadsheets that write decimal commas), else ','."""
+    if "\t" in header:
+        return "\t"
+    return ";" if header.count(";") > header.count(",") else ","
+
+
+_DECIMAL_COMMA = r"^([^,.]*),([^,.]*)$"  # one comma, no point: the comma is a decimal mark
+
+
+def decimal_points(column: Sequence[str]) -> Sequence[str]:
+    """The cells of a numeric column with a decimal comma written as a point (``83,82`` ->
+    ``83.82``); a cell with more than one comma, or a comma and a point, is left as it is."""
+    if isinstance(column, Cells):
+        return Cells(column.series.str.replace(_DECIMAL_COMMA, "${1}.${2}"))
+    pattern = re.compile(_DECIMAL_COMMA)
+    return [pattern.sub(r"\1.\2", cell) if "," in cell else cell for cell in column]
 
 
 def _is_content(line: str, blank_chars: str) -> bool:
@@ -158,6 +216,7 @@ class Grid:
     wide_rows: np.ndarray  # rows that may hold a field over MAX_FIELD_CHARS (all that do)
     problems: dict[int, list[tuple[str | None, str]]]
     trimmed: bool = False  # every cell is printable ASCII without a space at either end
+    delimiter: str = ","
 
 
 PLAIN_DECIMAL = r"^[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)$"  # as Python's float reads it exactly
@@ -225,7 +284,7 @@ def _split_regular(text: str, rows: int, delimiter: str) -> Grid | None:
     wide_rows = np.flatnonzero((length > MAX_FIELD_CHARS).to_numpy())
     trimmed = _trimmed_printable(data, delimiter.encode())
     where = np.arange(2, rows + 1, dtype=np.int64)
-    return Grid(header, 1, [Cells(c) for c in columns], where, wide_rows, {}, trimmed)
+    return Grid(header, 1, [Cells(c) for c in columns], where, wide_rows, {}, trimmed, delimiter)
 
 
 def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
@@ -247,7 +306,7 @@ def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
     return not (np.isin(before, edges).any() or np.isin(after, edges).any())
 
 
-def _split_rows(rows: list[list[str]], starts: list[int]) -> Grid:
+def _split_rows(rows: list[list[str]], starts: list[int], delimiter: str) -> Grid:
     """Rows from :mod:`csv` as columns; short rows padded, long rows reported."""
     header, body = rows[0], rows[1:]
     width = len(header)
@@ -258,8 +317,8 @@ def _split_rows(rows: list[list[str]], starts: list[int]) -> Grid:
             body[i] = body[i] + [""] * (width - int(lengths[i]))
         else:
             message = (
-                f"row has {lengths[i]} fields but the header has {width} "
-                "(quote fields that contain the separator)"
+                f"row has {lengths[i]} fields but the header has {width} (the separator is "
+                f"{delimiter!r}; quote fields that contain it)"
             )
             problems.setdefault(i, []).append((None, message))
             body[i] = body[i][:width]
@@ -267,7 +326,7 @@ def _split_rows(rows: list[list[str]], starts: list[int]) -> Grid:
     row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
     wide_rows = np.flatnonzero(row_chars > MAX_FIELD_CHARS)
     where = np.array(starts[1:], dtype=np.int64)
-    return Grid(header, starts[0], columns, where, wide_rows, problems)
+    return Grid(header, starts[0], columns, where, wide_rows, problems, False, delimiter)
 
 
 def _rows_one_per_line(
@@ -302,18 +361,23 @@ def _rows_quoted(
     return rows, starts
 
 
-def read_grid(path: Path, source: str, delimiter: str | None) -> Grid:
-    """The cells of a delimited text file by column (see the module docstring)."""
-    text = _read_text(path, source)
-    if delimiter is None:  # .txt: tab if the header line has one
-        each_line = io.StringIO(text, newline="")
-        header = next((line for line in each_line if (s := line.lstrip()) and s[0] != "#"), "")
-        delimiter = "\t" if "\t" in header else ","
+def read_grid(data: bytes, source: str, delimiter: str | None) -> Grid:
+    """The cells of delimited text by column (see the module docstring); ``delimiter`` None
+    lets the header line tell it (:func:`sniff_delimiter`)."""
+    text = decode(data, source)
+    del data
+    header_line = first_content_line(text)
+    if delimiter is None:
+        delimiter = sniff_delimiter(header_line)
+    columns = header_line.count(delimiter) + 1
+    if columns > MAX_COLUMNS:
+        raise InputError(f"the header has {columns} columns; at most {MAX_COLUMNS} are read",
+                         file=source)
     grid = None
     if '"' in text:
         rows, starts = _rows_quoted(_lines(text), delimiter, source)
         if rows:
-            grid = _split_rows(rows, starts)
+            grid = _split_rows(rows, starts, delimiter)
     else:
         lines, content = _content_lines(text, delimiter, source)
         if content:
@@ -321,7 +385,8 @@ def read_grid(path: Path, source: str, delimiter: str | None) -> Grid:
             grid = _split_regular(text, len(content), delimiter) if fast else None
             if grid is None:
                 lines = _lines(text) if lines is None else lines
-                grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source))
+                grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source),
+                                   delimiter)
     if grid is None:
         raise InputError("no header line (expected columns name, ra, dec)", file=source)
     return grid

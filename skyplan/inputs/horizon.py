@@ -1,7 +1,11 @@
 """The local horizon: a profile of obstruction altitude against azimuth, and its text file.
 
 A horizon file has two columns, azimuth and altitude in degrees (whitespace or a comma
-between them, ``#`` starting a comment).  Every bad line is reported with its number.
+between them, ``#`` starting a comment), at most :data:`MAX_HORIZON_BYTES` long.  Every bad
+line is reported with its number; a message quotes at most one short, sanitised excerpt of
+a field, never a line.  A file in which most lines are bad is plainly not a horizon
+profile: it is refused as a whole, naming only its first bad line, so that a sites file
+pointing at some other file never shows that file's content.
 """
 
 from __future__ import annotations
@@ -14,7 +18,10 @@ from pathlib import Path
 import numpy as np
 
 from skyplan.errors import InputError, InputErrors
+from skyplan.inputs import readfile
 from skyplan.inputs.fieldvalues import decimal, in_range, number, shown
+
+MAX_HORIZON_BYTES = 4 << 20  # a profile at every 0.01 degree is about 500 kB
 
 
 @dataclass(frozen=True, eq=False)
@@ -85,14 +92,27 @@ def read_horizon_file(path: str | Path) -> HorizonProfile:
     return profile
 
 
+def _field(text: str, what: str) -> float:
+    """A decimal number; the error quotes the field as a short sanitised excerpt."""
+    try:
+        value = decimal(text)
+    except ValueError:
+        raise ValueError(f"{what} {readfile.excerpt(text, 16)} is not a decimal number") from None
+    if what == "azimuth":
+        return in_range(value, 0.0, 360.0, what)
+    return in_range(value, -90.0, 90.0, what)
+
+
 def horizon_file_points(path: Path) -> tuple[HorizonProfile | None, list[InputError]]:
+    """The profile of a horizon file, or None and its problems (see the module docstring)."""
     name = str(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        return None, [InputError("horizon file not found", file=name)]
-    except (OSError, UnicodeDecodeError) as exc:
-        return None, [InputError(f"cannot read horizon file: {exc}", file=name)]
+        data = readfile.read_input(path, MAX_HORIZON_BYTES, what="horizon file")
+        text = data.decode("utf-8")
+    except InputError as exc:
+        return None, [exc]
+    except UnicodeDecodeError:
+        return None, [InputError("not a horizon profile: not UTF-8 text", file=name)]
     points: list[tuple[float, float, str, int | None]] = []
     problems: list[InputError] = []
     for line_no, raw in enumerate(text.splitlines(), start=1):
@@ -103,23 +123,26 @@ def horizon_file_points(path: Path) -> tuple[HorizonProfile | None, list[InputEr
         if len(columns) != 2:
             problems.append(
                 InputError(
-                    f"expected 2 columns (azimuth altitude), found {len(columns)}: {line!r}",
+                    f"expected 2 columns (azimuth altitude), found {len(columns)}",
                     file=name,
                     line=line_no,
                 )
             )
             continue
         try:
-            az = in_range(decimal(columns[0]), 0.0, 360.0, "azimuth")
+            az = _field(columns[0], "azimuth")
         except ValueError as exc:
             problems.append(InputError(str(exc), file=name, line=line_no, field="azimuth"))
             continue
         try:
-            alt = in_range(decimal(columns[1]), -90.0, 90.0, "altitude")
+            alt = _field(columns[1], "altitude")
         except ValueError as exc:
             problems.append(InputError(str(exc), file=name, line=line_no, field="altitude"))
             continue
         points.append((az, alt, f"line {line_no}", line_no))
+    if len(problems) > len(points):
+        return None, [InputError(f"not a horizon profile (lines of 'azimuth altitude' in "
+                                 f"degrees): first bad line {problems[0].line}", file=name)]
     profile, more = profile_from_points(points, file=name, field=None)
     return (None if problems else profile), problems + more
 
@@ -212,7 +235,7 @@ def _horizon_listed(
     horizon_path = Path(given).expanduser()
     if not horizon_path.is_absolute():
         horizon_path = path.parent / horizon_path
-    if not horizon_path.is_file():
+    if not horizon_path.exists():
         problem(
             f"horizon file {horizon_path} not found (paths are relative to the sites file)",
             "horizon_file",

@@ -48,6 +48,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from skyplan.errors import InputError, InputErrors
+from skyplan.inputs import readfile
 
 MAX_LINE_CHARS = 300
 MAX_LINES = 2_000_000
@@ -326,9 +327,13 @@ def parse_line(text: str, *, file: str = "<elements>", line: int = 1) -> OrbitEl
     return _comet(where) if _is_comet_line(text) else _minor_planet(where)
 
 
-def _parse_numbered(lines: Iterable[tuple[int, str]], file: str) -> list[OrbitElements]:
+def _parse_numbered(lines: Iterable[tuple[int, str]], file: str, *,
+                    refuse_junk: bool = False) -> list[OrbitElements]:
     """Parse numbered lines; '#' comments and blank lines are skipped, and so is a header
-    that ends in a line of dashes (as at the top of MPCORB.DAT)."""
+    that ends in a line of dashes (as at the top of MPCORB.DAT).
+
+    ``refuse_junk``: a file with more bad lines than good ones is plainly not an elements
+    file and is refused as a whole, quoting nothing of it."""
     out: list[OrbitElements] = []
     problems: list[InputError] = []
     for number, text in lines:
@@ -345,6 +350,9 @@ def _parse_numbered(lines: Iterable[tuple[int, str]], file: str) -> list[OrbitEl
                 problems.append(InputError(f"stopped reading after {MAX_PROBLEMS} bad lines",
                                            file=file, line=number))
                 break
+    if refuse_junk and len(problems) > len(out):
+        raise InputError("not an elements file (MPC one-line formats): first bad line "
+                         f"{problems[0].line}", file=file)
     if len(problems) == 1:
         raise problems[0]
     if problems:
@@ -366,8 +374,10 @@ def read_elements(path: str | Path) -> list[OrbitElements]:
     """Read a user's elements file in the MPCORB and/or comet one-line formats.
 
     Bounded: a line longer than 300 characters or a file of more than 2,000,000 lines is
-    an InputError.  Every malformed line is reported (file, line, field), up to
-    ``MAX_PROBLEMS`` of them, after which reading stops and says so; none is skipped.
+    an InputError; only a regular file is read (:mod:`skyplan.inputs.readfile`), and a file
+    with more bad lines than good ones is refused as a whole.  Every malformed line is
+    reported (file, line, field), up to ``MAX_PROBLEMS`` of them, after which reading stops
+    and says so; none is skipped.
     """
     file = str(path)
 
@@ -386,8 +396,8 @@ def read_elements(path: str | Path) -> list[OrbitElements]:
                                  file=file, line=number) from None
 
     try:
-        with open(path, "rb") as handle:
-            return _parse_numbered(numbered(handle), file)
+        with readfile.open_input(path, what="elements file") as handle:
+            return _parse_numbered(numbered(handle), file, refuse_junk=True)
     except OSError as exc:
         raise InputError(f"cannot read the elements file ({exc.strerror or exc})",
                          file=file) from None

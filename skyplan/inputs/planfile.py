@@ -16,6 +16,9 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from skyplan.errors import InputError
+from skyplan.inputs import readfile
+
+MAX_PLAN_BYTES = 64 << 20  # a night's plan is a few hundred kilobytes
 
 
 @dataclass(frozen=True)
@@ -47,12 +50,11 @@ class PlanFile:
 def read_plan_file(path: str | Path) -> PlanFile:
     """The plan document at ``path``: JSON, an object (its fields are checked later)."""
     plan_path = str(path)
+    data = readfile.read_input(path, MAX_PLAN_BYTES, what="plan")
     try:
-        doc = json.loads(Path(plan_path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("no such file", file=plan_path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read the plan: {exc}", file=plan_path) from None
+        doc = json.loads(data.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputError("not UTF-8 text; a plan is JSON", file=plan_path) from None
     except json.JSONDecodeError as exc:
         raise InputError(f"not JSON: {exc.msg}", file=plan_path, line=exc.lineno) from None
     if not isinstance(doc, dict):

@@ -27,6 +27,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from skyplan.errors import InputError
+from skyplan.inputs import readfile
 
 MAX_DONE_BYTES = 16 * 1024 * 1024  # a night's log is a few hundred lines
 _CLOCK = re.compile(r"^([01]?\d|2[0-3]):([0-5]\d)$")
@@ -84,16 +85,7 @@ def read_done(path: str | Path, zone, night_span: tuple[float, float],
     """The done visits in ``path``; times must fall in ``night_span`` (POSIX seconds, the
     noon-to-noon span of the night of ``night_date``)."""
     where = str(path)
-    try:
-        raw = Path(where).read_bytes()
-    except FileNotFoundError:
-        raise InputError("no such file (the log of visits done)", file=where) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the log of visits done: {exc.strerror or exc}",
-                         file=where) from None
-    if len(raw) > MAX_DONE_BYTES:
-        raise InputError(f"larger than {MAX_DONE_BYTES // 2**20} MiB; a night's log is far "
-                         "smaller", file=where)
+    raw = readfile.read_input(path, MAX_DONE_BYTES, what="log of visits done")
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -195,8 +187,9 @@ class _Reader:
         except InputError as exc:
             raise self.fail(exc.message, line, field) from None
         if not self.span[0] <= unix <= self.span[1]:
-            raise self.fail(f"{value} is not in the night of {self.date} (noon to noon, "
-                            "local time); is this another night's log?", line, field)
+            raise self.fail(f"{readfile.excerpt(value, 40)} is not in the night of "
+                            f"{self.date} (noon to noon, local time); is this another "
+                            "night's log?", line, field)
         return unix
 
 

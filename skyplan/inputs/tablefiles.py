@@ -12,7 +12,6 @@ from __future__ import annotations
 import io
 import warnings
 from collections.abc import Sequence
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -52,7 +51,7 @@ class _Prolog(Exception):
         self.refused = refused
 
 
-def _refuse_xml_declarations(path: Path, source: str) -> None:
+def _refuse_xml_declarations(data: bytes, source: str) -> None:
     """Refuse XML whose prolog holds a document type declaration (where entities live).
 
     The file is pre-scanned with expat up to its first element, so the check holds whatever
@@ -73,10 +72,7 @@ def _refuse_xml_declarations(path: Path, source: str) -> None:
     parser.ExternalEntityRefHandler = met_declaration
     parser.StartElementHandler = met_root
     try:
-        with path.open("rb") as handle:
-            parser.ParseFile(handle)
-    except OSError as exc:
-        raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from exc
+        parser.Parse(data, True)
     except _Prolog as stop:
         if stop.refused:
             raise InputError(
@@ -88,12 +84,22 @@ def _refuse_xml_declarations(path: Path, source: str) -> None:
                          file=source, line=exc.lineno) from None
 
 
-def _ecsv_data_lines(path: Path, n_rows: int) -> np.ndarray | None:
+# How a column is declared, counted before parsing (astropy's VOTable parser takes time that
+# grows with the square of the number of columns: 32,000 of them took close to a minute).
+_COLUMN_MARKS = {"votable": (b"<FIELD", b":FIELD"), "ascii.ecsv": (b"# - {name:", b"#- {name:")}
+
+
+def _refuse_wide(data: bytes, fmt: str, source: str) -> None:
+    """Refuse a table declaring more than :data:`delimited.MAX_COLUMNS` columns (a count of
+    the declarations in one linear pass, comments included; FITS allows 999)."""
+    columns = sum(data.count(mark) for mark in _COLUMN_MARKS.get(fmt, ()))
+    if columns > delimited.MAX_COLUMNS:
+        raise InputError(f"the table declares {columns} columns; at most "
+                         f"{delimited.MAX_COLUMNS} are read", file=source)
+
+
+def _ecsv_data_lines(text: str, n_rows: int) -> np.ndarray | None:
     """Lines of the data rows of an ECSV file, or None if rows and lines do not pair up."""
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError):
-        return None
     numbers = [
         n
         for n, line in enumerate(io.StringIO(text, newline=""), start=1)
@@ -149,18 +155,27 @@ def _column_values(
     return texts
 
 
-def read_table(path: Path, source: str, fmt: str, label: str) -> Columns:
-    """The raw columns of an astropy-read table (``fmt`` for astropy, ``label`` for messages)."""
-    if not path.is_file():
-        raise InputError("cannot read the file: not found or not a regular file", file=source)
+def read_table(data: bytes, source: str, fmt: str, label: str) -> Columns:
+    """The raw columns of an astropy-read table from the file's bytes (``fmt`` for astropy,
+    ``label`` for messages)."""
+    text = None
+    _refuse_wide(data, fmt, source)
     if fmt == "votable":
-        _refuse_xml_declarations(path, source)
+        _refuse_xml_declarations(data, source)
+    elif fmt == "ascii.ecsv":
+        try:
+            text = data.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise InputError("not UTF-8 text; save the file as UTF-8", file=source,
+                             line=data.count(b"\n", 0, exc.start) + 1) from None
     from astropy.table import Table
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            table = Table.read(path, format=fmt)
+            # text with a line break is read as the table itself, never as a file name
+            given = io.BytesIO(data) if text is None else text.rstrip("\n") + "\n"
+            table = Table.read(given, format=fmt)
         except Exception as exc:  # noqa: BLE001 -- astropy raises many types on bad files
             message = " ".join(str(exc).split())[:200] or type(exc).__name__
             raise InputError(f"cannot read as {label}: {message}", file=source) from None
@@ -175,7 +190,7 @@ def read_table(path: Path, source: str, fmt: str, label: str) -> Columns:
         key: _column_values(table.columns[pos], key, source, headers[key], problems)
         for key, pos in positions.items()
     }
-    lines = _ecsv_data_lines(path, len(table)) if fmt == "ascii.ecsv" else None
+    lines = _ecsv_data_lines(text, len(table)) if text is not None else None
     if lines is None:
         where, in_lines = np.arange(1, len(table) + 1, dtype=np.int64), False
     else:

@@ -14,12 +14,13 @@ BODY_NAMES = ("sun", "moon", "mercury", "venus", "mars", "jupiter", "saturn", "u
               "neptune", "pluto")
 
 
-def load_catalog(path: str | Path, *, skip_bad: bool = False):
-    """Read a catalogue, report skipped rows and duplicates, resolve name-only rows."""
+def load_catalog(path: str | Path, *, skip_bad: bool = False, input_format: str | None = None):
+    """Read a catalogue (``-``: standard input, with ``input_format``), report skipped rows
+    and duplicates."""
     from skyplan.inputs.catalog import read_catalog
 
-    p = Path(path)
-    read = read_catalog(p, skip_bad=skip_bad)
+    read = read_catalog(path, skip_bad=skip_bad, input_format=input_format)
+    p = read.catalog.source
     if read.skipped:
         notices.add(f"{p}: skipped {len(read.skipped)} malformed row(s) "
                     f"(first: {read.skipped[0].one_line()})")

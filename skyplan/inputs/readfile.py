@@ -1,0 +1,107 @@
+"""Opening and reading user files with a bound enforced while reading.
+
+Every reader of user input goes through this module, so that each one:
+
+- refuses anything but a regular file (after symlinks are followed): a directory, a device
+  such as ``/dev/zero``, a named pipe or a socket is an :class:`~skyplan.errors.InputError`
+  at once.  The file is opened with ``O_NONBLOCK`` and its type checked on the open handle
+  (``fstat``), so a named pipe without a writer never blocks and the check cannot be raced
+  by a swap of the path.  The one exception is ``-``, standard input, which the user asks
+  for explicitly and which may be a pipe;
+- reads at most ``limit`` bytes, counted as they arrive (a file's reported size is not
+  trusted: it is 0 for a device and may grow while being read), and fails past the limit.
+
+The public surface is three functions: :func:`open_input` (a binary handle, for readers
+that stream line by line), :func:`read_input` (the whole content as bytes) and
+:func:`excerpt` (the short, sanitised quotation an error message may carry).
+"""
+
+from __future__ import annotations
+
+import os
+import stat
+import sys
+from pathlib import Path
+from typing import BinaryIO
+
+from skyplan.errors import InputError
+
+STDIN = "-"  # the path that means standard input
+
+
+def _size_text(size: int) -> str:
+    if size >= 1 << 30 and size % (1 << 30) == 0:
+        return f"{size >> 30} GiB"
+    if size >= 1 << 20 and size % (1 << 20) == 0:
+        return f"{size >> 20} MiB"
+    return f"{size} bytes"
+
+
+def _kind(mode: int) -> str:
+    if stat.S_ISDIR(mode):
+        return "a directory"
+    if stat.S_ISFIFO(mode):
+        return "a named pipe (give '-' to read standard input)"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    return "not a regular file"
+
+
+def open_input(path: str | Path, *, what: str = "file") -> BinaryIO:
+    """A binary handle on ``path`` (``-``: standard input), which must be a regular file.
+
+    ``what`` names the file in messages ("catalogue", "horizon file", ...).  Raises
+    :class:`InputError` naming the path when the file is missing, unreadable or not a
+    regular file.  The caller closes the handle (closing standard input's handle leaves
+    the process's standard input open).
+    """
+    source = str(path)
+    if source == STDIN:
+        return os.fdopen(os.dup(sys.stdin.fileno()), "rb")
+    flags = os.O_RDONLY | os.O_NONBLOCK | getattr(os, "O_CLOEXEC", 0)
+    try:
+        fd = os.open(path, flags)
+    except FileNotFoundError:
+        raise InputError(f"cannot read the {what}: not found (no such file)",
+                         file=source) from None
+    except OSError as exc:
+        raise InputError(f"cannot read the {what}: {exc.strerror or exc}", file=source) from None
+    mode = os.fstat(fd).st_mode
+    if not stat.S_ISREG(mode):
+        os.close(fd)
+        raise InputError(f"cannot read the {what}: it is {_kind(mode)}, not a regular file",
+                         file=source)
+    os.set_blocking(fd, True)
+    return os.fdopen(fd, "rb")
+
+
+def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
+    """The content of ``path`` (``-``: standard input): at most ``limit`` bytes.
+
+    Raises :class:`InputError` as :func:`open_input` does, and when the content goes past
+    ``limit`` bytes.  One read of at most ``limit + 1`` bytes fills a single buffer (the
+    pages of the part never filled are never touched), so memory holds the content once.
+    """
+    source = str(path)
+    with open_input(path, what=what) as handle:
+        try:
+            data = handle.read(limit + 1)
+        except OSError as exc:
+            raise InputError(f"cannot read the {what}: {exc.strerror or exc}",
+                             file=source) from None
+    if len(data) > limit:
+        raise InputError(f"larger than {_size_text(limit)}; a {what} of at most "
+                         f"{_size_text(limit)} is read", file=source)
+    return data
+
+
+def excerpt(text: str, limit: int = 20) -> str:
+    """``text`` as an error message may quote it: printable ASCII only (anything else as
+    ``?``), at most ``limit`` characters (cut with ``...``), in quotes."""
+    cut = text[: limit + 1]
+    clean = "".join(c if " " <= c <= "~" else "?" for c in cut)
+    if len(cut) > limit:
+        clean = clean[: max(limit - 3, 1)] + "..."
+    return repr(clean)
