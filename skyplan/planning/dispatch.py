@@ -67,13 +67,7 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
-from skyplan.planning.optimiser import (
-    SlotModel,
-    build_slot_model,
-    prune,
-    reserve_greedy,
-    solve_lexicographic,
-)
+from skyplan.planning.optimiser import SlotModel, build_slot_model, reserve_greedy
 
 METHODS = ("dispatch", "optimal")
 REASONS = ("no_window", "too_short", "no_room", "below_priority_cut", "near_sun", "poor_airmass")
@@ -185,6 +179,8 @@ class PlanMetrics:
     gap: float | None
     method: str
     proven_optimal: bool
+    visits: int = 0  # visits placed
+    visits_possible: int = 0  # repeats asked of the targets counted in ``possible``
 
 
 @dataclass(frozen=True)
@@ -195,6 +191,7 @@ class Plan:
     not_placed: dict[int, str]  # target -> one of REASONS
     missing_repeats: dict[int, int]  # placed targets that got fewer repeats than asked
     metrics: PlanMetrics = field(repr=False)
+    repeats_short: dict[int, tuple[int, int]] = field(default_factory=dict)  # (got, asked)
 
 
 def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
@@ -218,17 +215,15 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     dispatch = _improve(night, _forward(night, model, greedy))
     if options.method == "dispatch":
         return _finish(night, dispatch, "dispatch", None)
-    spare = reserve_greedy(model, by_priority=False)
-    kept = prune(model, np.union1d(greedy, spare), _MAX_VARS)
-    solve = solve_lexicographic(model.subset(kept), options.time_limit_s, _NODE_LIMIT)
-    if solve is None:
+    from skyplan.planning import solver
+
+    typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
+    outcome = solver.optimise(night, dispatch, options.time_limit_s, _improve, typical)
+    if not outcome.solved:
         notices.add("the optimiser found no plan in time; the plan was made by dispatch")
-        return _finish(night, dispatch, "dispatch", None)
-    optimised = _improve(night, _forward(night, model, kept[solve.chosen]))
-    if _rank(night, dispatch) > _rank(night, optimised):
-        notices.add("the optimised plan ranked below the dispatch plan; the dispatch plan was kept")
-        return _finish(night, dispatch, "dispatch", solve)
-    return _finish(night, optimised, "optimal", solve)
+    elif outcome.method == "dispatch":
+        notices.add("the dispatch plan was worth more than the optimised one and was kept")
+    return _finish(night, outcome.visits, outcome.method, outcome)
 
 
 class _Night:
@@ -623,10 +618,13 @@ def _finish(night: _Night, raw: list[tuple], method: str, solve) -> Plan:
         airmass_excess=excess,
         idle_minutes=idle,
         objective=float(np.sum(am - best)),
-        solver_objective=None if solve is None else solve.objective,
-        dual_bound=None if solve is None else solve.dual_bound,
+        solver_objective=None if solve is None else solve.value,
+        dual_bound=None if solve is None else solve.bound,
         gap=None if solve is None else solve.gap,
         method=method,
-        proven_optimal=bool(method == "optimal" and solve.proven_optimal),
+        proven_optimal=bool(solve is not None and solve.gap is not None and solve.gap <= 1e-4),
+        visits=len(visits),
+        visits_possible=int(np.sum(np.where(night.active, night.repeats, 0))),
     )
-    return Plan(visits, not_placed, missing, metrics)
+    got = {int(i): (int(count[i]), int(night.repeats[i])) for i in np.flatnonzero(short)}
+    return Plan(visits, not_placed, missing, metrics, got)

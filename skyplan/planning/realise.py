@@ -1,0 +1,179 @@
+"""From chosen reservations to visits with real slews, then more visits in the idle gaps.
+
+Visits are ``(target, start, slew, exposure_start, end)`` tuples in time order, as in
+:mod:`skyplan.planning.dispatch`.  Every step here keeps the rules (no overlap, the whole
+visit inside one window, spacing, repeats, airmass ceilings) and never lowers the plan's
+value: realising keeps each exposure where the model put it, and a gap is only ever given an
+extra visit.
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from skyplan.planning.merit import merit
+
+if TYPE_CHECKING:
+    from skyplan.planning.dispatch import _Night
+    from skyplan.planning.timeindexed import TimeModel
+
+_EPS_S = 1e-6
+_FIXED_POINT_STEPS = 3
+
+
+def slew_into(night: _Night, prev: int, i: int, exposure_start: float) -> tuple[float, float]:
+    """(start, slew) of a visit of ``i`` whose exposure starts at ``exposure_start``.
+
+    The slew is taken at the moment it begins (the dispatch module's convention), so the
+    start solves ``start = exposure_start - setup - slew(prev -> i, at start)``: a fixed
+    point, reached in a few steps because pointings move slowly next to the mount.
+    """
+    if prev < 0:
+        slew = night.slew.settle_s
+        return exposure_start - night.setup_s - slew, slew
+    start = exposure_start - night.setup_s - night.slew.longest_s()
+    for _ in range(_FIXED_POINT_STEPS):
+        slew = slew_at(night, prev, i, start)
+        start = exposure_start - night.setup_s - slew
+    slew = slew_at(night, prev, i, start)
+    return exposure_start - night.setup_s - slew, slew
+
+
+def slew_at(night: _Night, prev: int, i: int, t: float) -> float:
+    """The slew model between two targets at time ``t``, in plain floats (a hot path).
+
+    The same arithmetic as :meth:`SlewModel.slew_s` over :meth:`_Night.pointing_at`: linear
+    interpolation on the grid, azimuth unwrapped, the slower axis, the shorter way round.
+    """
+    u = (t - night.t0) / night.step_s
+    k = min(max(int(u // 1), 0), night.slot_unix.size - 2)
+    f = min(max(u - k, 0.0), 1.0)
+    alt, az = night.alt_deg, night.az_unwrapped
+    alt0 = alt[prev, k] * (1.0 - f) + alt[prev, k + 1] * f
+    alt1 = alt[i, k] * (1.0 - f) + alt[i, k + 1] * f
+    az0 = (az[prev, k] * (1.0 - f) + az[prev, k + 1] * f) % 360.0
+    az1 = (az[i, k] * (1.0 - f) + az[i, k + 1] * f) % 360.0
+    daz = abs(az1 - az0) % 360.0
+    daz = min(daz, 360.0 - daz)
+    m = night.slew
+    return float(max(daz / m.rate_az_deg_s, abs(alt1 - alt0) / m.rate_alt_deg_s) + m.settle_s)
+
+
+def realise(
+    night: _Night, model: TimeModel, chosen: np.ndarray, pad_s: float | None = None
+) -> list[tuple]:
+    """Each chosen variable as a visit whose exposure starts where the model put it.
+
+    With the longest slew as the model's allowance (the default) every visit fits there.
+    With a shorter allowance a visit whose slew is longer starts when the previous one ends,
+    its exposure later than planned; it is dropped if it then leaves its window, its airmass
+    ceiling or its spacing.
+    """
+    order = chosen[np.lexsort((model.var_target[chosen], model.var_slot[chosen]))]
+    pad = night.slew.longest_s() if pad_s is None else float(pad_s)
+    visits: list[tuple] = []
+    starts: dict[int, list[float]] = {}
+    prev, free = -1, night.t0
+    own = {int(i): night.win_target == i for i in np.unique(model.var_target[order])}
+    for v in order:
+        i = int(model.var_target[v])
+        exp_start = model.t0 + model.var_slot[v] * model.step_s + pad + night.setup_s
+        start, slew = slew_into(night, prev, i, exp_start)
+        if start < free:
+            start = free
+            slew = night.slew.settle_s if prev < 0 else slew_at(night, prev, i, start)
+        exp_start = start + slew + night.setup_s
+        end = exp_start + night.exposure_s[i]
+        ws, we = night.win_start[own[i]], night.win_end[own[i]]
+        inside = (ws <= start + _EPS_S) & (we >= end - _EPS_S)
+        mid = np.array([end - night.exposure_s[i] / 2])
+        ceiling = night.airmass_at(np.array([i]), mid)[0] <= night.max_airmass[i]
+        spaced = all(abs(start - s) >= night.spacing_s[i] - _EPS_S for s in starts.get(i, ()))
+        if not (inside.any() and ceiling and spaced):
+            continue
+        visits.append((i, start, slew, exp_start, end))
+        starts.setdefault(i, []).append(start)
+        prev, free = i, end
+    return visits
+
+
+def fill_gaps(night: _Night, visits: list[tuple], weight: np.ndarray) -> list[tuple]:
+    """Give idle gaps extra visits, the highest merit first, while any fits.
+
+    A candidate starts as early as the gap and one of its windows allow, with the slew from
+    the visit before; it must end inside that window, keep its target's spacing and airmass
+    ceiling, and leave the next visit (exposure unmoved) room for its new slew.
+    """
+    visits = sorted(visits, key=lambda v: (v[1], v[0]))
+    n = night.n
+    wt, ws, we = night.win_target, night.win_start, night.win_end
+    count = np.bincount([v[0] for v in visits], minlength=n)
+    starts = [[v[1] for v in visits if v[0] == i] for i in range(n)]
+    k = 0  # the gap before visits[k]
+    while k <= len(visits):
+        left = count < np.where(night.active, night.repeats, 0)
+        use = left[wt]
+        if not use.any():
+            break
+        prev = visits[k - 1][0] if k else -1
+        lo = visits[k - 1][4] if k else night.t0
+        nxt = visits[k] if k < len(visits) else None
+        hi = nxt[1] if nxt is not None else night.t1
+        # The next visit cannot start earlier than its exposure start minus setup and settle.
+        room_end = nxt[3] - night.setup_s - night.slew.settle_s if nxt is not None else hi
+        cand = np.flatnonzero(use & (ws < room_end) & (we > lo))
+        if cand.size == 0:
+            k += 1
+            continue
+        i = wt[cand]
+        start = np.maximum(ws[cand], lo)
+        slew = (
+            np.full(cand.shape, night.slew.settle_s)
+            if prev < 0
+            else _slew_many(night, prev, i, start)
+        )
+        exp_start = start + slew + night.setup_s
+        end = exp_start + night.exposure_s[i]
+        ok = (end <= we[cand] + _EPS_S) & (end <= room_end + _EPS_S)
+        airmass = night.airmass_at(i, exp_start + night.exposure_s[i] / 2)
+        ok &= airmass <= night.max_airmass[i]
+        value = merit(weight[i], airmass, night.best_airmass[i])
+        pick = -1
+        for j in np.flatnonzero(ok)[np.lexsort((i[ok], -value[ok]))]:
+            t = int(i[j])
+            if any(abs(start[j] - s) < night.spacing_s[t] - _EPS_S for s in starts[t]):
+                continue
+            if nxt is not None and slew_into(night, t, nxt[0], nxt[3])[0] < end[j] - _EPS_S:
+                continue
+            pick = j
+            break
+        if pick < 0:
+            k += 1
+            continue
+        j = pick
+        t = int(i[j])
+        visits.insert(k, (t, float(start[j]), float(slew[j]), float(exp_start[j]), float(end[j])))
+        if nxt is not None:
+            s_next, slew_next = slew_into(night, t, nxt[0], nxt[3])
+            visits[k + 1] = (nxt[0], s_next, slew_next, nxt[3], nxt[4])
+        count[t] += 1
+        starts[t].append(float(start[j]))
+        k += 1
+    return visits
+
+
+def _slew_many(night: _Night, prev: int, i: np.ndarray, start: np.ndarray) -> np.ndarray:
+    alt0, az0 = night.pointing_at(np.full(i.shape, prev), start)
+    alt1, az1 = night.pointing_at(i, start)
+    return night.slew.slew_s(alt0, az0, alt1, az1)
+
+
+def plan_value(night: _Night, visits: list[tuple], weight: np.ndarray) -> float:
+    """The objective of realised visits: the sum of their merits."""
+    if not visits:
+        return 0.0
+    i = np.array([v[0] for v in visits], dtype=int)
+    mid = np.array([v[3] for v in visits]) + night.exposure_s[i] / 2
+    return float(merit(weight[i], night.airmass_at(i, mid), night.best_airmass[i]).sum())
