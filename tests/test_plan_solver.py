@@ -160,7 +160,7 @@ def test_integer_program_matches_enumeration(seed):
         assert lp.bound >= result.objective - 1e-6
 
 
-def best_plan_by_enumeration(req, step_s=30.0):
+def best_plan_by_enumeration(req, step_s=60.0):
     """The best value of any plan whose starts lie on a ``step_s`` grid: every order of every
     set of visits (repeats included), each visit at every grid start after the previous end,
     with the slews of the slew model, inside a window, keeping the spacing."""

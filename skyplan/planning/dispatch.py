@@ -31,18 +31,14 @@ Choices made here (documented once, relied on everywhere):
   pointed at it during twilight, before the usable night begins.
 * A visit's airmass is the airmass at the middle of its exposure.
 
-How a plan is made:
+How the dispatch plan is made (``"optimal"`` starts from it, see :mod:`skyplan.planning.solver`
+and docs/planning.md for the objective both are judged by):
 
-1. Reservations on a coarser slot grid (:mod:`skyplan.planning.optimiser`), about 5 minutes (a whole
-   number of the request's steps).  A reserved visit covers ``ceil((allowance + setup +
+1. Reservations on a coarser slot grid (:mod:`skyplan.planning.optimiser`), about 5 minutes (a
+   whole number of the request's steps).  A reserved visit covers ``ceil((allowance + setup +
    exposure) / step)`` slots, the allowance being the median slew between targets that are
    up at the same time (:func:`typical_slew_s`); the forward pass absorbs the rarer longer
-   slews.  ``"dispatch"`` reserves greedily, in priority order, each visit at its cheapest
-   free start; ``"optimal"`` takes the reservations from a lexicographic integer program
-   (HiGHS; the top priority's airmass is settled before the lower counts, see
-   :mod:`skyplan.planning.optimiser`) over a pruned model that always contains two greedy solutions,
-   the priority-ordered one and one taking the most constrained targets first (so a target
-   with a short window at dusk is not crowded out by targets that could go later).
+   slews.  Visits are reserved greedily, in priority order, each at its cheapest free start.
 2. A forward pass (:func:`_forward`) walks the night with the actual slews.  A reserved visit
    starts at its slot, up to one block earlier when the telescope would otherwise stand idle,
    or later when the previous visit overran; a reservation that no longer fits its window
@@ -51,12 +47,8 @@ How a plan is made:
 3. An improvement pass (:func:`_improve`) moves every visit inside its free gap toward its
    lowest airmass.
 
-``"optimal"`` keeps the dispatch plan, with a notice, when the solver finds nothing or its plan
-ranks lower once realised (by the quality above).  Measured with
-``benchmarks/bench_scheduling.py`` (2 CPUs, shared; 10 synthetic 200-target nights, slack
-0.15): excess 4.5 %, top priority 2.9 % (dispatch 4.3 % and 2.8 %), the optimised plan kept on
-6 of 10 nights, 1.2 s CPU per plan (max 1.5 s).  Without the slack: 11.4 %, top priority
-2.9 % (dispatch 11.1 % and 2.9 %).
+``"optimal"`` returns the plan worth the most among the dispatch plan and the plans realised
+from the time-indexed models, with the gap of that plan against a proven upper bound.
 """
 
 from __future__ import annotations
@@ -74,15 +66,11 @@ REASONS = ("no_window", "too_short", "no_room", "below_priority_cut", "near_sun"
 AIRMASS_SLACK = 0.15  # default of PlanOptions.airmass_slack
 
 _EPS_S = 1e-6  # tolerance on time comparisons, seconds
-# The integer program's slot step and slew allowance (measured on the synthetic nights, see the
-# module docstring), the improvement sweeps, and the solver's node limit per stage.
+# The reservations' slot step and slew allowance (measured on the synthetic nights) and the
+# improvement sweeps.
 _IP_STEP_S = 300.0
 _ALLOWANCE_QUANTILE = 0.5
 _SWEEPS = 3
-_NODE_LIMIT = 500
-# Variables handed to the solver (measured on the synthetic 200-target nights, 4-minute grid:
-# 1.2 s of CPU per plan on average, 1.5 s at most).
-_MAX_VARS = 1500
 
 
 @dataclass(frozen=True)
@@ -197,10 +185,9 @@ class Plan:
 def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     """Plan one night: choose the visits and their times.
 
-    Deterministic for the same inputs while every solver stage ends by optimality or by its
-    node limit (most stages of the benchmark nights end at the root node); a stage stopped by
-    the time limit, the backstop (on some benchmark nights the last stage, at the default
-    2 s), returns the best found by then, which depends on the machine's speed and load.
+    Deterministic for the same inputs while every solve ends inside the time limit (HiGHS with
+    fixed options); one stopped by the limit returns the best found by then, which depends on
+    the machine's speed and load (the gap then says how far the plan may be from the best).
     """
     options = options or PlanOptions()
     if options.method not in METHODS:

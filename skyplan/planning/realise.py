@@ -177,3 +177,30 @@ def plan_value(night: _Night, visits: list[tuple], weight: np.ndarray) -> float:
     i = np.array([v[0] for v in visits], dtype=int)
     mid = np.array([v[3] for v in visits]) + night.exposure_s[i] / 2
     return float(merit(weight[i], night.airmass_at(i, mid), night.best_airmass[i]).sum())
+
+
+def compact(night: _Night, visits: list[tuple]) -> list[tuple]:
+    """Every visit as early as its window, its spacing and the visit before allow.
+
+    Gathers the idle time into fewer, longer gaps that :func:`fill_gaps` can use.  A visit
+    keeps its window; one that would end later than before (a longer slew) stays put.
+    """
+    visits = sorted(visits, key=lambda v: (v[1], v[0]))
+    out: list[tuple] = []
+    starts: dict[int, list[float]] = {}
+    prev, free = -1, night.t0
+    for i, start, slew, exp_start, end in visits:
+        own = (night.win_target == i) & (night.win_start <= start + _EPS_S) & (
+            night.win_end >= end - _EPS_S
+        )
+        opens = float(night.win_start[own].max()) if own.any() else start
+        new = max(free, opens, *(s + night.spacing_s[i] for s in starts.get(i, ())))
+        new_slew = night.slew.settle_s if prev < 0 else slew_at(night, prev, i, new)
+        new_end = new + new_slew + night.setup_s + night.exposure_s[i]
+        if new < start - _EPS_S and new_end <= end + _EPS_S:
+            start, slew, end = new, new_slew, new_end
+            exp_start = end - night.exposure_s[i]
+        out.append((i, start, slew, exp_start, end))
+        starts.setdefault(i, []).append(start)
+        prev, free = i, end
+    return out

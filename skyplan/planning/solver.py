@@ -8,7 +8,9 @@
    (worth at least the model's objective), the idle gaps get extra visits, and every visit
    moves toward its lowest airmass inside its free gap
    (:func:`skyplan.planning.dispatch._improve`).
-3. The plan returned is the better, by value, of that plan and the dispatch plan.  Its gap is
+3. The best of these plans and the dispatch plan, by value, is compacted (every visit as
+   early as it can go, :func:`realise.compact`), its gaps filled and its visits moved toward
+   their best airmass again; the result is kept if it is worth more.  Its gap is
    ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
 
 Each model's grid step is the night's step times the smallest stride keeping it within its
@@ -32,10 +34,12 @@ if TYPE_CHECKING:
     from skyplan.planning.dispatch import _Night
 
 VARIABLE_BUDGET = 6_000
-BOUND_VARIABLE_BUDGET = 12_000
+BOUND_VARIABLE_BUDGET = 30_000
+BOUND_MIN_STRIDE = 2  # the LP on the night's own grid is many times slower (measured)
 MIP_VARIABLES = 1_500  # the padded model is also solved as an integer program up to this size
 MIP_SHARE = 0.5  # of the time left
 LAGRANGIAN_STEPS = 30
+GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
 
@@ -58,6 +62,11 @@ def _better(night, weight, improve, raw, best, method, value):
     return best, method, value
 
 
+def _close(bound: float | None, value: float) -> bool:
+    """The plan is within ``GOOD_ENOUGH`` of the bound: further work would gain little."""
+    return bound is not None and value >= bound * (1.0 - GOOD_ENOUGH)
+
+
 def stride_for(night: _Night, budget: int) -> int:
     """The smallest stride of the night's grid keeping the variables within ``budget``."""
     length = float(np.sum(night.win_end - night.win_start))
@@ -78,7 +87,7 @@ def optimise(
     dispatch_value = realise.plan_value(night, dispatch, weight)
     if time_limit_s <= 0 or not night.active.any():
         return Outcome(dispatch, "dispatch", dispatch_value, None, None, False)
-    g_bound = night.step_s * stride_for(night, BOUND_VARIABLE_BUDGET)
+    g_bound = night.step_s * max(stride_for(night, BOUND_VARIABLE_BUDGET), BOUND_MIN_STRIDE)
     relaxed = timeindexed.relaxed_model(night, g_bound, weight)
     lp = timeindexed.solve(relaxed, max(deadline - time.monotonic(), 0.0), integer=False)
     bound = lp.bound if lp.found else None
@@ -91,22 +100,28 @@ def optimise(
         solved = True
         chosen = timeindexed.round_down(padded, relaxed_p.x)
         left = deadline - time.monotonic()
-        if padded.size <= MIP_VARIABLES and left > 0:
+        rounded = float(padded.var_merit[chosen].sum())
+        if padded.size <= MIP_VARIABLES and left > 0 and rounded < relaxed_p.bound * (
+            1 - PROVEN_GAP
+        ):
             mip = timeindexed.solve(padded, MIP_SHARE * left, integer=True)
-            if mip.found and mip.objective > padded.var_merit[chosen].sum():
+            if mip.found and mip.objective > rounded:
                 chosen = mip.chosen
         raw = realise.realise(night, padded, chosen)
         best, method, value = _better(night, weight, improve, raw, best, method, value)
     pad = dense_pad_s
     left = deadline - time.monotonic()
-    if left > 0 and pad < night.slew.longest_s():
+    if left > 0 and pad < night.slew.longest_s() and not _close(bound, value):
         dense = timeindexed.padded_model(night, g, weight, pad)
         relaxed_d = timeindexed.solve(dense, left, integer=False)
         if relaxed_d.found:
             raw = realise.realise(night, dense, timeindexed.round_down(dense, relaxed_d.x), pad)
             best, method, value = _better(night, weight, improve, raw, best, method, value)
+    if deadline - time.monotonic() > 0:
+        packed = realise.compact(night, best)
+        best, method, value = _better(night, weight, improve, packed, best, method, value)
     left = deadline - time.monotonic()
-    if bound is not None and left > 0 and lp.slot_price.size:
+    if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         fine = timeindexed.relaxed_model(night, night.step_s, weight)
         k = int(round(g_bound / night.step_s))
         price = np.repeat(lp.slot_price / k, k)

@@ -33,7 +33,7 @@ linear-programming relaxation above it, bound the value of every plan obeying th
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -58,6 +58,8 @@ class TimeModel:
     repeats: np.ndarray  # [N]
     t0: float
     step_s: float
+    # Relaxed model only: the shortest duration (s) of each variable's visit, for the time rows.
+    var_duration: np.ndarray | None = None
 
     @property
     def size(self) -> int:
@@ -126,7 +128,8 @@ def relaxed_model(night: _Night, step_s: float, weight: np.ndarray) -> TimeModel
     value = merit(weight[tgt], airmass, night.best_airmass[tgt])
     block = np.floor((shortest - 1e-6) / g).astype(int)
     spacing = np.maximum(np.ceil(night.spacing_s / g - _TOL).astype(int) - 1, 0)
-    return _assemble(night, tgt[ok], slot[ok], block, value[ok], spacing, g)
+    model = _assemble(night, tgt[ok], slot[ok], block, value[ok], spacing, g)
+    return replace(model, var_duration=shortest[model.var_target])
 
 
 def _lowest_between(night: _Night, tgt, t_lo, t_hi, longest_s: float) -> np.ndarray:
@@ -159,8 +162,8 @@ def _assemble(night, tgt, slot, block, value, spacing, g) -> TimeModel:
     )
 
 
-def constraint_columns(model: TimeModel) -> tuple[np.ndarray, np.ndarray, np.ndarray, int]:
-    """``A x <= ub`` in compressed columns: (column starts, row indices, ub, number of rows)."""
+def constraint_columns(model: TimeModel) -> tuple:
+    """``A x <= ub`` in compressed columns: (column starts, row indices, values, ub, rows)."""
     tgt, slot, block = model.var_target, model.var_slot, model.var_block
     m = tgt.size
     rows, cols, ubs = [], [], []
@@ -190,10 +193,52 @@ def constraint_columns(model: TimeModel) -> tuple[np.ndarray, np.ndarray, np.nda
         cols.append(np.repeat(lead, width) + ramp(width))
         ubs.append(np.ones(lead.size))
         n_rows += lead.size
-    r, c = np.concatenate(rows), np.concatenate(cols)
+    vals = [np.ones(x.size) for x in rows]
+    if model.var_duration is not None:
+        r, c, v, ub = _time_rows(model, n_slots)
+        rows.append(n_rows + r)
+        cols.append(c)
+        vals.append(v)
+        ubs.append(ub)
+        n_rows += ub.size
+    r, c, v = np.concatenate(rows), np.concatenate(cols), np.concatenate(vals)
     order = np.argsort(c, kind="stable")
     start = np.searchsorted(c[order], np.arange(m + 1))
-    return start, r[order], np.concatenate(ubs), n_rows
+    return start, r[order], v[order], np.concatenate(ubs), n_rows
+
+
+TIME_ROW_SPAN_S = 7200.0  # length of the spans of the time rows
+TIME_ROW_EVERY_S = 3600.0  # and their spacing
+
+
+def _time_rows(model: TimeModel, n_slots: int) -> tuple:
+    """Rows bounding the time taken by visits that start in a span of slots.
+
+    Visits starting (realised) in ``(s_a - g, s_b]`` do not overlap, so all but the last end
+    by ``s_b``: their shortest durations add up to at most ``s_b - s_a + g + d_max``, ``d_max``
+    the longest among them.  Without these rows, visits shorter than one slot would take no
+    room in the relaxed model at all.  One row per span of ``TIME_ROW_SPAN_S`` every
+    ``TIME_ROW_EVERY_S``, and one for the whole night.
+    """
+    g = model.step_s
+    span = max(int(round(TIME_ROW_SPAN_S / g)), 1)
+    every = max(int(round(TIME_ROW_EVERY_S / g)), 1)
+    firsts = [(a, min(a + span, n_slots) - 1) for a in range(0, n_slots, every)]
+    firsts.append((0, n_slots - 1))
+    rows, cols, vals, ubs = [], [], [], []
+    d = model.var_duration
+    for k, (a, b) in enumerate(firsts):
+        inside = np.flatnonzero((model.var_slot >= a) & (model.var_slot <= b))
+        if inside.size == 0:
+            ubs.append(0.0)
+            continue
+        rows.append(np.full(inside.size, k))
+        cols.append(inside)
+        vals.append(d[inside])
+        ubs.append((b - a + 1) * g + float(d[inside].max()))
+    if not rows:
+        return np.zeros(0, int), np.zeros(0, int), np.zeros(0), np.asarray(ubs, float)
+    return np.concatenate(rows), np.concatenate(cols), np.concatenate(vals), np.asarray(ubs)
 
 
 @dataclass(frozen=True)
@@ -221,7 +266,7 @@ def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
         return Solution(np.zeros(0, int), 0.0, 0.0, True, True, np.zeros(0), np.zeros(0))
     from highspy import _core as highs  # the bare solver object: no banner on stdout
 
-    start, index, ub, n_rows = constraint_columns(model)
+    start, index, value, ub, n_rows = constraint_columns(model)
     lp = highs.HighsLp()
     lp.num_col_, lp.num_row_ = m, n_rows
     lp.col_cost_ = -model.var_merit
@@ -232,7 +277,7 @@ def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
     lp.a_matrix_.format_ = highs.MatrixFormat.kColwise
     lp.a_matrix_.start_ = start
     lp.a_matrix_.index_ = index
-    lp.a_matrix_.value_ = np.ones(index.size)
+    lp.a_matrix_.value_ = value
     if integer:
         lp.integrality_ = [highs.HighsVarType.kInteger] * m
     h = highs._Highs()
