@@ -183,7 +183,8 @@ def compact(night: _Night, visits: list[tuple]) -> list[tuple]:
     """Every visit as early as its window, its spacing and the visit before allow.
 
     Gathers the idle time into fewer, longer gaps that :func:`fill_gaps` can use.  A visit
-    keeps its window; one that would end later than before (a longer slew) stays put.
+    keeps its window; one that would end later than before (a longer slew) or pass its
+    airmass ceiling stays put.
     """
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
     out: list[tuple] = []
@@ -197,7 +198,9 @@ def compact(night: _Night, visits: list[tuple]) -> list[tuple]:
         new = max(free, opens, *(s + night.spacing_s[i] for s in starts.get(i, ())))
         new_slew = night.slew.settle_s if prev < 0 else slew_at(night, prev, i, new)
         new_end = new + new_slew + night.setup_s + night.exposure_s[i]
-        if new < start - _EPS_S and new_end <= end + _EPS_S:
+        mid = np.array([new_end - night.exposure_s[i] / 2])
+        low = night.airmass_at(np.array([i]), mid)[0] <= night.max_airmass[i]
+        if new < start - _EPS_S and new_end <= end + _EPS_S and low:
             start, slew, end = new, new_slew, new_end
             exp_start = end - night.exposure_s[i]
         out.append((i, start, slew, exp_start, end))
