@@ -11,6 +11,7 @@ reported gap, ``1 - value / bound``, is at least the true gap ``1 - value / best
 from __future__ import annotations
 
 import itertools
+import json
 
 import numpy as np
 import pytest
@@ -23,7 +24,7 @@ from test_scheduling import (
     sky,
 )
 
-from skyplan.planning import merit, timeindexed
+from skyplan.planning import merit, reasons, timeindexed
 from skyplan.planning.dispatch import PlanOptions, PlanRequest, SlewModel, _Night, make_plan
 
 # -- the objective ----------------------------------------------------------------------------
@@ -236,3 +237,40 @@ def test_a_target_passing_near_the_zenith_is_placed_near_its_best():
         assert plan.not_placed == {}
         v0 = next(v for v in plan.visits if v.target == 0)
         assert v0.airmass_mid <= req.best_airmass[0] * 1.05
+
+
+# -- why a target was left out, short repeats ---------------------------------------------------
+
+
+def test_taken_by_names_the_visits_over_its_windows_and_the_free_room():
+    # Windows of target 0: 0-100 and 200-300.  Visits: target 1 over 10-60, target 2 over
+    # 60-100 and 190-260, target 3 over 400-500 (outside).  Free inside its windows: 0-10,
+    # 260-300 (the longest, 40).  Overlaps: target 2 has 40 + 60 = 100, target 1 has 50.
+    taken = reasons.taken_by(
+        np.array([0, 0, 1]), np.array([200.0, 0.0, 0.0]), np.array([300.0, 100.0, 900.0]),
+        np.array([1, 2, 2, 3]), np.array([10.0, 60.0, 190.0, 400.0]),
+        np.array([60.0, 100.0, 260.0, 500.0]), 0)
+    assert taken.windows == [(0.0, 100.0), (200.0, 300.0)]
+    assert taken.blockers == [2, 1]
+    assert taken.longest_free_s == pytest.approx(40.0)
+
+
+def test_the_command_says_who_took_the_time_and_counts_short_repeats(tmp_path):
+    from skyplan.cli.app import main
+
+    path = tmp_path / "plan.json"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "--demo", "--repeats", "2", "--spacing", "60", "--format", "json",
+              "--out", str(path), "--quiet"])
+    assert exc.value.code == 0
+    doc = json.loads(path.read_text())
+    got: dict[str, int] = {}
+    for o in doc["observations"]:
+        got[o["name"]] = got.get(o["name"], 0) + 1
+    short = {s["name"]: (s["visits"], s["asked"]) for s in doc["short_repeats"]}
+    assert short == {n: (k, 2) for n, k in got.items() if k < 2}
+    assert short, "the demo night cannot hold two visits of every target"
+    assert doc["metrics"]["visits"] == len(doc["observations"])
+    for entry in doc["not_placed"]:
+        if entry["reason"] in ("no_room", "poor_airmass"):
+            assert "its usable time" in entry["explanation"]
