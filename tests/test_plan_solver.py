@@ -24,8 +24,15 @@ from test_scheduling import (
     sky,
 )
 
-from skyplan.planning import merit, reasons, timeindexed
-from skyplan.planning.dispatch import PlanOptions, PlanRequest, SlewModel, _Night, make_plan
+from skyplan.planning import merit, realise, reasons, timeindexed
+from skyplan.planning.dispatch import (
+    PlanOptions,
+    PlanRequest,
+    SlewModel,
+    _finish,
+    _Night,
+    make_plan,
+)
 
 # -- the objective ----------------------------------------------------------------------------
 
@@ -274,3 +281,25 @@ def test_the_command_says_who_took_the_time_and_counts_short_repeats(tmp_path):
     for entry in doc["not_placed"]:
         if entry["reason"] in ("no_room", "poor_airmass"):
             assert "its usable time" in entry["explanation"]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_each_polishing_step_keeps_every_rule_and_never_loses_value(seed):
+    req = random_request(700 + seed, n=30, hours=6.0)
+    opt = PlanOptions(method="dispatch")
+    night = _Night(req, opt)
+    weight = merit.priority_weights(night.priority, night.active)
+    start = [(v.target, v.start_unix, v.slew_s, v.exposure_start_unix, v.end_unix)
+             for v in make_plan(req, opt).visits]
+    for step in (
+        lambda raw: realise.fill_gaps(night, raw, weight),
+        lambda raw: realise.swap_neighbours(night, raw, weight),
+        lambda raw: realise.compact(night, raw),
+    ):
+        raw = step(start)
+        assert_valid(req, opt, _finish(night, raw, "optimal", None))
+        assert len(raw) >= len(start)
+    filled = realise.fill_gaps(night, start, weight)
+    assert realise.plan_value(night, filled, weight) >= realise.plan_value(night, start, weight)
+    swapped = realise.swap_neighbours(night, start, weight)
+    assert realise.plan_value(night, swapped, weight) >= realise.plan_value(night, start, weight)

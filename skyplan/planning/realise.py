@@ -145,8 +145,14 @@ def fill_gaps(night: _Night, visits: list[tuple], weight: np.ndarray) -> list[tu
             t = int(i[j])
             if any(abs(start[j] - s) < night.spacing_s[t] - _EPS_S for s in starts[t]):
                 continue
-            if nxt is not None and slew_into(night, t, nxt[0], nxt[3])[0] < end[j] - _EPS_S:
-                continue
+            if nxt is not None:
+                s_next = slew_into(night, t, nxt[0], nxt[3])[0]
+                if s_next < end[j] - _EPS_S or not _inside(night, nxt[0], s_next, nxt[4]):
+                    continue
+                others = [s for s in starts[nxt[0]] if s != nxt[1]]
+                others += [float(start[j])] if t == nxt[0] else []
+                if any(abs(s_next - s) < night.spacing_s[nxt[0]] - _EPS_S for s in others):
+                    continue
             pick = j
             break
         if pick < 0:
@@ -158,10 +164,19 @@ def fill_gaps(night: _Night, visits: list[tuple], weight: np.ndarray) -> list[tu
         if nxt is not None:
             s_next, slew_next = slew_into(night, t, nxt[0], nxt[3])
             visits[k + 1] = (nxt[0], s_next, slew_next, nxt[3], nxt[4])
+            own_starts = starts[nxt[0]]
+            own_starts[own_starts.index(nxt[1])] = s_next
         count[t] += 1
         starts[t].append(float(start[j]))
         k += 1
     return visits
+
+
+def _inside(night: _Night, i: int, start: float, end: float) -> bool:
+    """The block [start, end] lies inside one window of target i."""
+    own = night.win_target == i
+    ws, we = night.win_start[own], night.win_end[own]
+    return bool(np.any((ws <= start + _EPS_S) & (we >= end - _EPS_S)))
 
 
 def _slew_many(night: _Night, prev: int, i: np.ndarray, start: np.ndarray) -> np.ndarray:
@@ -207,3 +222,72 @@ def compact(night: _Night, visits: list[tuple]) -> list[tuple]:
         starts.setdefault(i, []).append(start)
         prev, free = i, end
     return out
+
+
+def swap_neighbours(night: _Night, visits: list[tuple], weight: np.ndarray) -> list[tuple]:
+    """Exchange two consecutive visits when that raises their summed merit.
+
+    The pair keeps the first one's start; the second of the new order follows at once, with
+    its slew from the first; the visit after the pair keeps its exposure time and gets its
+    new slew.  Every rule is checked for the moved visits; sweeps in time order until nothing
+    changes (at most ``_SWAP_SWEEPS``).
+    """
+    visits = sorted(visits, key=lambda v: (v[1], v[0]))
+    for _ in range(_SWAP_SWEEPS):
+        changed = False
+        for k in range(len(visits) - 1):
+            pair = _swapped(night, visits, k, weight)
+            if pair is not None:
+                visits[k : k + 3 if k + 2 < len(visits) else k + 2] = pair
+                changed = True
+        if not changed:
+            break
+    return visits
+
+
+_SWAP_SWEEPS = 3
+
+
+def _swapped(night: _Night, visits: list[tuple], k: int, weight: np.ndarray):
+    """The pair k, k+1 in the other order (and the visit after it), or None if no better."""
+    a, b = visits[k], visits[k + 1]
+    if a[0] == b[0]:
+        return None
+    prev = visits[k - 1][0] if k else -1
+    nxt = visits[k + 2] if k + 2 < len(visits) else None
+    if nxt is not None and nxt[0] in (a[0], b[0]):
+        return None  # keeps the spacing checks below independent of each other
+    placed = []
+    t, before = a[1], prev
+    for i in (b[0], a[0]):
+        slew = night.slew.settle_s if before < 0 else slew_at(night, before, i, t)
+        end = t + slew + night.setup_s + night.exposure_s[i]
+        placed.append((i, t, slew, end - night.exposure_s[i], end))
+        t, before = end, i
+    tail = []
+    if nxt is not None:
+        s_next, slew_next = slew_into(night, a[0], nxt[0], nxt[3])
+        if s_next < t - _EPS_S or not _inside(night, nxt[0], s_next, nxt[4]):
+            return None
+        others = [w[1] for w in visits if w[0] == nxt[0] and w is not nxt]
+        if any(abs(s_next - s) < night.spacing_s[nxt[0]] - _EPS_S for s in others):
+            return None
+        tail = [(nxt[0], s_next, slew_next, nxt[3], nxt[4])]
+    elif t > night.t1 + _EPS_S:
+        return None
+    for v in placed:
+        i, start, end = v[0], v[1], v[4]
+        if not _inside(night, i, start, end):
+            return None
+        others = [w[1] for w in visits if w[0] == i and w not in (a, b)]
+        if any(abs(start - s) < night.spacing_s[i] - _EPS_S for s in others):
+            return None
+    old = plan_value(night, [a, b], weight)
+    new_i = np.array([placed[0][0], placed[1][0]])
+    mid = np.array([placed[0][3], placed[1][3]]) + night.exposure_s[new_i] / 2
+    airmass = night.airmass_at(new_i, mid)
+    if np.any(airmass > night.max_airmass[new_i]):
+        return None
+    if float(merit(weight[new_i], airmass, night.best_airmass[new_i]).sum()) <= old + 1e-9:
+        return None
+    return placed + tail

@@ -5,12 +5,14 @@
 2. The padded model (:func:`timeindexed.padded_model`) is solved: its LP relaxation, rounded
    (:func:`timeindexed.round_down`); when the model is small, also as an integer program
    within the time left, keeping the better.  The solution is realised with the real slews
-   (worth at least the model's objective), the idle gaps get extra visits, and every visit
-   moves toward its lowest airmass inside its free gap
+   (worth at least the model's objective), the idle gaps get extra visits, neighbours are
+   exchanged where that pays, and every visit moves toward its lowest airmass inside its free
+   gap
    (:func:`skyplan.planning.dispatch._improve`).
 3. The best of these plans and the dispatch plan, by value, is compacted (every visit as
-   early as it can go, :func:`realise.compact`), its gaps filled and its visits moved toward
-   their best airmass again; the result is kept if it is worth more.  Its gap is
+   early as it can go, :func:`realise.compact`), its gaps filled, neighbours exchanged where
+   that raises their merit (:func:`realise.swap_neighbours`) and its visits moved toward their
+   best airmass again; the result is kept if it is worth more.  Its gap is
    ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
 
 Each model's grid step is the night's step times the smallest stride keeping it within its
@@ -54,8 +56,9 @@ class Outcome:
 
 
 def _better(night, weight, improve, raw, best, method, value):
-    """Fill and improve ``raw``; keep it if worth more than the best so far."""
-    raw = improve(night, realise.fill_gaps(night, raw, weight))
+    """Fill, reorder and improve ``raw``; keep it if worth more than the best so far."""
+    raw = realise.fill_gaps(night, raw, weight)
+    raw = improve(night, realise.swap_neighbours(night, raw, weight))
     raw_value = realise.plan_value(night, raw, weight)
     if raw_value > value + 1e-9:
         return raw, "optimal", raw_value
