@@ -269,9 +269,10 @@ def _swapped(night: _Night, visits: list[tuple], k: int, weight: np.ndarray):
         s_next, slew_next = slew_into(night, a[0], nxt[0], nxt[3])
         if s_next < t - _EPS_S or not _inside(night, nxt[0], s_next, nxt[4]):
             return None
-        others = [w[1] for w in visits if w[0] == nxt[0] and w is not nxt]
-        if any(abs(s_next - s) < night.spacing_s[nxt[0]] - _EPS_S for s in others):
-            return None
+        if night.spacing_s[nxt[0]] > 0:
+            others = [w[1] for w in visits if w[0] == nxt[0] and w is not nxt]
+            if any(abs(s_next - s) < night.spacing_s[nxt[0]] - _EPS_S for s in others):
+                return None
         tail = [(nxt[0], s_next, slew_next, nxt[3], nxt[4])]
     elif t > night.t1 + _EPS_S:
         return None
@@ -279,9 +280,10 @@ def _swapped(night: _Night, visits: list[tuple], k: int, weight: np.ndarray):
         i, start, end = v[0], v[1], v[4]
         if not _inside(night, i, start, end):
             return None
-        others = [w[1] for w in visits if w[0] == i and w not in (a, b)]
-        if any(abs(start - s) < night.spacing_s[i] - _EPS_S for s in others):
-            return None
+        if night.spacing_s[i] > 0:
+            others = [w[1] for w in visits if w[0] == i and w not in (a, b)]
+            if any(abs(start - s) < night.spacing_s[i] - _EPS_S for s in others):
+                return None
     old = plan_value(night, [a, b], weight)
     new_i = np.array([placed[0][0], placed[1][0]])
     mid = np.array([placed[0][3], placed[1][3]]) + night.exposure_s[new_i] / 2

@@ -5,9 +5,8 @@
 2. The padded model (:func:`timeindexed.padded_model`) is solved: its LP relaxation, rounded
    (:func:`timeindexed.round_down`); when the model is small, also as an integer program
    within the time left, keeping the better.  The solution is realised with the real slews
-   (worth at least the model's objective), the idle gaps get extra visits, neighbours are
-   exchanged where that pays, and every visit moves toward its lowest airmass inside its free
-   gap
+   (worth at least the model's objective), the idle gaps get extra visits, and every visit
+   moves toward its lowest airmass inside its free gap
    (:func:`skyplan.planning.dispatch._improve`).
 3. The best of these plans and the dispatch plan, by value, is compacted (every visit as
    early as it can go, :func:`realise.compact`), its gaps filled, neighbours exchanged where
@@ -55,10 +54,12 @@ class Outcome:
     solved: bool  # the padded model was solved (its plan may still rank below dispatch)
 
 
-def _better(night, weight, improve, raw, best, method, value):
-    """Fill, reorder and improve ``raw``; keep it if worth more than the best so far."""
+def _better(night, weight, improve, raw, best, method, value, swap=False):
+    """Fill (and with ``swap`` reorder) and improve ``raw``; keep it if worth more."""
     raw = realise.fill_gaps(night, raw, weight)
-    raw = improve(night, realise.swap_neighbours(night, raw, weight))
+    if swap:
+        raw = realise.swap_neighbours(night, raw, weight)
+    raw = improve(night, raw)
     raw_value = realise.plan_value(night, raw, weight)
     if raw_value > value + 1e-9:
         return raw, "optimal", raw_value
@@ -122,7 +123,7 @@ def optimise(
             best, method, value = _better(night, weight, improve, raw, best, method, value)
     if deadline - time.monotonic() > 0:
         packed = realise.compact(night, best)
-        best, method, value = _better(night, weight, improve, packed, best, method, value)
+        best, method, value = _better(night, weight, improve, packed, best, method, value, True)
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         fine = timeindexed.relaxed_model(night, night.step_s, weight)
