@@ -35,16 +35,17 @@ EXPOSURE_P = [0.2, 0.25, 0.25, 0.2, 0.1]
 SIDEREAL_RATE = 1.00273790935  # sidereal hours per solar hour (IERS Conventions 2010, ch. 5)
 
 
-def synthetic_night(n_targets: int, seed: int, step_s: float = 120.0) -> PlanRequest:
+def synthetic_night(
+    n_targets: int, seed: int, step_s: float = 120.0, lat_deg: float = 40.0, hours: float = 9.0
+) -> PlanRequest:
     """An invented night: alt/az/airmass curves, windows above 30 deg, mixed visit requests."""
     rng = np.random.default_rng(seed)
-    phi = np.radians(40.0)
+    phi = np.radians(lat_deg)
     t0 = 1_700_000_000.0
-    hours = 9.0
     slot_unix = t0 + np.arange(0.0, hours * 3600 + 0.5, step_s)
     lst_h = 18.0 + rng.uniform(-3, 3) + SIDEREAL_RATE * (slot_unix - t0) / 3600.0
     ra_h = rng.uniform(0.0, 24.0, n_targets)
-    dec = np.arcsin(rng.uniform(np.sin(np.radians(-30.0)), 1.0, n_targets))
+    dec = np.arcsin(rng.uniform(np.sin(np.radians(min(-30.0, lat_deg - 70.0))), 1.0, n_targets))
     ha = np.radians(15.0 * (lst_h[None, :] - ra_h[:, None]))
     sin_alt = np.sin(phi) * np.sin(dec)[:, None] + np.cos(phi) * np.cos(dec)[:, None] * np.cos(ha)
     alt = np.degrees(np.arcsin(np.clip(sin_alt, -1, 1)))

@@ -8,7 +8,9 @@ end of the exposure, azimuth, air mass, hour angle and distance from the Moon at
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import datetime as dt
+from dataclasses import dataclass, field
+from zoneinfo import ZoneInfo
 
 import numpy as np
 
@@ -16,7 +18,7 @@ from skyplan.engine import airmass as am
 from skyplan.engine import events
 from skyplan.errors import NothingObservable
 from skyplan.planning import dispatch as scheduling
-from skyplan.planning import model, replan
+from skyplan.planning import model, reasons, replan
 
 SLOT_STEP_S = 120.0
 
@@ -66,6 +68,8 @@ class NightPlan:
     overheads: Overheads
     windows: object  # the WindowResult the plan was made from
     priority: np.ndarray  # per target of the catalogue
+    # (target, visits made, visits asked) of every target that got fewer repeats than asked
+    short_repeats: list[tuple[int, int, int]] = field(default_factory=list)
 
 
 def _reason(res, i: int) -> tuple[str, str]:
@@ -144,10 +148,52 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     for i in np.nonzero(~has)[0]:
         code, text = gone.get(int(i)) or _reason(res, int(i))
         missing.append((int(i), code, text))
+    zone = ZoneInfo(res.night.zone)
     for j, code in sorted(plan.not_placed.items()):
-        missing.append((int(idx[j]), code, SCHEDULER_TEXT.get(code, code)))
+        text = SCHEDULER_TEXT.get(code, code)
+        if code in ("no_room", "poor_airmass"):
+            text = _left_out_text(req, plan, j, code, idx, res.names, zone)
+        missing.append((int(idx[j]), code, text))
     missing.sort(key=lambda m: (-int(priority[m[0]]), m[0]))
-    return NightPlan(visits, missing, plan.metrics, overheads, res, priority)
+    short = [(int(idx[j]), got, asked) for j, (got, asked) in sorted(plan.repeats_short.items())]
+    return NightPlan(visits, missing, plan.metrics, overheads, res, priority, short)
+
+
+def _left_out_text(req, plan, j: int, code: str, idx, names, zone) -> str:
+    """Why target ``j`` (request index) got no visit, in the observer's words."""
+    lo, hi = float(req.slot_unix[0]), float(req.slot_unix[-1])
+    taken = reasons.taken_by(
+        req.win_target, np.clip(req.win_start_unix, lo, hi), np.clip(req.win_end_unix, lo, hi),
+        np.array([v.target for v in plan.visits], dtype=int),
+        np.array([v.start_unix for v in plan.visits]),
+        np.array([v.end_unix for v in plan.visits]), j)
+
+    def hhmm(t: float) -> str:
+        return dt.datetime.fromtimestamp(t, zone).strftime("%H:%M")
+
+    spans = [f"{hhmm(a)}–{hhmm(b)}" for a, b in taken.windows if b > a]
+    when = ", ".join(spans[:3]) + (f" and {len(spans) - 3} more" if len(spans) > 3 else "")
+    who = [str(names[idx[t]]) for t in taken.blockers[:2]]
+    if len(taken.blockers) > 2:
+        who.append(f"{len(taken.blockers) - 2} other targets")
+    p = req.priority[j]
+    rank = {int(np.sign(req.priority[t] - p)) for t in taken.blockers}
+    kind = {frozenset({1}): "higher-priority ", frozenset({0}): "equal-priority "}.get(
+        frozenset(rank), "")
+    names_text = " and ".join(who) if len(who) < 3 else f"{who[0]}, {who[1]} and {who[2]}"
+    text = f"its usable time {when} was taken by {kind}{names_text}" if who else (
+        f"no visit fits in its usable time {when}")
+    visit_min = (req.slew.settle_s + req.setup_s + req.exposure_s[j]) / 60.0
+    free_min = taken.longest_free_s / 60.0
+    if code == "poor_airmass":
+        text += "; the free time left is only at poor airmass (see --airmass-slack)"
+    elif who and free_min >= 1.0 and free_min < visit_min:
+        text += (f"; the longest free stretch left, {free_min:.0f} min, is shorter than a visit "
+                 f"with its slew ({visit_min:.0f} min or more)")
+    elif who and free_min >= 1.0:
+        text += (f"; the free stretches left ({free_min:.0f} min at most) do not hold a visit "
+                 "once the slews to and from it are counted")
+    return text
 
 
 def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:

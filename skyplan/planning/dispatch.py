@@ -31,18 +31,14 @@ Choices made here (documented once, relied on everywhere):
   pointed at it during twilight, before the usable night begins.
 * A visit's airmass is the airmass at the middle of its exposure.
 
-How a plan is made:
+How the dispatch plan is made (``"optimal"`` starts from it, see :mod:`skyplan.planning.solver`
+and docs/planning.md for the objective both are judged by):
 
-1. Reservations on a coarser slot grid (:mod:`skyplan.planning.optimiser`), about 5 minutes (a whole
-   number of the request's steps).  A reserved visit covers ``ceil((allowance + setup +
+1. Reservations on a coarser slot grid (:mod:`skyplan.planning.reservations`), about 5 minutes (a
+   whole number of the request's steps).  A reserved visit covers ``ceil((allowance + setup +
    exposure) / step)`` slots, the allowance being the median slew between targets that are
    up at the same time (:func:`typical_slew_s`); the forward pass absorbs the rarer longer
-   slews.  ``"dispatch"`` reserves greedily, in priority order, each visit at its cheapest
-   free start; ``"optimal"`` takes the reservations from a lexicographic integer program
-   (HiGHS; the top priority's airmass is settled before the lower counts, see
-   :mod:`skyplan.planning.optimiser`) over a pruned model that always contains two greedy solutions,
-   the priority-ordered one and one taking the most constrained targets first (so a target
-   with a short window at dusk is not crowded out by targets that could go later).
+   slews.  Visits are reserved greedily, in priority order, each at its cheapest free start.
 2. A forward pass (:func:`_forward`) walks the night with the actual slews.  A reserved visit
    starts at its slot, up to one block earlier when the telescope would otherwise stand idle,
    or later when the previous visit overran; a reservation that no longer fits its window
@@ -51,12 +47,8 @@ How a plan is made:
 3. An improvement pass (:func:`_improve`) moves every visit inside its free gap toward its
    lowest airmass.
 
-``"optimal"`` keeps the dispatch plan, with a notice, when the solver finds nothing or its plan
-ranks lower once realised (by the quality above).  Measured with
-``benchmarks/bench_scheduling.py`` (2 CPUs, shared; 10 synthetic 200-target nights, slack
-0.15): excess 4.5 %, top priority 2.9 % (dispatch 4.3 % and 2.8 %), the optimised plan kept on
-6 of 10 nights, 1.2 s CPU per plan (max 1.5 s).  Without the slack: 11.4 %, top priority
-2.9 % (dispatch 11.1 % and 2.9 %).
+``"optimal"`` returns the plan worth the most among the dispatch plan and the plans realised
+from the time-indexed models, with the gap of that plan against a proven upper bound.
 """
 
 from __future__ import annotations
@@ -79,36 +71,25 @@ from skyplan.planning.model import (
     Visit,
     typical_slew_s,
 )
-from skyplan.planning.optimiser import (
-    SlotModel,
-    build_slot_model,
-    prune,
-    reserve_greedy,
-    solve_lexicographic,
-)
+from skyplan.planning.reservations import SlotModel, build_slot_model, reserve_greedy
 
 # the plan's data live in :mod:`skyplan.planning.model`; named here too for callers of this module
 __all__ = ["AIRMASS_SLACK", "METHODS", "REASONS", "Plan", "PlanMetrics", "PlanOptions",
            "PlanRequest", "SlewModel", "Visit", "make_plan", "typical_slew_s"]
 
-# The integer program's slot step and slew allowance (measured on the synthetic nights, see the
-# module docstring), the improvement sweeps, and the solver's node limit per stage.
+# The reservations' slot step and slew allowance (measured on the synthetic nights) and the
+# improvement sweeps.
 _IP_STEP_S = 300.0
 _ALLOWANCE_QUANTILE = 0.5
 _SWEEPS = 3
-_NODE_LIMIT = 500
-# Variables handed to the solver (measured on the synthetic 200-target nights, 4-minute grid:
-# 1.2 s of CPU per plan on average, 1.5 s at most).
-_MAX_VARS = 1500
 
 
 def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     """Plan one night: choose the visits and their times.
 
-    Deterministic for the same inputs while every solver stage ends by optimality or by its
-    node limit (most stages of the benchmark nights end at the root node); a stage stopped by
-    the time limit, the backstop (on some benchmark nights the last stage, at the default
-    2 s), returns the best found by then, which depends on the machine's speed and load.
+    Deterministic for the same inputs while every solve ends inside the time limit (HiGHS with
+    fixed options); one stopped by the limit returns the best found by then, which depends on
+    the machine's speed and load (the gap then says how far the plan may be from the best).
     """
     options = options or PlanOptions()
     if options.method not in METHODS:
@@ -123,17 +104,15 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     dispatch = _improve(night, _forward(night, model, greedy))
     if options.method == "dispatch":
         return _finish(night, dispatch, "dispatch", None)
-    spare = reserve_greedy(model, by_priority=False)
-    kept = prune(model, np.union1d(greedy, spare), _MAX_VARS)
-    solve = solve_lexicographic(model.subset(kept), options.time_limit_s, _NODE_LIMIT)
-    if solve is None:
+    from skyplan.planning import solver
+
+    typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
+    outcome = solver.optimise(night, dispatch, options.time_limit_s, _improve, typical)
+    if not outcome.solved:
         notices.add("the optimiser found no plan in time; the plan was made by dispatch")
-        return _finish(night, dispatch, "dispatch", None)
-    optimised = _improve(night, _forward(night, model, kept[solve.chosen]))
-    if _rank(night, dispatch) > _rank(night, optimised):
-        notices.add("the optimised plan ranked below the dispatch plan; the dispatch plan was kept")
-        return _finish(night, dispatch, "dispatch", solve)
-    return _finish(night, optimised, "optimal", solve)
+    elif outcome.method == "dispatch":
+        notices.add("the dispatch plan was worth more than the optimised one and was kept")
+    return _finish(night, outcome.visits, outcome.method, outcome)
 
 
 def _forward(night: PlanNight, model: SlotModel, chosen: np.ndarray) -> list[tuple]:
@@ -281,15 +260,6 @@ def _improve(night: PlanNight, raw: list[tuple]) -> list[tuple]:
     return visits
 
 
-def _rank(night: PlanNight, visits: list[tuple]) -> tuple:
-    """Lexicographic value of realised visits: counts by priority (highest first), then airmass."""
-    target = np.array([v[0] for v in visits], dtype=int)
-    mid = np.array([v[3] for v in visits]) + night.exposure_s[target] / 2
-    excess = float(np.sum(night.airmass_at(target, mid) - night.best_airmass[target]))
-    counts = [int(np.sum(night.priority[target] == p)) for p in np.unique(night.priority)[::-1]]
-    return (*counts, -excess)
-
-
 def _future_best(night: PlanNight) -> np.ndarray:
     """[N, S+1]: lowest airmass sampled inside a window of the target at or after each slot."""
     s = night.slot_unix.size
@@ -375,10 +345,13 @@ def _finish(night: PlanNight, raw: list[tuple], method: str, solve) -> Plan:
         airmass_excess=excess,
         idle_minutes=idle,
         objective=float(np.sum(am - best)),
-        solver_objective=None if solve is None else solve.objective,
-        dual_bound=None if solve is None else solve.dual_bound,
+        solver_objective=None if solve is None else solve.value,
+        dual_bound=None if solve is None else solve.bound,
         gap=None if solve is None else solve.gap,
         method=method,
-        proven_optimal=bool(method == "optimal" and solve.proven_optimal),
+        proven_optimal=bool(solve is not None and solve.gap is not None and solve.gap <= 1e-4),
+        visits=len(visits),
+        visits_possible=int(np.sum(np.where(night.active, night.repeats, 0))),
     )
-    return Plan(visits, not_placed, missing, metrics)
+    got = {int(i): (int(count[i]), int(night.repeats[i])) for i in np.flatnonzero(short)}
+    return Plan(visits, not_placed, missing, metrics, got)

@@ -2,8 +2,9 @@
 what it gives (:class:`Plan`, :class:`Visit`, :class:`PlanMetrics`), and :class:`PlanNight`,
 the request checked and turned into the arrays every planning method works on.
 
-The rules a plan obeys and how it is made are in :mod:`skyplan.planning.dispatch`; the slot
-model and integer program in :mod:`skyplan.planning.optimiser`.  Time is POSIX seconds UTC.
+The rules a plan obeys and how it is made are in :mod:`skyplan.planning.dispatch`, the
+dispatch reservations in :mod:`skyplan.planning.reservations`, the optimising method in
+:mod:`skyplan.planning.solver`.  Time is POSIX seconds UTC.
 The slew time between two pointings is ``max(|d az| / rate_az, |d alt| / rate_alt) + settle``,
 with ``|d az|`` the shorter way round.
 """
@@ -99,12 +100,12 @@ class Visit:
 class PlanMetrics:
     """Figures of merit of a plan.
 
-    ``objective`` is the plan's own score, the sum over visits of ``airmass_mid - best_airmass``
-    (the same quantity for both methods).  ``solver_objective``, ``dual_bound`` and ``gap`` are
-    what HiGHS proved for the last stage of the integer program (the nominal airmass excess of
-    the pruned slot model); they are ``None`` for dispatch or when that stage was not reached.
-    ``proven_optimal`` is True only when the optimised plan is returned and every stage was
-    solved to optimality (over the pruned slot model) within the time limit.
+    ``objective`` is the sum over visits of ``airmass_mid - best_airmass`` (the same quantity
+    for both methods).  For ``"optimal"``, ``solver_objective`` is the returned plan's value by
+    the merit of docs/planning.md, ``dual_bound`` a proven upper bound on the value of any
+    plan that keeps the rules, and ``gap`` = (bound − value) / bound, the gap of the plan the
+    user gets; they are ``None`` for dispatch.  ``proven_optimal`` is True only when that gap
+    is at most 0.01 %.
     """
 
     placed: int  # targets with at least one visit
@@ -117,6 +118,8 @@ class PlanMetrics:
     gap: float | None
     method: str
     proven_optimal: bool
+    visits: int = 0  # visits placed
+    visits_possible: int = 0  # repeats asked of the targets counted in ``possible``
 
 
 @dataclass(frozen=True)
@@ -127,6 +130,7 @@ class Plan:
     not_placed: dict[int, str]  # target -> one of REASONS
     missing_repeats: dict[int, int]  # placed targets that got fewer repeats than asked
     metrics: PlanMetrics = field(repr=False)
+    repeats_short: dict[int, tuple[int, int]] = field(default_factory=dict)  # (got, asked)
 
 
 class PlanNight:

@@ -56,10 +56,13 @@ def plan_document(p, site, generated_at: float, rest=None) -> dict:
         "observations": [visit_record(v) for v in p.visits],
         "not_placed": [{"name": str(res.names[i]), "reason": code, "explanation": text}
                        for i, code, text in p.not_placed],
+        "short_repeats": [{"name": str(res.names[i]), "visits": got, "asked": asked}
+                          for i, got, asked in p.short_repeats],
         "metrics": {
             "placed": m.placed, "possible": m.possible, "targets": len(res.names),
             "airmass_excess": None if m.airmass_excess != m.airmass_excess else round(
                 m.airmass_excess, 5),
+            "visits": m.visits, "visits_possible": m.visits_possible,
             "idle_minutes": round(m.idle_minutes, 2), "objective": round(m.objective, 6),
             "gap": m.gap, "proven_optimal": m.proven_optimal, "method": m.method,
         },
@@ -86,8 +89,11 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
     m = p.metrics
     excess = "—" if m.airmass_excess != m.airmass_excess else f"{100 * m.airmass_excess:.1f}%"
     gap = "" if m.gap is None else f", gap {100 * m.gap:.2f}%"
-    caption = (f"placed {m.placed} of {m.possible} possible targets; airmass excess {excess}; "
-               f"idle {m.idle_minutes:.0f} min; method {m.method}{gap}\n{SAFETY}")
+    short = {i: (got, asked) for i, got, asked in p.short_repeats}
+    visits = f" ({m.visits} of {m.visits_possible} visits)" if m.visits_possible != m.possible \
+        else ""
+    caption = (f"placed {m.placed} of {m.possible} possible targets{visits}; airmass excess "
+               f"{excess}; idle {m.idle_minutes:.0f} min; method {m.method}{gap}\n{SAFETY}")
     if codes is not None:
         from skyplan.render.windowview import TIMELINE_KEY
 
@@ -109,6 +115,8 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
         notes = []
         if v.repeat > 1:
             notes.append(f"repeat {v.repeat}")
+        if v.target in short and v.repeat == short[v.target][0]:
+            notes.append(f"only {short[v.target][0]} of {short[v.target][1]} visits")
         if v.airmass_mid > v.best_airmass * 1.05:
             notes.append(f"best {v.best_airmass:.2f}")
         label = v.name if not v.identifier or v.identifier == v.name else \

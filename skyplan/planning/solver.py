@@ -1,0 +1,136 @@
+"""The ``"optimal"`` method: time-indexed models solved by HiGHS, realised, and bounded.
+
+1. The relaxed model's linear-programming optimum (:func:`timeindexed.relaxed_model`) bounds
+   the value of every plan that obeys the rules: the upper bound ``U``.
+2. The padded model (:func:`timeindexed.padded_model`) is solved: its LP relaxation, rounded
+   (:func:`timeindexed.round_down`); when the model is small, also as an integer program
+   within the time left, keeping the better.  The solution is realised with the real slews
+   (worth at least the model's objective), the idle gaps get extra visits, and every visit
+   moves toward its lowest airmass inside its free gap
+   (:func:`skyplan.planning.dispatch._improve`).
+3. The best of these plans and the dispatch plan, by value, is compacted (every visit as
+   early as it can go, :func:`realise.compact`), its gaps filled, neighbours exchanged where
+   that raises their merit (:func:`realise.swap_neighbours`) and its visits moved toward their
+   best airmass again; the result is kept if it is worth more.  Its gap is
+   ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
+
+Each model's grid step is the night's step times the smallest stride keeping it within its
+variable budget (measured, see docs/planning.md).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from skyplan.planning import realise, timeindexed
+from skyplan.planning.bound import lagrangian_bound
+from skyplan.planning.merit import priority_weights
+
+if TYPE_CHECKING:
+    from skyplan.planning.model import PlanNight
+
+VARIABLE_BUDGET = 6_000
+BOUND_VARIABLE_BUDGET = 30_000
+BOUND_MIN_STRIDE = 2  # the LP on the night's own grid is many times slower (measured)
+MIP_VARIABLES = 1_500  # the padded model is also solved as an integer program up to this size
+MIP_SHARE = 0.5  # of the time left
+LAGRANGIAN_STEPS = 30
+GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
+PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
+
+
+@dataclass(frozen=True)
+class Outcome:
+    visits: list[tuple]  # the returned plan's visits
+    method: str  # "optimal", or "dispatch" when the dispatch plan was worth more
+    value: float  # the plan's objective (summed merit)
+    bound: float | None  # proven upper bound on any plan's value; None if not found in time
+    gap: float | None  # (bound - value) / bound
+    solved: bool  # the padded model was solved (its plan may still rank below dispatch)
+
+
+def _better(night, weight, improve, raw, best, method, value, swap=False):
+    """Fill (and with ``swap`` reorder) and improve ``raw``; keep it if worth more."""
+    raw = realise.fill_gaps(night, raw, weight)
+    if swap:
+        raw = realise.swap_neighbours(night, raw, weight)
+    raw = improve(night, raw)
+    raw_value = realise.plan_value(night, raw, weight)
+    if raw_value > value + 1e-9:
+        return raw, "optimal", raw_value
+    return best, method, value
+
+
+def _close(bound: float | None, value: float) -> bool:
+    """The plan is within ``GOOD_ENOUGH`` of the bound: further work would gain little."""
+    return bound is not None and value >= bound * (1.0 - GOOD_ENOUGH)
+
+
+def stride_for(night: PlanNight, budget: int) -> int:
+    """The smallest stride of the night's grid keeping the variables within ``budget``."""
+    length = float(np.sum(night.win_end - night.win_start))
+    need = length / night.step_s / max(budget, 1)
+    return max(1, int(math.ceil(need)))
+
+
+def optimise(
+    night: PlanNight, dispatch: list[tuple], time_limit_s: float, improve, dense_pad_s: float
+) -> Outcome:
+    """Plan with the padded models, compare with ``dispatch``, and bound all (see above).
+
+    ``improve(night, visits)``: the local search applied to every realised plan;
+    ``dense_pad_s``: the slew allowance of the denser model (a typical slew).
+    """
+    deadline = time.monotonic() + time_limit_s
+    weight = priority_weights(night.priority, night.active)
+    dispatch_value = realise.plan_value(night, dispatch, weight)
+    if time_limit_s <= 0 or not night.active.any():
+        return Outcome(dispatch, "dispatch", dispatch_value, None, None, False)
+    g_bound = night.step_s * max(stride_for(night, BOUND_VARIABLE_BUDGET), BOUND_MIN_STRIDE)
+    relaxed = timeindexed.relaxed_model(night, g_bound, weight)
+    lp = timeindexed.solve(relaxed, max(deadline - time.monotonic(), 0.0), integer=False)
+    bound = lp.bound if lp.found else None
+    g = night.step_s * stride_for(night, VARIABLE_BUDGET)
+    padded = timeindexed.padded_model(night, g, weight)
+    left = deadline - time.monotonic()
+    relaxed_p = timeindexed.solve(padded, left, integer=False) if left > 0 else None
+    best, method, value, solved = dispatch, "dispatch", dispatch_value, False
+    if relaxed_p is not None and relaxed_p.found:
+        solved = True
+        chosen = timeindexed.round_down(padded, relaxed_p.x)
+        left = deadline - time.monotonic()
+        rounded = float(padded.var_merit[chosen].sum())
+        if padded.size <= MIP_VARIABLES and left > 0 and rounded < relaxed_p.bound * (
+            1 - PROVEN_GAP
+        ):
+            mip = timeindexed.solve(padded, MIP_SHARE * left, integer=True)
+            if mip.found and mip.objective > rounded:
+                chosen = mip.chosen
+        raw = realise.realise(night, padded, chosen)
+        best, method, value = _better(night, weight, improve, raw, best, method, value)
+    pad = dense_pad_s
+    left = deadline - time.monotonic()
+    if left > 0 and pad < night.slew.longest_s() and not _close(bound, value):
+        dense = timeindexed.padded_model(night, g, weight, pad)
+        relaxed_d = timeindexed.solve(dense, left, integer=False)
+        if relaxed_d.found:
+            raw = realise.realise(night, dense, timeindexed.round_down(dense, relaxed_d.x), pad)
+            best, method, value = _better(night, weight, improve, raw, best, method, value)
+    if deadline - time.monotonic() > 0:
+        packed = realise.compact(night, best)
+        best, method, value = _better(night, weight, improve, packed, best, method, value, True)
+    left = deadline - time.monotonic()
+    if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
+        fine = timeindexed.relaxed_model(night, night.step_s, weight)
+        k = int(round(g_bound / night.step_s))
+        price = np.repeat(lp.slot_price / k, k)
+        bound = min(bound, lagrangian_bound(fine, price, value, LAGRANGIAN_STEPS))
+    gap = None
+    if bound is not None:
+        gap = max((bound - value) / bound, 0.0) if bound > 0 else 0.0
+    return Outcome(best, method, value, bound, gap, solved)
