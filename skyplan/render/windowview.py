@@ -56,6 +56,10 @@ class TimelineSheet(Sheet):
                  color: bool, strip_rank: float = 1e9) -> None:
         super().__init__(title, footer)
         self.strip_rank = strip_rank
+        if codes is not None and len(codes):  # the strip starts and ends where the sky is dark
+            dark = np.flatnonzero((codes != LIGHT).any(axis=0))
+            if dark.size:
+                codes, edges = codes[:, dark[0]:dark[-1] + 1], edges[dark[0]:dark[-1] + 2]
         self.codes, self.edges, self.zone, self.key, self.color = codes, edges, zone, key, color
 
     def lines(self, width: int | None) -> list:
@@ -94,8 +98,7 @@ def hhmm(unix, zone) -> str:
 
 
 _hhmm = hhmm
-STATUS_SHORT = {"observable": "ok", "always up": "up", "always up blocked": "blocked",
-                "not observable": "none", "never up": "never"}
+STATUS_SHORT = {"observable": "yes", "always up blocked": "blocked", "not observable": "no window"}
 
 
 def limits_line(res) -> str:
@@ -125,8 +128,7 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True) -> S
     status = _status(res)
     order = np.argsort(-res.usable_s, kind="stable")
     t = TimelineSheet(f"Windows, night of {res.night.date.isoformat()} at {site.name}",
-                      [limits_line(res), "short status: ok observable, up always up, blocked "
-                       "always up but blocked all night, none no window, never never up"],
+                      [limits_line(res)],
                       None if codes is None else codes[order], edges, zone, TIMELINE_KEY, color,
                       strip_rank=8.5)
     t.column("target", rank=0)
