@@ -201,3 +201,20 @@ def test_convert_csv_holds_plain_values(capsys) -> None:
     for key in ("az_deg", "alt_deg", "refraction_deg"):  # at most 9 decimal places
         assert len(rows[0][key].split(".")[-1]) <= 9
     assert len(rows[0]["hour_angle_h"].split(".")[-1]) <= 10
+
+
+@pytest.mark.parametrize("width", [80, 100, 120])
+def test_resolved_names_keep_one_line_and_their_identifiers_go_below(width, capsys, tmp_path,
+                                                                     monkeypatch) -> None:
+    """'Vega' resolved offline to 'Vega = HIP 91262' (Hipparcos-2): the name stays in its
+    cell on one line, the identifier is a note under the table."""
+    monkeypatch.setenv("COLUMNS", str(width))
+    catalogue = tmp_path / "names.csv"
+    catalogue.write_text("name,ra,dec\nVega,,\nDeneb,,\nAltair,,\nArcturus,,\n")
+    for argv in (("plan", "--method", "dispatch"), ("windows",)):
+        code, out, _ = run(capsys, *argv, str(catalogue), "--site", "38,-3", *NIGHT)
+        assert code == 0
+        fitted(out, width)
+        assert "Vega = HIP 91262" in out and "(Vega" not in out
+        rows = [line for line in out.splitlines() if re.search(r"\bVega\b", line)]
+        assert len(rows) == 2  # its row and its note
