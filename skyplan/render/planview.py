@@ -8,7 +8,7 @@ from zoneinfo import ZoneInfo
 from skyplan import __version__
 from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import Sheet, site_record
-from skyplan.render.windowview import _hhmm
+from skyplan.render.windowview import hhmm as _hhmm
 
 SCHEMA = "skyplan.plan/2"
 SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the site's rules come "

@@ -70,9 +70,9 @@ class TimelineSheet(Sheet):
             if math.ceil(n / step) < MIN_STRIP:
                 break
             got = fit(self._with_strip(step), width)
-            if width is None or not any(line.plain.startswith("left out at") and
-                                        "timeline" in line.plain for line in got):
-                return got
+            rule = next(i for i, line in enumerate(got) if set(line.plain) == {"─"})
+            if width is None or any("timeline" in line.plain.split() for line in got[:rule]):
+                return got  # the strip is in the header: it fits
         note = f"timeline left out at {width} columns (--wide shows it)"
         return fit(Sheet(self.title, [*self.footer, note], list(self.columns)), width)
 
@@ -97,8 +97,7 @@ def hhmm(unix, zone) -> str:
     return dt.datetime.fromtimestamp(float(unix), zone).strftime("%H:%M")
 
 
-_hhmm = hhmm
-STATUS_SHORT = {"observable": "yes", "always up blocked": "blocked", "not observable": "no window"}
+STATUS_SHORT = {"observable": "yes", "always up blocked": "blocked", "not observable": "none"}
 
 
 def limits_line(res) -> str:
@@ -132,9 +131,9 @@ def windows_table(res, site, codes=None, edges=None, *, color: bool = True) -> S
                       None if codes is None else codes[order], edges, zone, TIMELINE_KEY, color,
                       strip_rank=8.5)
     t.column("target", rank=0)
-    t.column("status", rank=5)
+    t.column("status", rank=5, fate="drop")
     t.column("rise", rank=7, fate="drop", justify="right")
-    t.column("transit", rank=4, justify="right")
+    t.column("transit", rank=4, fate="drop", justify="right")
     t.column("set", rank=7.5, fate="drop", justify="right")
     t.column("windows", rank=1, fate="wrap")
     t.column("usable", rank=2, justify="right")
