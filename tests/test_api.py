@@ -123,7 +123,7 @@ def test_sunset_against_skyfield(demo) -> None:
 def test_windows_agree_with_the_command(demo, capsys) -> None:
     site, night, programme = demo
     found = skyplan.windows(programme, site, night)
-    assert found.to_records() == cli_json(["windows", "--demo"], capsys)
+    assert found.to_records() == cli_json(["windows", "--demo"], capsys)["targets"]
 
 
 def test_limits_as_the_command_reads_them(demo, capsys) -> None:
@@ -132,7 +132,7 @@ def test_limits_as_the_command_reads_them(demo, capsys) -> None:
     assert isinstance(limits, skyplan.Limits) and limits.min_alt_deg == 35.0
     found = skyplan.windows(programme, site, night, limits)
     assert found.to_records() == cli_json(
-        ["windows", "--demo", "--min-alt", "35", "--moon-gap", "30"], capsys)
+        ["windows", "--demo", "--min-alt", "35", "--moon-gap", "30"], capsys)["targets"]
     with pytest.raises(skyplan.InputError, match="minimum altitude"):
         skyplan.limits(min_alt=95.0)
 

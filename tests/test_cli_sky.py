@@ -85,7 +85,7 @@ WINDOW_KEYS = {"name", "ra_deg", "dec_deg", "rise", "transit", "set", "transit_a
 def test_windows_demo_json(capsys) -> None:
     code, out, err = run(capsys, "windows", "--demo", "-f", "json")
     assert code == 0, err
-    records = json.loads(out)
+    records = json.loads(out)["targets"]
     assert len(records) == 40  # the demo programme's rows
     spans = []
     for rec in records:
@@ -127,7 +127,7 @@ def test_windows_moon_gap_takes_minutes_from_the_target_beside_the_moon(capsys) 
     local midnight confirms it is within the 10° gap, and the gap costs it minutes."""
     code, out, err = run(capsys, "windows", "--demo", "--moon-gap", "10", "-f", "json")
     assert code == 0, err
-    ember = next(r for r in json.loads(out) if r["name"] == "Ember Knot")
+    ember = next(r for r in json.loads(out)["targets"] if r["name"] == "Ember Knot")
     assert ember["lost_minutes"]["moon"] > 0.0
 
     from skyfield.api import Star, wgs84

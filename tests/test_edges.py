@@ -121,7 +121,7 @@ def test_windows_at_the_north_pole(capsys, tmp_path: Path) -> None:
     status, out, _ = run(capsys, "windows", str(catalogue), "--site", "90,0", "--date",
                          "2026-12-21", "--min-alt", "20", "-f", "json")
     assert status == 0
-    high, low = json.loads(out)
+    high, low = json.loads(out)["targets"]
     assert high["rise"] is None and high["set"] is None
     assert high["transit_alt_deg"] == pytest.approx(60.0, abs=0.5)  # precession since J2000
     assert high["usable_minutes"] == pytest.approx(1440.0, abs=1.0)
@@ -333,7 +333,7 @@ def test_ra_0_and_just_below_360_give_the_same_windows(capsys, tmp_path: Path) -
     catalogue.write_text("name,ra,dec\nA,0,10\nB,359.9999999,10\n", encoding="utf-8")
     status, out, _ = run(capsys, "windows", str(catalogue), "--demo", "-f", "json")
     assert status == 0
-    a, b = json.loads(out)
+    a, b = json.loads(out)["targets"]
     assert a["transit"] == b["transit"] and a["windows"] == b["windows"]
 
 
@@ -345,7 +345,7 @@ def test_header_only_catalogue(capsys, tmp_path: Path) -> None:
     catalogue = tmp_path / "empty.csv"
     catalogue.write_text("name,ra,dec\n", encoding="utf-8")
     status, out, err = run(capsys, "windows", str(catalogue), "--demo", "-f", "json")
-    assert status == 0 and json.loads(out) == []
+    assert status == 0 and json.loads(out)["targets"] == []
     assert err.strip() == f"skyplan: note: {catalogue}: the catalogue holds no targets"
     status, out, err = run(capsys, "plan", str(catalogue), "--demo", "-f", "json")
     assert status == EXIT_NOTHING_OBSERVABLE and out == ""
@@ -360,6 +360,6 @@ def test_duplicate_names_are_kept_with_one_notice(capsys, tmp_path: Path) -> Non
                          encoding="utf-8")
     status, out, err = run(capsys, "windows", str(catalogue), "--demo", "-f", "json")
     assert status == 0
-    assert [r["name"] for r in json.loads(out)] == ["Twin", "Twin", "Solo", "Twin"]
+    assert [r["name"] for r in json.loads(out)["targets"]] == ["Twin", "Twin", "Solo", "Twin"]
     assert err.splitlines() == [
         f"skyplan: note: {catalogue}: duplicate target names kept: Twin"]

@@ -128,7 +128,7 @@ def test_sigkill_at_random_moments_of_a_cli_run(tmp_path: Path) -> None:
             outcomes.add("old")
         else:  # the run had finished: the new file is complete JSON, one record per target
             outcomes.add("new")
-            assert len(json.loads(data)) == 20_000
+            assert len(json.loads(data)["targets"]) == 20_000
         for name in leftovers(tmp_path, "windows.json"):
             assert name == "many.csv" or name.startswith(".windows.json."), name
     assert "old" in outcomes
@@ -517,7 +517,7 @@ def test_over_long_fields_are_named(tmp_path: Path, capsys: pytest.CaptureFixtur
                                    "40 characters long; at most 12 are read")
     status, out, err = run(capsys, "windows", str(path), "--demo", "--skip-bad-rows",
                            "-f", "json")
-    assert status == 0 and [r["name"] for r in json.loads(out)] == ["Short"]
+    assert status == 0 and [r["name"] for r in json.loads(out)["targets"]] == ["Short"]
     assert f"skipped 1 malformed row(s) (first: {path}:3" in err  # never dropped silently
 
 

@@ -55,7 +55,7 @@ def read_plan(path: str | Path, *, site: Site | None = None,
     tset = TargetSet(names, np.atleast_1d(ra_icrs), np.atleast_1d(dec_icrs), zeros, zeros,
                      zeros, zeros, np.full(n, 2000.0), body)
     priority = np.array([t.priority for t in found], dtype=float)
-    visits = [Visit(v.name, v.start, v.end) for v in planned]
+    visits = [Visit(v.name, v.start, v.end, k + 1) for k, v in enumerate(planned)]
     return PlanRead(the_site, night_api.wrap(the_night, the_site),
                     Targets(tset, priority, np.full(n, np.nan), (), plan.path), visits,
                     plan.limits)
@@ -93,7 +93,8 @@ def sky_scene(site: Site, at, targets: Targets | None = None, limits: Limits | N
 def altitude_scene(site: Site, night: Night, targets: Targets, limits: Limits | None = None,
                    *, top: int | None = 8, visits: list | None = None):
     """Altitude against local time over ``night``: with ``visits`` (from :func:`read_plan`)
-    the ``top`` planned targets of highest priority; otherwise the ``top`` targets with a
+    the ``top`` planned targets of highest priority, each visit numbered on its curve in
+    plan order; otherwise the ``top`` targets with a
     window, highest priority first, then the longest usable time."""
     from skyplan import notices
     from skyplan.api.windows import limits as site_limits

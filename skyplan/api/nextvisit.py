@@ -60,7 +60,7 @@ class NextVisit:
                                     self.choice, self.plan.site, time.time())
 
     def to_table(self):
-        """The few lines ``skyplan next`` prints for a person (a rich renderable)."""
+        """The few lines ``skyplan next`` prints for a person (a ``render.tables.Sheet``)."""
         from skyplan.render import planview
 
         return planview.next_table(self.status, self.at.timestamp(), self.plan.result,

@@ -38,8 +38,8 @@ class Windows:
     """Rise, transit, set and the observable windows of every target on one night.
 
     ``windows_of(name)`` gives one target's windows as (start, end) aware datetimes;
-    ``to_table()`` one row per target; ``to_records()`` the records ``skyplan windows
-    --format json`` writes.
+    ``to_table()`` one row per target; ``to_records()`` the target records of ``skyplan
+    windows --format json`` (its document's ``targets``; NDJSON holds them one a line).
     """
 
     site: Site = field(repr=False)
@@ -66,7 +66,8 @@ class Windows:
         return [(aware(a), aware(b)) for a, b in zip(w.start[mine], w.end[mine])]
 
     def to_records(self) -> list[dict]:
-        """One record per target, as in the JSON output (ISO 8601 times, null for none)."""
+        """One record per target, as in the JSON document's ``targets`` (ISO 8601 times,
+        null for none)."""
         from skyplan.render import windowcolumns
 
         return windowcolumns.records(self.result)

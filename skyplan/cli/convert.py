@@ -71,7 +71,7 @@ def convert(
     elif fmt == "ndjson":
         options.emit(records.to_ndjson(rows), out)
     elif fmt == "csv":
-        options.emit(records.to_csv(rows), out)
+        options.emit(records.to_csv(convertview.csv_records(rows)), out)
     else:
         options.emit(tables.render_text(convertview.conversion_table(result.result), wide=wide),
                      out)

@@ -52,6 +52,7 @@ def next_cmd(
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
+    wide: bool = common.WideOpt,
 ) -> int:
     """What to observe now: the first visit of the plan of the rest of the night.
 
@@ -76,5 +77,5 @@ def next_cmd(
     if fmt == "json":
         common.emit(records.to_json(answer.to_record()), out)
     else:
-        common.emit(tables.render_text(answer.to_table()), out)
+        common.emit(tables.render_text(answer.to_table(), wide=wide), out)
     return EXIT_OK if answer.status == "observe" else EXIT_NOTHING_OBSERVABLE

@@ -85,6 +85,7 @@ def plan_cmd(
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
     input_format: str = typer.Option(None, "--input-format", help=sky.INPUT_FORMAT_HELP),
+    wide: bool = common.WideOpt,
 ) -> None:
     """The night's observations in order, each target as high as the night allows.
 
@@ -111,23 +112,22 @@ def plan_cmd(
                                  computed=got.computed, start=got.at, done=done)
         except NothingObservable as exc:
             if out is not None:
-                emit_plan(exc.plan, fmt, out)
+                emit_plan(exc.plan, fmt, out, wide)
             raise
-    emit_plan(made, fmt, out)
+    emit_plan(made, fmt, out, wide)
 
 
-def emit_plan(made, fmt: str, out: str | None) -> None:
+def emit_plan(made, fmt: str, out: str | None, wide: bool = False) -> None:
     """The plan in the asked format, to stdout or atomically to ``out``."""
     from skyplan.render import planview, records, tables
 
     plan = made.result
     if fmt == "table":
         edges, codes = made.timeline()
-        text = tables.render_text(planview.plan_table(plan, made.site, codes, edges,
-                                                      color=common.is_terminal()))
+        parts = [planview.plan_table(plan, made.site, codes, edges, color=common.is_terminal())]
         if plan.not_placed:
-            text += tables.render_text(planview.not_placed_table(plan))
-        common.emit(text, out)
+            parts.append(planview.not_placed_table(plan))
+        common.emit(tables.render_text(parts, wide=wide), out)
         return
     doc = made.to_document()
     if fmt == "json":

@@ -64,7 +64,7 @@ def window_data(run, fmt: str):
             yield windowcolumns.frame(res, identifier=identifier, text_times=text_times)
 
     if fmt == "json":
-        return windowcolumns.json_stream(tables())
+        return windowcolumns.json_stream(tables(), windowcolumns.document_head(first, run.site))
     if fmt == "ndjson":
         return windowcolumns.ndjson_stream(tables())
     if fmt == "csv":
@@ -103,6 +103,7 @@ def windows_cmd(
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
     input_format: str = typer.Option(None, "--input-format", help=INPUT_FORMAT_HELP),
+    wide: bool = common.WideOpt,
 ) -> None:
     """Rise, transit, set and the observable windows of every target tonight."""
     from skyplan.api import bulk
@@ -125,7 +126,8 @@ def windows_cmd(
 
     res = bulk.window_result(run)
     if fmt == "json":  # indented, for people too
-        common.emit(records.to_json(windowcolumns.records(res), clean=False), out)
+        doc = {**windowcolumns.document_head(res, run.site), "targets": windowcolumns.records(res)}
+        common.emit(records.to_json(doc, clean=False), out)
         return
     import numpy as np
 
@@ -133,4 +135,4 @@ def windows_cmd(
 
     edges, codes = timeline.timeline_codes(res, np.arange(len(res.names)))
     table = windowview.windows_table(res, run.site, codes, edges, color=common.is_terminal())
-    common.emit(tables.render_text(table), out)
+    common.emit(tables.render_text(table, wide=wide), out)

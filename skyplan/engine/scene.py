@@ -221,11 +221,13 @@ class TwilightEdges:
 
 @dataclass(frozen=True)
 class Visit:
-    """A planned visit of one target: ``start_unix`` to ``end_unix``."""
+    """A planned visit of one target: ``start_unix`` to ``end_unix``; ``seq`` its place in
+    the plan (1, 2, 3 ...; 0: not numbered)."""
 
     name: str
     start_unix: float
     end_unix: float
+    seq: int = 0
 
     def __post_init__(self) -> None:
         if not self.end_unix > self.start_unix:

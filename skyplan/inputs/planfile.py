@@ -2,8 +2,9 @@
 
 A plan names its site (a name, or a record with ``name``, ``lat_deg``, ``lon_deg``,
 ``elevation_m``, ``zone``), its night (a date, or a record with ``date``) and its
-``observations``: ``name``, ``start`` and ``end`` (ISO 8601 UTC), ``ra_deg`` and
-``dec_deg`` (apparent, of date), optionally ``priority``; optionally ``limits`` with
+``observations``: ``name``, ``start`` and ``end`` (ISO 8601 UTC), ``ra_apparent_deg`` and
+``dec_apparent_deg`` (apparent, of date; plan documents before schema 2 call them ``ra_deg``
+and ``dec_deg``, still read), optionally ``priority``; optionally ``limits`` with
 ``min_alt_deg`` and ``max_airmass``.  Every problem is an InputError naming the file and
 the field.  No astronomy here: the places stay apparent, of date.
 """
@@ -135,7 +136,8 @@ def _observation(rec, i, plan_path, zone):
         name = str(rec["name"]).strip()
         start = timeinput.parse_instant(str(rec["start"]), zone, field=f"{where}.start")
         end = timeinput.parse_instant(str(rec["end"]), zone, field=f"{where}.end")
-        ra, dec = float(rec["ra_deg"]), float(rec["dec_deg"])
+        ra = float(rec["ra_apparent_deg"] if "ra_apparent_deg" in rec else rec["ra_deg"])
+        dec = float(rec["dec_apparent_deg"] if "dec_apparent_deg" in rec else rec["dec_deg"])
     except KeyError as exc:
         raise InputError(f"missing {exc.args[0]!r}", file=plan_path, field=where) from None
     except (TypeError, ValueError) as exc:
@@ -143,7 +145,7 @@ def _observation(rec, i, plan_path, zone):
     except InputError as exc:
         raise InputError(exc.message, file=plan_path, field=exc.field) from None
     if not name or not (0.0 <= ra <= 360.0 and -90.0 <= dec <= 90.0):
-        raise InputError("needs a name, ra_deg in 0..360 and dec_deg in -90..90",
+        raise InputError("needs a name, ra_apparent_deg in 0..360 and dec_apparent_deg in -90..90",
                          file=plan_path, field=where)
     priority = rec.get("priority", 1)
     if isinstance(priority, bool) or not isinstance(priority, (int, float)):

@@ -117,6 +117,7 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         texts.append("Moon")
 
     peak_labels = []
+    numbers = []  # the visits' numbers: the curve labels keep clear of them
     for k, name in enumerate(scene.names):
         colour = CURVE_COLOURS[k % len(CURVE_COLOURS)]
         style = CURVE_STYLES[(k // len(CURVE_COLOURS)) % len(CURVE_STYLES)]
@@ -128,7 +129,7 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         texts.append(_shorten(name))
         for v in scene.visits:
             if v.name == name:
-                _draw_visit(ax, t, alt, v.start_unix, v.end_unix, colour)
+                numbers += _draw_visit(ax, t, alt, v, colour, 0.75 * base)
         top = int(np.argmax(alt))
         if alt[top] > 0.0:
             peak_labels.append(
@@ -144,9 +145,11 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
             )
     if scene.visits:
         handles.append(Line2D([], [], color=GRID, linewidth=7.0, alpha=0.9, solid_capstyle="butt"))
-        texts.append("planned visit")
+        texts.append("planned visit, numbered in plan order"
+                     if any(v.seq for v in scene.visits) else "planned visit")
 
-    hidden = place_labels(ax, renderer, peak_labels, [])
+    hidden = place_labels(ax, renderer, peak_labels,
+                          [n.get_window_extent(renderer) for n in numbers])
     legend_rows = max(1, int(0.8 * height_px / (1.75 * base * dpi / 72.0)))
     ncols = 1 if len(handles) <= legend_rows else 2
     fig.legend(
@@ -191,9 +194,12 @@ def _draw_twilight(ax: Axes, scene: AltitudeScene) -> list[int]:
     return sorted(drawn)
 
 
-def _draw_visit(
-    ax: Axes, t: np.ndarray, alt: np.ndarray, start: float, end: float, colour: str
-) -> None:
+def _draw_visit(ax: Axes, t: np.ndarray, alt: np.ndarray, visit, colour: str,
+                size: float) -> list:
+    """A visit as a broad stroke over its curve, ticks at its ends and, when the visit is
+    numbered, its number in the plan above the stroke's middle (returned, to keep labels
+    clear of it)."""
+    start, end = visit.start_unix, visit.end_unix
     inside = (t > start) & (t < end)
     tv = np.concatenate([[start], t[inside], [end]])
     av = np.interp(tv, t, alt)
@@ -217,6 +223,15 @@ def _draw_visit(
         color=colour,
         zorder=5,
     )
+    if not visit.seq:
+        return []
+    middle = 0.5 * (start + end)
+    return [ax.annotate(str(visit.seq), (middle, float(np.interp(middle, t, alt))),
+                        xytext=(0, 9), textcoords="offset points", ha="center", va="bottom",
+                        fontsize=size, fontweight="bold", color=colour, zorder=7,
+                        gid="visit-seq",
+                        bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                              "edgecolor": colour, "linewidth": 0.8, "alpha": 0.9})]
 
 
 def _airmass_of_alt(alt_deg: np.ndarray) -> np.ndarray:

@@ -36,8 +36,8 @@ def conversion_records(res) -> list[dict]:
         rec[klon] = lon[i]
         rec[klat] = lat[i]
         if req.to_frame == "horizon":
-            rec["hour_angle_h"] = float(res.hour_angle_h[i])
-            rec["refraction_deg"] = float(res.refraction_deg[i])
+            rec["hour_angle_h"] = round(float(res.hour_angle_h[i]), 10)
+            rec["refraction_deg"] = round(float(res.refraction_deg[i]), 9)
         rec["frame"] = req.to_frame
         if res.equinox_label:
             rec["equinox"] = res.equinox_label
@@ -49,6 +49,18 @@ def conversion_records(res) -> list[dict]:
         if when is not None:
             rec["time"] = when
         out.append(rec)
+    return out
+
+
+def csv_records(records: list[dict]) -> list[dict]:
+    """The records for CSV: plain values only, the site flattened to ``site_name``,
+    ``site_lat_deg``, ``site_lon_deg``, ``site_elevation_m``, ``site_zone``."""
+    out = []
+    for rec in records:
+        flat = {k: v for k, v in rec.items() if k != "site"}
+        if "site" in rec:
+            flat.update({f"site_{k}": v for k, v in rec["site"].items()})
+        out.append(flat)
     return out
 
 

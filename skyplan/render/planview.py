@@ -7,12 +7,13 @@ from zoneinfo import ZoneInfo
 
 from skyplan import __version__
 from skyplan.inputs.timeinput import iso_utc
-from skyplan.render.tables import _table, site_record
-from skyplan.render.windowview import _hhmm
+from skyplan.render.tables import Sheet, site_record
+from skyplan.render.windowview import hhmm as _hhmm
 
-SCHEMA = "skyplan.plan/1.1"
-SAFETY = ("Advice only: the telescope's own limits, interlocks and the site's rules come first. "
-          "Never point unfiltered optics at or near the Sun.")
+SCHEMA = "skyplan.plan/2"
+SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the site's rules come "
+                "first.", "Never point unfiltered optics at or near the Sun.")
+SAFETY = " ".join(SAFETY_LINES)
 
 
 def visit_record(v) -> dict:
@@ -22,7 +23,8 @@ def visit_record(v) -> dict:
         "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
         "end": iso_utc(v.end), "exposure_s": round(v.exposure_s, 3),
         "overhead_s": round(v.overhead_s, 3), "slew_s": round(v.slew_s, 3),
-        "ra_deg": round(v.ra_date_deg, 6), "dec_deg": round(v.dec_date_deg, 6),
+        "ra_apparent_deg": round(v.ra_date_deg, 6),
+        "dec_apparent_deg": round(v.dec_date_deg, 6),
         "alt_start_deg": round(v.alt_start_deg, 3), "alt_mid_deg": round(v.alt_mid_deg, 3),
         "alt_end_deg": round(v.alt_end_deg, 3), "az_mid_deg": round(v.az_mid_deg, 3),
         "airmass_mid": round(v.airmass_mid, 4), "hour_angle_mid_h": round(v.hour_angle_mid_h, 4),
@@ -84,6 +86,10 @@ def rest_record(rest, names) -> dict:
 
 
 def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
+    """The plan for the person at the telescope: order, start, target, altitude and air mass
+    first; the timeline strip takes the room left (see :mod:`skyplan.render.windowview`)."""
+    from skyplan.render.windowview import TIMELINE_KEY, TimelineSheet
+
     res = p.windows
     zone = ZoneInfo(res.night.zone)
     m = p.metrics
@@ -92,26 +98,29 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
     short = {i: (got, asked) for i, got, asked in p.short_repeats}
     visits = f" ({m.visits} of {m.visits_possible} visits)" if m.visits_possible != m.possible \
         else ""
-    caption = (f"placed {m.placed} of {m.possible} possible targets{visits}; airmass excess "
-               f"{excess}; idle {m.idle_minutes:.0f} min; method {m.method}{gap}\n{SAFETY}")
-    if codes is not None:
-        from skyplan.render.windowview import TIMELINE_KEY
-
-        caption += (f"\n{TIMELINE_KEY}, '@' this visit; strip {_hhmm(edges[0], zone)}–"
-                    f"{_hhmm(edges[-1], zone)}")
-    t = _table(f"Plan for the night of {res.night.date.isoformat()} at {site.name} "
-               f"(times {res.night.zone}, UTC in brackets)", caption)
-    for col, just in (("#", "right"), ("start", "left"), ("target", "left"), ("exp", "right"),
-                      ("alt start/mid/end", "right"), ("az", "right"), ("airmass", "right"),
-                      ("HA", "right"), ("Moon", "right"), ("notes", "left")):
-        t.add_column(col, justify=just)
-    if codes is not None:
-        t.add_column("timeline", no_wrap=True)
-    from skyplan.render.windowview import timeline_text
-
-    for k, v in enumerate(p.visits):
+    footer = [f"placed {m.placed} of {m.possible} possible targets{visits}; airmass excess "
+              f"{excess}; idle {m.idle_minutes:.0f} min; method {m.method}{gap}", *SAFETY_LINES]
+    t = TimelineSheet(f"Plan for the night of {res.night.date.isoformat()} at {site.name} "
+                      f"(times {res.night.zone})", footer, codes, edges, zone,
+                      f"{TIMELINE_KEY}, '@' this visit", color,
+                      strip_rank=8.8)
+    t.column("#", rank=0, justify="right")
+    t.column("start", rank=1)
+    t.column("UTC", rank=7, fate="drop")
+    t.column("target", rank=2)
+    t.column("exp", rank=5, justify="right")
+    t.column("alt", rank=3, justify="right")
+    t.column("alt start/end", rank=9, fate="drop", justify="right")
+    t.column("az", rank=8, fate="drop", justify="right")
+    t.column("airmass", rank=4, justify="right")
+    t.column("HA", rank=6, fate="drop", justify="right")
+    t.column("Moon", rank=8.5, fate="drop", justify="right")
+    t.column("notes", rank=10, fate="wrap")
+    named = any(v.identifier and v.identifier != v.name for v in p.visits)
+    if named:
+        t.column("identifier", rank=11, fate="note")
+    for v in p.visits:
         utc = dt.datetime.fromtimestamp(v.exposure_start, dt.UTC)
-        start = f"{_hhmm(v.exposure_start, zone)} ({utc:%H:%M})"
         notes = []
         if v.repeat > 1:
             notes.append(f"repeat {v.repeat}")
@@ -119,23 +128,21 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
             notes.append(f"only {short[v.target][0]} of {short[v.target][1]} visits")
         if v.airmass_mid > v.best_airmass * 1.05:
             notes.append(f"best {v.best_airmass:.2f}")
-        label = v.name if not v.identifier or v.identifier == v.name else \
-            f"{v.name} ({v.identifier})"
-        cells = [str(v.seq), start, label, f"{v.exposure_s / 60:.0f}m",
-                 f"{v.alt_start_deg:.0f}/{v.alt_mid_deg:.0f}/{v.alt_end_deg:.0f}°",
-                 f"{v.az_mid_deg:.0f}°", f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
-                 f"{v.moon_distance_deg:.0f}°", ", ".join(notes)]
-        if codes is not None:
-            cells.append(timeline_text(codes[k], color))
-        t.add_row(*cells)
+        ident = [v.identifier if v.identifier != v.name else ""] if named else []
+        t.add_row(str(v.seq), _hhmm(v.exposure_start, zone), f"{utc:%H:%M}", v.name,
+                  f"{v.exposure_s / 60:.0f}m", f"{v.alt_mid_deg:.0f}°",
+                  f"{v.alt_start_deg:.0f}°/{v.alt_end_deg:.0f}°", f"{v.az_mid_deg:.0f}°",
+                  f"{v.airmass_mid:.2f}", f"{v.hour_angle_mid_h:+.1f}h",
+                  f"{v.moon_distance_deg:.0f}°", ", ".join(notes), *ident)
     return t
 
 
-def not_placed_table(p):
+def not_placed_table(p) -> Sheet:
     res = p.windows
-    t = _table("Not placed, most important first")
-    for col in ("target", "priority", "reason"):
-        t.add_column(col)
+    t = Sheet("Not placed, most important first")
+    t.column("target")
+    t.column("priority", justify="right")
+    t.column("reason", fate="wrap")
     for i, _code, text in p.not_placed:
         t.add_row(str(res.names[i]), str(int(p.priority[i])), text)
     return t
@@ -189,14 +196,23 @@ def next_record(status: str, at: float, p, choice, site, generated_at: float) ->
     }
 
 
-def next_table(status: str, at: float, p, choice, site):
+class _Answer(Sheet):
+    """Lines of 'label  text', fitted like a table but without a header."""
+
+    def lines(self, width: int | None) -> list:
+        got = super().lines(width)
+        rule = next(i for i, line in enumerate(got) if set(line.plain) == {"─"})
+        return got[:rule - 1] + got[rule + 1:]
+
+
+def next_table(status: str, at: float, p, choice, site) -> Sheet:
     """The answer of ``skyplan next`` for a person: a few lines."""
     zone = ZoneInfo(p.windows.night.zone)
-    t = _table(f"Next at {site.name}, {_hhmm(at, zone)} {p.windows.night.zone}, night of "
-               f"{p.windows.night.date.isoformat()}: {_NEXT_HEADLINE[status]}", SAFETY)
-    t.show_header = False
-    t.add_column("", justify="left")
-    t.add_column("", justify="left")
+    t = _Answer(f"Next at {site.name}, {_hhmm(at, zone)} {p.windows.night.zone}, night of "
+                f"{p.windows.night.date.isoformat()}: {_NEXT_HEADLINE[status]}",
+                list(SAFETY_LINES))
+    t.column("")
+    t.column("", fate="wrap")
     if not p.visits:
         t.add_row("next possible", "none tonight")
         return t

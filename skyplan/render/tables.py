@@ -34,13 +34,12 @@ the row's first cell), ``wrap`` (every ``wrap`` column narrows together, widest 
 no less than 12 characters, its cells wrapping at spaces), ``keep`` (nothing); short forms
 come back where there is room; (3) as a last resort the widest columns wrap.  ``--wide``
 skips all of it.  A command offers ``--wide`` with ``wide: bool = options.WideOpt`` and
-passes ``wide=wide`` to :func:`render_text` (the windows and plan views are next: their
-timeline cells can be rich ``Text`` with colours, kept as they are).
+passes ``wide=wide`` to :func:`render_text`.  A cell may be a rich ``Text`` with colours
+(the timeline strips of :mod:`skyplan.render.windowview`), kept as it is.
 """
 
 from __future__ import annotations
 
-import io
 import os
 import re
 import sys
@@ -289,13 +288,9 @@ def render_text(renderable, *, wide: bool = False, width: int | None = None) -> 
     """Text for the terminal or a pipe: colour on a terminal, plain elsewhere.
 
     ``renderable`` is a :class:`Sheet` or :class:`Strip`, or a list of them (laid out one
-    below the other, fitted to ``width``, by default :func:`table_width`); any other rich
-    object is printed as rich lays it out (the windows and plan tables, until they declare
-    their columns here).
+    below the other, fitted to ``width``, by default :func:`table_width`).
     """
     parts = renderable if isinstance(renderable, list) else [renderable]
-    if not all(isinstance(p, (Sheet, Strip)) for p in parts):
-        return _render_rich(renderable)
     from rich.text import Text
 
     if width is None:
@@ -315,20 +310,6 @@ def render_text(renderable, *, wide: bool = False, width: int | None = None) -> 
     return _ESCAPED_TRAIL.sub(r"\1", cap.get())
 
 
-def _render_rich(renderable) -> str:
-    con = _console()
-    if con.is_terminal:
-        with con.capture() as cap:
-            con.print(renderable)
-        return cap.get()
-    from rich.console import Console
-
-    buf = io.StringIO()
-    Console(file=buf, width=200, no_color=True, force_terminal=False, highlight=False,
-            color_system=None).print(renderable)
-    return buf.getvalue()
-
-
 def _console():
     """A rich console on stdout: colour only on a terminal, plain text otherwise."""
     from rich.console import Console
@@ -340,15 +321,6 @@ def _console():
         highlight=False,
         width=None if tty else 160,
     )
-
-
-def _table(title: str | None = None, caption: str | None = None):
-    """A rich table in the project's style (the windows and plan views)."""
-    from rich import box
-    from rich.table import Table
-
-    return Table(title=title, caption=caption, box=box.SIMPLE_HEAD, title_justify="left",
-                 caption_justify="left", header_style="bold")
 
 
 # ---------------------------------------------------------------- plain records

@@ -34,6 +34,9 @@ TEXT, NUMBER, INSTANT, FLAG, WINDOWS, LOST, OPTIONAL_TEXT = (
 ISO_FORMAT = "%Y-%m-%dT%H:%M:%SZ"
 MINUTE_PLACES = 2  # windows' and lost minutes
 _NO_IDENTIFIER = b',"identifier":null'  # the key is left out where no name was resolved
+SCHEMA = "skyplan.windows/1"  # skyplan/data/windows.schema.json, README "Windows as JSON"
+NIGHT_KEYS = ("date", "sun_state", "sunset", "sunrise", "dusk", "dawn", "dark_hours",
+              "local_midnight")
 
 
 @dataclass(frozen=True)
@@ -182,11 +185,28 @@ def ndjson(table: pl.DataFrame) -> bytes:
     return data.replace(_NO_IDENTIFIER, b"") if "identifier" in table.columns else data
 
 
-def json_stream(tables: Iterable[pl.DataFrame]) -> Iterator[bytes | memoryview]:
-    """One JSON array of every record of the frames, in order, as it is produced.
+def document_head(res: WindowResult, site) -> dict:
+    """What the windows document says before its targets: schema, site, night and limits
+    (the same records as the plan document's)."""
+    from skyplan.render.nightview import night_record
+    from skyplan.render.tables import site_record
+
+    n = night_record(res.night, site)
+    return {"schema": SCHEMA, "site": site_record(site, brief=True),
+            "night": {k: n[k] for k in NIGHT_KEYS}, "limits": res.limits.as_record()}
+
+
+def json_stream(tables: Iterable[pl.DataFrame],
+                head: dict | None = None) -> Iterator[bytes | memoryview]:
+    """Every record of the frames, in order, as it is produced: one JSON array, or with
+    ``head`` (:func:`document_head`) the windows document, the records in its ``targets``.
 
     The array's members are the NDJSON lines joined by commas (a JSON text holds no raw
     line break: polars escapes those inside strings)."""
+    if head is not None:
+        from skyplan.render.records import to_json
+
+        yield to_json(head, indent=False)[:-2] + b',"targets":'
     yield b"["
     first = True
     for table in tables:
@@ -197,7 +217,7 @@ def json_stream(tables: Iterable[pl.DataFrame]) -> Iterator[bytes | memoryview]:
             yield b","
         yield memoryview(lines.replace(b"\n", b","))[:-1]
         first = False
-    yield b"]\n"
+    yield b"]\n" if head is None else b"]}\n"
 
 
 def ndjson_stream(tables: Iterable[pl.DataFrame]) -> Iterator[bytes]:
