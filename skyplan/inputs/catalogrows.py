@@ -9,7 +9,6 @@ epoch), the defaults of empty fields, the checks of names and notes, and
 
 from __future__ import annotations
 
-import re
 from collections import Counter
 from collections.abc import Callable, Sequence
 
@@ -19,6 +18,7 @@ from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.text import UNPRINTABLE
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)
@@ -46,7 +46,7 @@ TEXT_FIELDS = ("name", "notes")
 
 # Characters that must not reach a terminal inside a name or note: C0/C1 controls (newline
 # and tab included), line/paragraph separators and bidirectional overrides.
-_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+_UNPRINTABLE = UNPRINTABLE
 
 
 def too_long(size: int) -> str:

@@ -34,7 +34,9 @@ from __future__ import annotations
 
 import difflib
 import json
+import os
 import re
+import stat
 import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -52,6 +54,10 @@ from skyplan.inputs.site import (
     normalise_lon,
     zone_info,
 )
+from skyplan.text import first_unprintable
+
+MAX_SITES_FILE_BYTES = 1 << 20  # a sites file longer than this (1 MiB) is refused unread
+MAX_NESTING = 8  # arrays and tables inside one another: a horizon needs 3, limits 4
 
 SITE_KEYS = (
     "latitude",
@@ -182,14 +188,42 @@ def _key_parts(dotted: str) -> tuple[str, ...]:
     return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
 
 
-def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
-    name = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        return None, [InputError("sites file not found", file=name)]
-    except (OSError, UnicodeDecodeError) as exc:
-        return None, [InputError(f"cannot read sites file: {exc}", file=name)]
+def read_sites_text(path: Path, limit: int = MAX_SITES_FILE_BYTES) -> str:
+    """The text of a sites file, read with its size bounded while reading.
+
+    Only a regular file is read: a FIFO, a device (``/dev/zero``) or a folder is refused
+    without waiting for a writer (the file is opened non-blocking and checked before any
+    read).  At most ``limit`` bytes are taken; a longer file is refused, whatever its size
+    claims to be.  OSError, UnicodeDecodeError or ValueError (not regular, too long) say why.
+    """
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0)
+    fd = os.open(path, flags)
+    with os.fdopen(fd, "rb") as handle:
+        if not stat.S_ISREG(os.fstat(fd).st_mode):
+            raise ValueError("not a regular file")
+        data = handle.read(limit + 1)
+    if len(data) > limit:
+        raise ValueError(f"longer than {limit // 1024} KiB; a sites file is a few lines")
+    return data.decode("utf-8")
+
+
+def _nesting(value: object) -> int:
+    """How deeply arrays and tables nest in a parsed TOML value (without recursion)."""
+    deepest, stack = 0, [(value, 0)]
+    while stack:
+        item, depth = stack.pop()
+        if isinstance(item, dict | list):
+            depth += 1
+            if depth > MAX_NESTING:
+                return depth
+            deepest = max(deepest, depth)
+            stack.extend((child, depth) for child in
+                         (item.values() if isinstance(item, dict) else item))
+    return deepest
+
+
+def _parse_toml(text: str, name: str) -> tuple[dict | None, list[InputError]]:
+    """The TOML document, or the one problem that stops it being read."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -199,6 +233,27 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         return None, [
             InputError(f"TOML syntax: {_TOML_WHERE.sub('', message)}", file=name, line=line)
         ]
+    except RecursionError:
+        data = None
+    except ValueError as exc:  # an integer of more digits than Python converts
+        return None, [InputError(f"TOML value: {str(exc).split(';')[0]}", file=name)]
+    if data is None or _nesting(data) > MAX_NESTING:
+        return None, [InputError(
+            f"arrays or tables nested more than {MAX_NESTING} deep", file=name)]
+    return data, []
+
+
+def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
+    name = str(path)
+    try:
+        text = read_sites_text(path)
+    except FileNotFoundError:
+        return None, [InputError("sites file not found", file=name)]
+    except (OSError, UnicodeDecodeError, ValueError) as exc:
+        return None, [InputError(f"cannot read sites file: {exc}", file=name)]
+    data, problems = _parse_toml(text, name)
+    if data is None:
+        return None, problems
     lines = _Lines(text)
     problems: list[InputError] = []
 
@@ -217,6 +272,11 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
     sites: dict[str, Site] = {}
     folded: dict[str, str] = {}
     for site_name, table in tables.items():
+        unprintable = first_unprintable(site_name)
+        if unprintable:
+            problem(f"a site name must not contain the control character {unprintable}",
+                    "site", site_name)
+            continue
         if not site_name.strip() or "," in site_name:
             problem("a site name must be non-empty and contain no comma", "site", site_name)
             continue
@@ -242,6 +302,10 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
     if default is not None:
         if not isinstance(default, str):
             problem(f"expected a site name, got {shown(default)}", "default")
+            default = None
+        elif first_unprintable(default):
+            problem(f"a site name must not contain the control character "
+                    f"{first_unprintable(default)}", "default")
             default = None
         elif default.strip().casefold() not in folded:
             known = ", ".join(folded.values()) or "none"
@@ -281,6 +345,11 @@ def _site_from_table(
             problem(str(exc), key)
             return None
 
+    for key in ("zone", "horizon_file"):
+        unprintable = first_unprintable(table[key]) if isinstance(table.get(key), str) else None
+        if unprintable:
+            problem(f"must not contain the control character {unprintable}", key)
+            table = {k: v for k, v in table.items() if k != key}
     for key in table:
         if key not in SITE_KEYS:
             close = difflib.get_close_matches(key, SITE_KEYS, n=1)
