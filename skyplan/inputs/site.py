@@ -33,7 +33,8 @@ class Site:
     ``Etc/GMT+N`` zone.  ``limits`` holds the site's defaults for the observer's limits, checked
     values by key (:data:`skyplan.inputs.limits.FILE_KEYS`); ``limit_origins`` says where each
     was written (the sites file's line), for messages.  ``source`` says where the site came
-    from.
+    from.  The name is printed as given, so it may hold no control character
+    (:data:`skyplan.text.UNPRINTABLE`): ValueError.
     """
 
     name: str
