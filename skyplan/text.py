@@ -26,3 +26,18 @@ def first_unprintable(text: str) -> str | None:
     """The first :data:`UNPRINTABLE` character of ``text`` as ``U+XXXX``, or None."""
     match = UNPRINTABLE.search(text)
     return None if match is None else f"U+{ord(match.group()):04X}"
+
+
+EXCERPT_CHARS = 40  # a quote of user text in a message is cut to this many characters
+
+
+def excerpt(text: str, limit: int = EXCERPT_CHARS) -> str:
+    """A short quote of user text for a message: escaped (:func:`escaped`), then cut to
+    ``limit`` characters with ``…`` at the end when longer."""
+    shown = escaped(text)
+    return shown if len(shown) <= limit else shown[: limit - 1] + "…"
+
+
+def quoted(text: str, limit: int = EXCERPT_CHARS) -> str:
+    """:func:`excerpt` between single quotes, as messages quote what was given."""
+    return f"'{excerpt(text, limit)}'"

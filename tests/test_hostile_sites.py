@@ -335,3 +335,24 @@ def test_a_relative_horizon_file_is_read_beside_the_sites_file(tmp_path: Path):
     status, out, err = run(["sites", "check", str(path)], cwd=elsewhere)
     assert_clean(status, out, err, {2})
     assert str(home / "ridge.txt") in err
+
+
+def test_a_long_hostile_key_is_quoted_short(tmp_path: Path):
+    """A 10,000-character key: the message quotes a short escaped excerpt of it."""
+    key = "\u001b[2J" + "k" * 10_000
+    path = tmp_path / "sites.toml"
+    path.write_text(f"[site.ridge]\nlatitude = 31.2\nlongitude = -110.5\n{toml_key(key)} = 1\n",
+                    encoding="utf-8")
+    status, out, err = run(["sites", "check", str(path)])
+    assert_clean(status, out, err, {2})
+    assert "unknown key '\\x1b[2Jkkk" in err and "…" in err
+    assert len(err) < len(str(path)) + 400
+
+
+@pytest.mark.parametrize("command", [["sites", "show", "ridge"], ["sites", "list"],
+                                     ["night", "--site", "ridge", "--date", DATE]])
+def test_a_hostile_sites_file_name_is_shown_escaped(tmp_path: Path, command: list[str]):
+    path = tmp_path / "a\u001b[2J\u202e.toml"
+    path.write_text("[site.ridge]\nlatitude = 31.2\nlongitude = -110.5\n", encoding="utf-8")
+    status, out, err = run([*command, "--sites-file", str(path)])
+    assert_clean(status, out, err, {0})

@@ -54,7 +54,7 @@ from skyplan.inputs.site import (
     normalise_lon,
     zone_info,
 )
-from skyplan.text import first_unprintable
+from skyplan.text import excerpt, first_unprintable, quoted
 
 MAX_SITES_FILE_BYTES = 1 << 20  # a sites file longer than this (1 MiB) is refused unread
 MAX_NESTING = 8  # arrays and tables inside one another: a horizon needs 3, limits 4
@@ -183,6 +183,11 @@ class _Lines:
         return None
 
 
+def _field(key_path: tuple[str, ...]) -> str:
+    """The dotted field of a key for a message, each part a short escaped excerpt."""
+    return ".".join(excerpt(part) for part in key_path)
+
+
 def _key_parts(dotted: str) -> tuple[str, ...]:
     parts = re.findall(_KEY_PART, dotted)
     return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
@@ -258,13 +263,12 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
     problems: list[InputError] = []
 
     def problem(message: str, *key_path: str) -> None:
-        problems.append(
-            InputError(message, file=name, line=lines.of(*key_path), field=".".join(key_path))
-        )
+        problems.append(InputError(message, file=name, line=lines.of(*key_path),
+                                   field=_field(key_path)))
 
     for key in data:
         if key not in ("default", "site"):
-            problem(f"unknown top-level key {key!r}; allowed: default, site", key)
+            problem(f"unknown top-level key {quoted(key)}; allowed: default, site", key)
     tables = data.get("site", {})
     if not isinstance(tables, dict):
         problem("'site' must hold one table per site, e.g. [site.NAME]", "site")
@@ -282,7 +286,7 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
             continue
         if site_name.casefold() in folded:
             problem(
-                f"site name repeats {folded[site_name.casefold()]!r} (names ignore case)",
+                f"site name repeats {quoted(folded[site_name.casefold()])} (names ignore case)",
                 "site",
                 site_name,
             )
@@ -309,7 +313,8 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
             default = None
         elif default.strip().casefold() not in folded:
             known = ", ".join(folded.values()) or "none"
-            problem(f"default site {default!r} is not in the file; sites: {known}", "default")
+            problem(f"default site {quoted(default)} is not in the file; sites: {known}",
+                    "default")
             default = None
         else:
             default = folded[default.strip().casefold()]
@@ -325,9 +330,8 @@ def _site_from_table(
 
     def problem(message: str, *keys: str) -> None:
         key_path = ("site", site_name, *keys)
-        problems.append(
-            InputError(message, file=file, line=lines.of(*key_path), field=".".join(key_path))
-        )
+        problems.append(InputError(message, file=file, line=lines.of(*key_path),
+                                   field=_field(key_path)))
 
     def value(
         key: str,
@@ -354,7 +358,7 @@ def _site_from_table(
         if key not in SITE_KEYS:
             close = difflib.get_close_matches(key, SITE_KEYS, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            problem(f"unknown key {key!r}{hint}; allowed: {', '.join(SITE_KEYS)}", key)
+            problem(f"unknown key {quoted(key)}{hint}; allowed: {', '.join(SITE_KEYS)}", key)
     for key in ("latitude", "longitude"):
         if key not in table:
             problem(f"missing {key}", key)
@@ -410,14 +414,14 @@ def _limits_from_table(
     given: dict[str, limits_mod.Given] = {}
     for key, raw in table.items():
         key_path = ("site", site_name, "limits", key)
-        origin = limits_mod.Origin(field=".".join(key_path), file=file, line=lines.of(*key_path))
+        origin = limits_mod.Origin(field=_field(key_path), file=file, line=lines.of(*key_path))
         if key in limits_mod.FILE_KEYS:
             given[key] = limits_mod.Given(raw, origin)
             continue
         close = difflib.get_close_matches(key, limits_mod.FILE_KEYS, n=1)
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         problems.append(origin.error(
-            f"unknown limit {key!r}{hint}; allowed: {', '.join(limits_mod.FILE_KEYS)}"))
+            f"unknown limit {quoted(key)}{hint}; allowed: {', '.join(limits_mod.FILE_KEYS)}"))
     try:
         checked = limits_mod.check_limits(given)
     except InputErrors as exc:
