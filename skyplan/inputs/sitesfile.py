@@ -190,7 +190,17 @@ def _field(key_path: tuple[str, ...]) -> str:
 
 def _key_parts(dotted: str) -> tuple[str, ...]:
     parts = re.findall(_KEY_PART, dotted)
-    return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
+    return tuple(_unquoted(p) for p in parts)
+
+
+def _unquoted(part: str) -> str:
+    """A key part as TOML reads it: a basic string's escapes (``\\u001b``) decoded."""
+    if part[:1] == '"' and "\\" in part:
+        try:
+            return tomllib.loads(f"k = {part}")["k"]
+        except tomllib.TOMLDecodeError:
+            return part[1:-1]
+    return part[1:-1] if part[:1] in "\"'" else part
 
 
 def read_sites_text(path: Path, limit: int = MAX_SITES_FILE_BYTES) -> str:
