@@ -356,3 +356,15 @@ def test_a_hostile_sites_file_name_is_shown_escaped(tmp_path: Path, command: lis
     path.write_text("[site.ridge]\nlatitude = 31.2\nlongitude = -110.5\n", encoding="utf-8")
     status, out, err = run([*command, "--sites-file", str(path)])
     assert_clean(status, out, err, {0})
+
+
+def test_the_shared_sanitiser_covers_every_raw_character():
+    """Every character the tests call raw is escaped by skyplan.text, and nothing else."""
+    from skyplan import text
+
+    raw = [chr(c) for c in range(0x30000) if RAW.match(chr(c)) or chr(c) == "\n"]
+    assert all(text.first_unprintable(c) for c in raw)
+    shown = text.escaped("".join(raw))
+    assert not RAW.search(shown) and "\n" not in shown
+    assert text.escaped("Ünïcødé ☾ 𝔸bbey مرصد") == "Ünïcødé ☾ 𝔸bbey مرصد"
+    assert text.quoted("\u001b" + "k" * 100) == "'\\x1b" + "k" * 35 + "…'"
