@@ -368,3 +368,15 @@ def test_the_shared_sanitiser_covers_every_raw_character():
     assert not RAW.search(shown) and "\n" not in shown
     assert text.escaped("Ünïcødé ☾ 𝔸bbey مرصد") == "Ünïcødé ☾ 𝔸bbey مرصد"
     assert text.quoted("\u001b" + "k" * 100) == "'\\x1b" + "k" * 35 + "…'"
+
+
+@pytest.mark.parametrize("lists,nested", [(5, False), (6, True)])
+def test_the_nesting_bound_is_eight_counting_the_file(tmp_path: Path, lists: int, nested: bool):
+    """The file (1), [site] (2), [site.ridge] (3), then the lists of a key."""
+    path = tmp_path / "sites.toml"
+    path.write_text("[site.ridge]\nlatitude = 31.2\nlongitude = -110.5\nbogus = "
+                    + "[" * lists + "1" + "]" * lists + "\n", encoding="utf-8")
+    status, out, err = run(["sites", "check", str(path)])
+    assert_clean(status, out, err, {2})
+    assert ("nested more than 8 deep" in err) is nested
+    assert ("unknown key 'bogus'" in err) is not nested

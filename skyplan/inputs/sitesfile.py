@@ -57,7 +57,8 @@ from skyplan.inputs.site import (
 from skyplan.text import excerpt, first_unprintable, quoted
 
 MAX_SITES_FILE_BYTES = 1 << 20  # a sites file longer than this (1 MiB) is refused unread
-MAX_NESTING = 8  # arrays and tables inside one another: a horizon needs 3, limits 4
+MAX_NESTING = 8  # tables and arrays inside one another, the document counting 1: the
+# pairs of a horizon and the ranges of the limits are 5 deep
 
 SITE_KEYS = (
     "latitude",
@@ -266,9 +267,9 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         return None, [InputError("sites file not found", file=name)]
     except (OSError, UnicodeDecodeError, ValueError) as exc:
         return None, [InputError(f"cannot read sites file: {exc}", file=name)]
-    data, problems = _parse_toml(text, name)
+    data, unreadable = _parse_toml(text, name)
     if data is None:
-        return None, problems
+        return None, unreadable
     lines = _Lines(text)
     problems: list[InputError] = []
 
