@@ -8,6 +8,8 @@ status 2; nothing else ever prints a traceback.
 
 from __future__ import annotations
 
+from skyplan.text import escaped
+
 EXIT_OK = 0
 EXIT_FAILURE = 1  # a fault inside skyplan (a bug) or a damaged installation (DataError)
 EXIT_BAD_INPUT = 2  # bad input: file, option, site, catalogue row
@@ -62,13 +64,16 @@ class InputError(SkyplanError):
         super().__init__(self._compose())
 
     def _compose(self) -> str:
+        """The message after where it is; the file name and the field (a key from the
+        file, which may be anything) are shown with control characters escaped."""
         where = []
         if self.file is not None:
-            where.append(str(self.file) if self.line is None else f"{self.file}:{self.line}")
+            file = escaped(str(self.file))
+            where.append(file if self.line is None else f"{file}:{self.line}")
         elif self.line is not None:
             where.append(f"line {self.line}")
         if self.field is not None:
-            where.append(f"field '{self.field}'")
+            where.append(f"field '{escaped(str(self.field))}'")
         prefix = ", ".join(where)
         return f"{prefix}: {self.message}" if prefix else self.message
 

@@ -13,10 +13,12 @@ from __future__ import annotations
 
 import contextlib
 import io
+import json
 import os
 import re
 import subprocess
 import sys
+import time
 import warnings
 from pathlib import Path
 
@@ -419,3 +421,159 @@ def test_whole_process_with_every_warning_shown(folder: Path, argv: list[str]) -
                           capture_output=True, timeout=120, check=False)
     assert done.returncode == 0 and done.stdout
     assert done.stderr.decode() == ""
+
+
+# ---------------------------------------------------------------------------------------
+# Generated sites files and plan files: valid structure with hostile values, broken text,
+# deep nesting, huge numbers, odd unicode.  Every run ends 0 or 2 (3 for a night with
+# nothing to show is not possible: night always shows the night), quickly, and nothing raw
+# that could drive a terminal reaches stdout or stderr.
+
+# Written out here, not imported: C0 (newline excepted) and C1 controls, DEL, line and
+# paragraph separators, bidirectional embeddings, overrides and isolates.
+RAW = re.compile("[\x00-\x09\x0b-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+ODD_TEXT = st.one_of(
+    HOSTILE,
+    st.sampled_from(["S\x1b[2J\x1b]0;x\x07", "\u202eevil", "a\u2028b", "x\x85y", "\x9b31m",
+                     "tab\there", "bi\u2066di", "Europe/London", "UTC", "Etc/GMT+2",
+                     "ridge.txt", "../sites.toml", "/dev/zero", "civil", "nautical"]),
+    st.text(max_size=12),
+)
+
+
+def toml_text(text: str, raw: bool) -> str:
+    """A TOML basic string: escaped (always valid) or with the characters written raw
+    (tomllib refuses some of them: a syntax error, which is bad input too)."""
+    return json.dumps(text, ensure_ascii=not raw)
+
+
+def toml_values() -> st.SearchStrategy[str]:
+    scalar = st.one_of(
+        st.integers(-10**6, 10**6).map(str),
+        st.sampled_from(["9" * 400, "-" + "9" * 5000, "1e999", "-1e999", "inf", "nan",
+                         "1e-400", "0x7fffffff", "true", "1979-05-27T07:32:00Z", "[]", "{}"]),
+        st.floats(allow_nan=False, allow_infinity=False).map(repr),
+        st.tuples(ODD_TEXT, st.booleans()).map(lambda t: toml_text(*t)),
+    )
+    nested = st.tuples(st.integers(1, 3000), st.sampled_from(["[", "{a = "])).map(
+        lambda t: t[1] * t[0] + "1" + ("]" if t[1] == "[" else "}") * t[0])
+    pairs = st.lists(st.tuples(st.floats(-400, 400), st.floats(-100, 100)), max_size=5).map(
+        lambda ps: "[" + ", ".join(f"[{a!r}, {b!r}]" for a, b in ps) + "]")
+    return st.one_of(scalar, nested, pairs)
+
+
+SITE_FIELDS = ["latitude", "longitude", "elevation", "zone", "pressure", "temperature",
+               "humidity", "horizon", "horizon_file"]
+LIMIT_FIELDS = ["min_alt_deg", "max_airmass", "dark", "moon_gap_deg", "sun_gap_deg",
+                "ha_range_h", "dec_range_deg"]
+
+
+@st.composite
+def sites_documents(draw) -> bytes:
+    """A sites file: sites with hostile names and values, then perhaps cut or spliced; one
+    in four is a plain valid file (printable unicode names, a default, real zones)."""
+    if draw(st.integers(0, 3)) == 0:
+        name = draw(st.sampled_from(["ridge", "Hill 2", "Ünïcødé ☾", "𝔸bbey", "مرصد"]))
+        zone = draw(st.sampled_from(["", 'zone = "America/Phoenix"', 'zone = "Etc/GMT+2"']))
+        return (f"default = {toml_text(name, True)}\n[site.{toml_text(name, True)}]\n"
+                f"latitude = {draw(st.floats(-90, 90))!r}\n"
+                f"longitude = {draw(st.floats(-180, 180))!r}\n{zone}\n").encode()
+    raw = draw(st.booleans())
+    names = draw(st.lists(st.one_of(ODD_TEXT, st.just("ridge")), min_size=0, max_size=3))
+    lines = []
+    if draw(st.booleans()):
+        lines.append(f"default = {draw(toml_values())}")
+    for name in names:
+        key = toml_text(name, raw)
+        lines += [f"[site.{key}]", f"latitude = {draw(st.floats(-90, 90))!r}",
+                  f"longitude = {draw(st.floats(-180, 180))!r}"]
+        for field in draw(st.lists(st.sampled_from(SITE_FIELDS + ["bogus"]), max_size=4,
+                                   unique=True)):
+            lines.append(f"{field} = {draw(toml_values())}")
+        limits = draw(st.lists(st.sampled_from(LIMIT_FIELDS), max_size=3, unique=True))
+        if limits:
+            lines.append(f"[site.{key}.limits]")
+            lines += [f"{field} = {draw(toml_values())}" for field in limits]
+    text = ("\n".join(lines) + "\n").encode("utf-8", "surrogatepass")
+    cut = draw(st.one_of(st.none(), st.integers(0, len(text))))
+    if cut is not None:
+        text = text[:cut] + draw(st.binary(max_size=6)) + text[cut + 3:]
+    return text
+
+
+def check_clean(argv: list[str], wanted: set[int]) -> tuple[int, bytes, str]:
+    """:func:`check_outcome`, then: a status in ``wanted``, nothing raw printed, quickly."""
+    start = time.perf_counter()
+    status, out, err = check_outcome(argv)
+    elapsed = time.perf_counter() - start
+    shown = f"skyplan {argv!r} -> {status}\n{err}"
+    assert status in wanted, shown
+    assert not RAW.search(out.decode("utf-8", "replace")), f"{shown}\nstdout: {out!r}"
+    assert not RAW.search(err), f"{shown}\nstderr: {err!r}"
+    assert elapsed < 30.0, f"{shown}\ntook {elapsed:.1f} s"
+    return status, out, err
+
+
+@settings(FAST, max_examples=25 * SCALE, deadline=None)
+@given(data=sites_documents())
+def test_generated_sites_file_check(folder: Path, data: bytes) -> None:
+    path = folder / "generated-sites.toml"
+    path.write_bytes(data)
+    (folder / "ridge.txt").write_text("0 10\n180 20\n", encoding="utf-8")
+    status, out, err = check_clean(["sites", "check", str(path)], {0, 2})
+    if status == 2:
+        assert str(path) in err, err
+
+
+@settings(FAST, max_examples=8 * SCALE, deadline=None)
+@given(data=sites_documents())
+def test_generated_sites_file_night(folder: Path, data: bytes) -> None:
+    path = folder / "generated-night-sites.toml"
+    path.write_bytes(data)
+    check_clean(["night", "--sites-file", str(path), "--date", "2026-12-18"],
+                {0, 2})
+
+
+def json_values(depth: int = 2) -> st.SearchStrategy[object]:
+    scalar = st.one_of(st.none(), st.booleans(), st.integers(-10**30, 10**30),
+                       st.floats(allow_nan=False, allow_infinity=False), ODD_TEXT)
+    return st.recursive(scalar, lambda inner: st.one_of(
+        st.lists(inner, max_size=3), st.dictionaries(ODD_TEXT, inner, max_size=3)),
+        max_leaves=8)
+
+
+@st.composite
+def plan_documents(draw) -> bytes:
+    """A plan file: the shape ``plan --format json`` writes, with hostile values, perhaps
+    cut or spliced."""
+    name = draw(ODD_TEXT)
+    start = draw(st.sampled_from(["2026-12-18T21:00:00-07:00", "2026-12-18T21:00:00Z",
+                                  "not a time", "2026-02-30T00:00:00Z"]))
+    observation = {"name": name, "start": start, "end": "2026-12-18T21:30:00-07:00",
+                   "ra_deg": draw(st.one_of(st.floats(-10, 370), json_values())),
+                   "dec_deg": draw(st.one_of(st.floats(-100, 100), json_values()))}
+    site = draw(st.one_of(
+        st.fixed_dictionaries({"name": ODD_TEXT, "lat_deg": st.floats(-100, 100),
+                               "lon_deg": st.floats(-200, 400),
+                               "zone": st.one_of(st.sampled_from(["America/Phoenix", "UTC",
+                                                                  ""]), ODD_TEXT)}),
+        json_values()))
+    doc = {"site": site, "night": {"date": draw(st.sampled_from(["2026-12-18", "x"]))},
+           "observations": draw(st.lists(st.one_of(st.just(observation), json_values()),
+                                         max_size=3)),
+           "limits": draw(json_values())}
+    text = json.dumps(doc, ensure_ascii=draw(st.booleans()), allow_nan=True).encode(
+        "utf-8", "surrogatepass")
+    cut = draw(st.one_of(st.none(), st.integers(0, len(text))))
+    if cut is not None:
+        text = text[:cut] + draw(st.binary(max_size=6)) + text[cut + 3:]
+    return text
+
+
+@settings(FAST, max_examples=10 * SCALE, deadline=None)
+@given(data=plan_documents())
+def test_generated_plan_file_chart(folder: Path, data: bytes) -> None:
+    path = folder / "generated-plan.json"
+    path.write_bytes(data)
+    check_clean(["chart", "altitude", "--plan", str(path), "--sites-file", DEMO_SITES,
+                 "--out", str(folder / "generated-chart.svg")], {0, 2})

@@ -14,7 +14,6 @@ The API delivers notices as ``SkyplanWarning``; they are printed as plain notes.
 from __future__ import annotations
 
 import os
-import re
 import signal
 import sys
 import threading
@@ -23,6 +22,7 @@ import warnings
 import typer
 
 from skyplan import __version__
+from skyplan.text import escaped
 
 HELP = (
     "Plan a night at the telescope, offline: frames, rise/transit/set, observable windows "
@@ -46,9 +46,6 @@ COMMANDS = (
 )
 
 MAX_LINE_CHARS = 600  # a message longer than this is cut (it would not be read anyway)
-# Characters that could move the cursor or change the terminal: C0/C1 controls, line and
-# paragraph separators, bidirectional overrides.  Shown as escapes instead.
-_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
 
 
 class Terminated(BaseException):
@@ -124,7 +121,7 @@ def plain_line(text: str) -> str:
     text = str(text)
     indent = " " * min(len(text) - len(text.lstrip(" ")), 4)
     folded = indent + " ".join(text.split())
-    shown = _UNPRINTABLE.sub(lambda m: repr(m.group())[1:-1], folded)
+    shown = escaped(folded)
     if len(shown) > MAX_LINE_CHARS:
         shown = shown[: MAX_LINE_CHARS - 1] + "…"
     return shown

@@ -55,12 +55,14 @@ def sites_show(
 def sites_check(file: Path = typer.Argument(..., help="Sites file to check.")) -> None:
     """Check a sites file and report every problem with its line."""
     from skyplan.api import sites
+    from skyplan.cli.app import plain_line
+    from skyplan.text import escaped
 
     problems = sites.check_sites(file)
     if len(problems) == 1:
         raise problems[0]
     if problems:
         for problem in problems:
-            typer.echo(f"skyplan: {problem.one_line()}", err=True)
+            typer.echo(f"skyplan: {plain_line(problem.one_line())}", err=True)
         raise InputError(f"{len(problems)} problems, each on a line above", file=str(file))
-    typer.echo(f"{file}: ok ({len(sites.sites(file).sites)} site(s))")
+    typer.echo(f"{escaped(str(file))}: ok ({len(sites.sites(file).sites)} site(s))")

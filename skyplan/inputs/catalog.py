@@ -73,6 +73,7 @@ from skyplan.inputs import delimited, readfile
 from skyplan.inputs.catalogrows import TEXT_FIELDS, build_catalog, map_headers, too_long
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
 from skyplan.inputs.tablefiles import ASTROPY_FORMATS, read_table
+from skyplan.text import quoted
 
 __all__ = ["INPUT_FORMATS", "Catalog", "CatalogRead", "read_catalog"]
 
@@ -114,7 +115,7 @@ def _format_of(path: str, source: str, input_format: str | None) -> str | tuple 
     if input_format is not None:
         name = input_format.strip().lower()
         if name not in INPUT_FORMATS:
-            raise InputError(f"unknown input format {readfile.excerpt(input_format)}; use one "
+            raise InputError(f"unknown input format {quoted(input_format, 20)}; use one "
                              f"of {', '.join(INPUT_FORMATS)}", field="--input-format")
         return INPUT_FORMATS[name]
     if path == readfile.STDIN:

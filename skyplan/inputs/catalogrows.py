@@ -20,7 +20,7 @@ from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
-from skyplan.inputs.readfile import excerpt
+from skyplan.text import UNPRINTABLE, quoted
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
 SPEED_OF_LIGHT_KMS = 299_792.458  # |radial velocity| must be below this (SI definition)
@@ -50,7 +50,7 @@ TEXT_FIELDS = ("name", "notes")
 
 # Characters that must not reach a terminal inside a name or note: C0/C1 controls (newline
 # and tab included), line/paragraph separators and bidirectional overrides.
-_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+_UNPRINTABLE = UNPRINTABLE
 
 
 def too_long(size: int) -> str:
@@ -84,7 +84,7 @@ def map_headers(
                          "dec", file=source, line=line)
     missing = [key for key in _REQUIRED if key not in positions]
     if missing:
-        have = ", ".join(excerpt(n.strip()) for n in names[:12]) or "nothing"
+        have = ", ".join(quoted(n.strip(), 20) for n in names[:12]) or "nothing"
         have += ", ..." if len(names) > 12 else ""
         raise InputErrors(
             [

@@ -74,7 +74,11 @@ def number(value: object) -> float:
     """A finite TOML number (not a boolean)."""
     if isinstance(value, bool) or not isinstance(value, int | float):
         raise TypeError(f"expected a number, got {shown(value)}")
-    result = float(value)
+    try:
+        result = float(value)
+    except OverflowError:
+        raise ValueError(f"expected a finite number, got an integer of {len(str(value))} "
+                         "digits") from None
     if not math.isfinite(result):
         raise ValueError(f"expected a finite number, got {value}")
     return result

@@ -20,6 +20,7 @@ import numpy as np
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import readfile
 from skyplan.inputs.fieldvalues import decimal, in_range, number, shown
+from skyplan.text import quoted
 
 MAX_HORIZON_BYTES = 4 << 20  # a profile at every 0.01 degree is about 500 kB
 
@@ -97,7 +98,7 @@ def _field(text: str, what: str) -> float:
     try:
         value = decimal(text)
     except ValueError:
-        raise ValueError(f"{what} {readfile.excerpt(text, 16)} is not a decimal number") from None
+        raise ValueError(f"{what} {quoted(text, 12)} is not a decimal number") from None
     if what == "azimuth":
         return in_range(value, 0.0, 360.0, what)
     return in_range(value, -90.0, 90.0, what)

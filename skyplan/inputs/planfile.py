@@ -18,6 +18,7 @@ from pathlib import Path
 
 from skyplan.errors import InputError
 from skyplan.inputs import readfile
+from skyplan.text import first_unprintable
 
 MAX_PLAN_BYTES = 64 << 20  # a night's plan is a few hundred kilobytes
 
@@ -58,6 +59,8 @@ def read_plan_file(path: str | Path) -> PlanFile:
         raise InputError("not UTF-8 text; a plan is JSON", file=plan_path) from None
     except json.JSONDecodeError as exc:
         raise InputError(f"not JSON: {exc.msg}", file=plan_path, line=exc.lineno) from None
+    except RecursionError:
+        raise InputError("arrays or objects nested too deep for a plan", file=plan_path) from None
     if not isinstance(doc, dict):
         raise InputError("a plan is a JSON object with site, night and observations",
                          file=plan_path)
@@ -144,6 +147,10 @@ def _observation(rec, i, plan_path, zone):
         raise InputError(str(exc), file=plan_path, field=where) from None
     except InputError as exc:
         raise InputError(exc.message, file=plan_path, field=exc.field) from None
+    bad = first_unprintable(name)
+    if bad is not None:
+        raise InputError(f"the name holds the control character {bad}", file=plan_path,
+                         field=f"{where}.name")
     if not name or not (0.0 <= ra <= 360.0 and -90.0 <= dec <= 90.0):
         raise InputError("needs a name, ra_apparent_deg in 0..360 and dec_apparent_deg in -90..90",
                          file=plan_path, field=where)

@@ -28,6 +28,7 @@ from pathlib import Path
 
 from skyplan.errors import InputError
 from skyplan.inputs import readfile
+from skyplan.text import quoted
 
 MAX_DONE_BYTES = 16 * 1024 * 1024  # a night's log is a few hundred lines
 _CLOCK = re.compile(r"^([01]?\d|2[0-3]):([0-5]\d)$")
@@ -187,7 +188,7 @@ class _Reader:
         except InputError as exc:
             raise self.fail(exc.message, line, field) from None
         if not self.span[0] <= unix <= self.span[1]:
-            raise self.fail(f"{readfile.excerpt(value, 40)} is not in the night of "
+            raise self.fail(f"{quoted(value, 40)} is not in the night of "
                             f"{self.date} (noon to noon, local time); is this another "
                             "night's log?", line, field)
         return unix

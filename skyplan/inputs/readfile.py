@@ -96,12 +96,3 @@ def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
                          f"{_size_text(limit)} is read", file=source)
     return data
 
-
-def excerpt(text: str, limit: int = 20) -> str:
-    """``text`` as an error message may quote it: printable ASCII only (anything else as
-    ``?``), at most ``limit`` characters (cut with ``...``), in quotes."""
-    cut = text[: limit + 1]
-    clean = "".join(c if " " <= c <= "~" else "?" for c in cut)
-    if len(cut) > limit:
-        clean = clean[: max(limit - 3, 1)] + "..."
-    return repr(clean)

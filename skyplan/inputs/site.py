@@ -17,6 +17,7 @@ from skyplan import notices
 from skyplan.inputs.atmosphere import isa_pressure_hpa, isa_temperature_c
 from skyplan.inputs.horizon import HorizonProfile
 from skyplan.inputs.limits import Origin
+from skyplan.text import first_unprintable
 
 ELEVATION_RANGE_M = (-500.0, 9000.0)
 PRESSURE_RANGE_HPA = (100.0, 1100.0)
@@ -32,7 +33,8 @@ class Site:
     ``Etc/GMT+N`` zone.  ``limits`` holds the site's defaults for the observer's limits, checked
     values by key (:data:`skyplan.inputs.limits.FILE_KEYS`); ``limit_origins`` says where each
     was written (the sites file's line), for messages.  ``source`` says where the site came
-    from.
+    from.  The name is printed as given, so it may hold no control character
+    (:data:`skyplan.text.UNPRINTABLE`): ValueError.
     """
 
     name: str
@@ -50,6 +52,9 @@ class Site:
         default_factory=dict, hash=False, compare=False, repr=False)
 
     def __post_init__(self) -> None:
+        unprintable = first_unprintable(str(self.name))
+        if unprintable:
+            raise ValueError(f"site name contains the control character {unprintable}")
         lat, lon, elev = float(self.lat_deg), float(self.lon_deg), float(self.elevation_m)
         if not (math.isfinite(lat) and abs(lat) <= 90.0):
             raise ValueError(f"site latitude {lat} outside -90..90")

@@ -107,13 +107,13 @@ def resolve_site(spec: str | None, sites_file: str | None) -> Site:
         return checked(parse_site_spec(spec))
     path = Path(sites_file).expanduser() if sites_file else default_sites_path()
     if spec is None or not spec.strip():
-        if not path.is_file():
+        if not path.exists():
             raise InputError(NO_SITE_MESSAGE, field="site")
         parsed = load_sites_file(path)
         if parsed.default is None:
             raise InputError(f"{NO_SITE_MESSAGE} (sites file {path} has no default)", field="site")
         return checked(_pick(parsed.default, parsed))
-    if not path.is_file():
+    if not path.exists():
         raise InputError(
             f"site {spec.strip()!r} not found: no sites file at {path}; name one with "
             "--sites-file PATH or the SKYPLAN_SITES environment variable, "

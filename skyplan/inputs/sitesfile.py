@@ -42,6 +42,7 @@ from pathlib import Path
 
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import limits as limits_mod
+from skyplan.inputs import readfile
 from skyplan.inputs.fieldvalues import compass_angle, in_range, number, shown
 from skyplan.inputs.horizon import horizon_from_table
 from skyplan.inputs.site import (
@@ -52,6 +53,11 @@ from skyplan.inputs.site import (
     normalise_lon,
     zone_info,
 )
+from skyplan.text import excerpt, first_unprintable, quoted
+
+MAX_SITES_FILE_BYTES = 1 << 20  # a sites file longer than this (1 MiB) is refused unread
+MAX_NESTING = 8  # tables and arrays inside one another, the document counting 1: the
+# pairs of a horizon and the ranges of the limits are 5 deep
 
 SITE_KEYS = (
     "latitude",
@@ -177,19 +183,43 @@ class _Lines:
         return None
 
 
+def _field(key_path: tuple[str, ...]) -> str:
+    """The dotted field of a key for a message, each part a short escaped excerpt."""
+    return ".".join(excerpt(part) for part in key_path)
+
+
 def _key_parts(dotted: str) -> tuple[str, ...]:
     parts = re.findall(_KEY_PART, dotted)
-    return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
+    return tuple(_unquoted(p) for p in parts)
 
 
-def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
-    name = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        return None, [InputError("sites file not found", file=name)]
-    except (OSError, UnicodeDecodeError) as exc:
-        return None, [InputError(f"cannot read sites file: {exc}", file=name)]
+def _unquoted(part: str) -> str:
+    """A key part as TOML reads it: a basic string's escapes (``\\u001b``) decoded."""
+    if part[:1] == '"' and "\\" in part:
+        try:
+            return tomllib.loads(f"k = {part}")["k"]
+        except tomllib.TOMLDecodeError:
+            return part[1:-1]
+    return part[1:-1] if part[:1] in "\"'" else part
+
+
+def _nesting(value: object) -> int:
+    """How deeply arrays and tables nest in a parsed TOML value (without recursion)."""
+    deepest, stack = 0, [(value, 0)]
+    while stack:
+        item, depth = stack.pop()
+        if isinstance(item, dict | list):
+            depth += 1
+            if depth > MAX_NESTING:
+                return depth
+            deepest = max(deepest, depth)
+            stack.extend((child, depth) for child in
+                         (item.values() if isinstance(item, dict) else item))
+    return deepest
+
+
+def _parse_toml(text: str, name: str) -> tuple[dict | None, list[InputError]]:
+    """The TOML document, or the one problem that stops it being read."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -199,17 +229,37 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         return None, [
             InputError(f"TOML syntax: {_TOML_WHERE.sub('', message)}", file=name, line=line)
         ]
+    except RecursionError:
+        data = None
+    except ValueError as exc:  # an integer of more digits than Python converts
+        return None, [InputError(f"TOML value: {str(exc).split(';')[0]}", file=name)]
+    if data is None or _nesting(data) > MAX_NESTING:
+        return None, [InputError(
+            f"arrays or tables nested more than {MAX_NESTING} deep", file=name)]
+    return data, []
+
+
+def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
+    name = str(path)
+    try:
+        text = readfile.read_input(path, MAX_SITES_FILE_BYTES, what="sites file").decode("utf-8")
+    except InputError as exc:
+        return None, [exc]
+    except UnicodeDecodeError as exc:
+        return None, [InputError(f"cannot read sites file: {exc}", file=name)]
+    data, unreadable = _parse_toml(text, name)
+    if data is None:
+        return None, unreadable
     lines = _Lines(text)
     problems: list[InputError] = []
 
     def problem(message: str, *key_path: str) -> None:
-        problems.append(
-            InputError(message, file=name, line=lines.of(*key_path), field=".".join(key_path))
-        )
+        problems.append(InputError(message, file=name, line=lines.of(*key_path),
+                                   field=_field(key_path)))
 
     for key in data:
         if key not in ("default", "site"):
-            problem(f"unknown top-level key {key!r}; allowed: default, site", key)
+            problem(f"unknown top-level key {quoted(key)}; allowed: default, site", key)
     tables = data.get("site", {})
     if not isinstance(tables, dict):
         problem("'site' must hold one table per site, e.g. [site.NAME]", "site")
@@ -217,12 +267,17 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
     sites: dict[str, Site] = {}
     folded: dict[str, str] = {}
     for site_name, table in tables.items():
+        unprintable = first_unprintable(site_name)
+        if unprintable:
+            problem(f"a site name must not contain the control character {unprintable}",
+                    "site", site_name)
+            continue
         if not site_name.strip() or "," in site_name:
             problem("a site name must be non-empty and contain no comma", "site", site_name)
             continue
         if site_name.casefold() in folded:
             problem(
-                f"site name repeats {folded[site_name.casefold()]!r} (names ignore case)",
+                f"site name repeats {quoted(folded[site_name.casefold()])} (names ignore case)",
                 "site",
                 site_name,
             )
@@ -243,9 +298,14 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         if not isinstance(default, str):
             problem(f"expected a site name, got {shown(default)}", "default")
             default = None
+        elif first_unprintable(default):
+            problem(f"a site name must not contain the control character "
+                    f"{first_unprintable(default)}", "default")
+            default = None
         elif default.strip().casefold() not in folded:
             known = ", ".join(folded.values()) or "none"
-            problem(f"default site {default!r} is not in the file; sites: {known}", "default")
+            problem(f"default site {quoted(default)} is not in the file; sites: {known}",
+                    "default")
             default = None
         else:
             default = folded[default.strip().casefold()]
@@ -261,9 +321,8 @@ def _site_from_table(
 
     def problem(message: str, *keys: str) -> None:
         key_path = ("site", site_name, *keys)
-        problems.append(
-            InputError(message, file=file, line=lines.of(*key_path), field=".".join(key_path))
-        )
+        problems.append(InputError(message, file=file, line=lines.of(*key_path),
+                                   field=_field(key_path)))
 
     def value(
         key: str,
@@ -281,11 +340,16 @@ def _site_from_table(
             problem(str(exc), key)
             return None
 
+    for key in ("zone", "horizon_file"):
+        unprintable = first_unprintable(table[key]) if isinstance(table.get(key), str) else None
+        if unprintable:
+            problem(f"must not contain the control character {unprintable}", key)
+            table = {k: v for k, v in table.items() if k != key}
     for key in table:
         if key not in SITE_KEYS:
             close = difflib.get_close_matches(key, SITE_KEYS, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            problem(f"unknown key {key!r}{hint}; allowed: {', '.join(SITE_KEYS)}", key)
+            problem(f"unknown key {quoted(key)}{hint}; allowed: {', '.join(SITE_KEYS)}", key)
     for key in ("latitude", "longitude"):
         if key not in table:
             problem(f"missing {key}", key)
@@ -341,14 +405,14 @@ def _limits_from_table(
     given: dict[str, limits_mod.Given] = {}
     for key, raw in table.items():
         key_path = ("site", site_name, "limits", key)
-        origin = limits_mod.Origin(field=".".join(key_path), file=file, line=lines.of(*key_path))
+        origin = limits_mod.Origin(field=_field(key_path), file=file, line=lines.of(*key_path))
         if key in limits_mod.FILE_KEYS:
             given[key] = limits_mod.Given(raw, origin)
             continue
         close = difflib.get_close_matches(key, limits_mod.FILE_KEYS, n=1)
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         problems.append(origin.error(
-            f"unknown limit {key!r}{hint}; allowed: {', '.join(limits_mod.FILE_KEYS)}"))
+            f"unknown limit {quoted(key)}{hint}; allowed: {', '.join(limits_mod.FILE_KEYS)}"))
     try:
         checked = limits_mod.check_limits(given)
     except InputErrors as exc:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from skyplan.inputs.angles import format_dms, format_hms
 from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import Sheet
+from skyplan.text import escaped
 
 
 def found_record(f) -> dict:
@@ -27,13 +28,14 @@ def found_record(f) -> dict:
 def found_table(found, unknown=()) -> Sheet:
     """One row per name: the resolved ones with identifier, type, position, motion,
     magnitude and source; the ``unknown`` ones (pairs of name and problem) marked, with the
-    closest known names below the table."""
+    closest known names below the table.  The names are as typed, so shown escaped
+    (:func:`skyplan.text.escaped`)."""
     footer = ["fixed targets: ICRS at epoch J2000.0; Sun, Moon, planets and orbits: "
               "geocentric astrometric place at the given time"]
     if unknown:
         footer.insert(0, f"{len(found)} of {len(found) + len(unknown)} names resolved; "
                          "not found:")
-        footer[1:1] = [f"  {name}: {problem}" for name, problem in unknown]
+        footer[1:1] = [f"  {escaped(name)}: {escaped(problem)}" for name, problem in unknown]
     t = Sheet("Names resolved offline", footer=footer)
     t.column("name", fate="wrap")
     t.column("identifier", rank=3, fate="wrap")
@@ -52,9 +54,9 @@ def found_table(found, unknown=()) -> Sheet:
                       f"plx {r.parallax_mas:.2f} mas")
         mag = "" if r.magnitude is None or r.magnitude != r.magnitude else f"{r.magnitude:.2f}"
         ident = r.identifier
-        t.add_row(r.query, (ident, ident.split(" = ")[0]), r.object_type,
+        t.add_row(escaped(r.query), (ident, ident.split(" = ")[0]), r.object_type,
                   format_hms(f.ra_deg, 2), format_dms(f.dec_deg, 1), motion, mag,
                   (r.source, r.source.split(" (")[0]))
     for name, _problem in unknown:
-        t.add_row(name, "not found (below)", "", "", "", "", "", "")
+        t.add_row(escaped(name), "not found (below)", "", "", "", "", "", "")
     return t

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from skyplan.inputs.angles import format_dms
 from skyplan.render.tables import Sheet
+from skyplan.text import escaped
 
 
 def site_table(site) -> Sheet:
@@ -26,13 +27,13 @@ def site_table(site) -> Sheet:
     for key, value in site.limits.items():
         t.add_row(f"limit {key}", str(value))
     if site.source:
-        t.add_row("source", site.source)
+        t.add_row("source", escaped(site.source))  # a file name as typed
     return t
 
 
 def sites_table(parsed) -> Sheet:
     """The sites of a file, one row each; the default one marked."""
-    t = Sheet(f"Sites in {parsed.path}")
+    t = Sheet(f"Sites in {escaped(str(parsed.path))}")
     t.column("name", fate="wrap")
     t.column("latitude", justify="right")
     t.column("longitude", justify="right")
