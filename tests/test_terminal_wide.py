@@ -125,7 +125,7 @@ def test_large_windows_document_is_streamed_whole(capsys, monkeypatch) -> None:
     """Above the indented size the document is written block by block: the same document."""
     import jsonschema
 
-    from skyplan.cli import sky
+    from skyplan.cli import windows as sky
 
     code, out, _ = run(capsys, "windows", "--demo", *NIGHT, "-f", "json")
     small = json.loads(out)

@@ -34,7 +34,7 @@ HELP = (
 # in ``skyplan --help`` (typer lists the groups after the commands).
 COMMANDS = (
     ("night", "skyplan.cli.night"),
-    ("windows", "skyplan.cli.sky"),
+    ("windows", "skyplan.cli.windows"),
     ("plan", "skyplan.cli.plan"),
     ("next", "skyplan.cli.nextvisit"),
     ("chart", "skyplan.cli.charts"),

@@ -8,7 +8,7 @@ from pathlib import Path
 import typer
 
 from skyplan.cli import options as common
-from skyplan.cli import sky as sky_cmds
+from skyplan.cli import skyoptions as sky_cmds
 from skyplan.errors import InputError, OutputError
 
 CHART_SUFFIXES = (".svg", ".png")

@@ -6,7 +6,7 @@ import typer
 
 from skyplan.cli import options as common
 from skyplan.cli import plan as planopts
-from skyplan.cli import sky
+from skyplan.cli import skyoptions as sky
 
 AT_HELP = ("The moment asked about: 'now' (default), HH:MM on the night's local clock (after "
            "noon the evening, before noon the next morning) or ISO 8601 with Z or an offset.")

@@ -5,7 +5,7 @@ from __future__ import annotations
 import typer
 
 from skyplan.cli import options
-from skyplan.cli.sky import DATE_HELP
+from skyplan.cli.skyoptions import DATE_HELP
 
 
 def register(app: typer.Typer) -> None:

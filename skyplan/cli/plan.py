@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import typer
 
 from skyplan.cli import options as common
-from skyplan.cli import sky
+from skyplan.cli import skyoptions as sky
 
 START_HELP = ("Plan only the rest of the night from this time: 'now', HH:MM on the night's "
               "local clock (after noon the evening, before noon the next morning) or ISO 8601 "

@@ -5,45 +5,24 @@ from __future__ import annotations
 import typer
 
 from skyplan.cli import options as common
-from skyplan.inputs.limits import SPECS
-
-DATE_HELP = ("Local date whose evening starts the night (YYYY-MM-DD, 'today', 'tonight', "
-             "'tomorrow'); default: the current night.")
-INPUT_FORMAT_HELP = ("Read the catalogue as csv (separator ',' ';' or tab, told by the header), "
-                     "tsv, ecsv, votable or fits whatever its extension; needed with '-' "
-                     "(standard input).")
-
-
-def _limit_option(key: str):
-    """The option of one limit, its name and help from the limits' spec table."""
-    spec = SPECS[key]
-    return typer.Option(False if spec.kind == "flag" else None, spec.option,
-                        help=spec.option_help())
-
-
-MinAlt = _limit_option("min_alt_deg")
-MaxAirmass = _limit_option("max_airmass")
-Dark = _limit_option("dark")
-MoonGap = _limit_option("moon_gap_deg")
-SunGap = _limit_option("sun_gap_deg")
-HaRange = _limit_option("ha_range_h")
-DecRange = _limit_option("dec_range_deg")
-Between = _limit_option("between")
-NoProfile = _limit_option("horizon_profile")
-AirmassModel = _limit_option("airmass_model")
-Refraction = _limit_option("refraction_model")
-
+from skyplan.cli.skyoptions import (
+    DATE_HELP,
+    INPUT_FORMAT_HELP,
+    AirmassModel,
+    Between,
+    Dark,
+    DecRange,
+    HaRange,
+    MaxAirmass,
+    MinAlt,
+    MoonGap,
+    NoProfile,
+    Refraction,
+    SunGap,
+    limit_args,
+)
 
 SMALL_JSON = 2000  # targets: JSON up to this size is indented, for people as well as programs
-
-
-def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
-               no_horizon_profile, airmass_model, refraction) -> dict:
-    """The limit options of a command as keyword arguments of ``limits.build_limits``."""
-    return dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
-                sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
-                no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                refraction=refraction)
 
 
 def window_data(run, fmt: str):
