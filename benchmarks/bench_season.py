@@ -24,6 +24,9 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("parquet", nargs="?", default=None)
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--dask", action="store_true",
+                        help="run the blocks on a distributed.LocalCluster of --workers "
+                        "processes (one thread each) instead of a process pool")
     args = parser.parse_args(argv)
 
     import datetime as dt
@@ -43,10 +46,17 @@ def main(argv: list[str] | None = None) -> None:
     lim = skyplan.limits(site)
     start = dt.date(2027, 1, 1)
     end = start + dt.timedelta(days=args.nights - 1)
+    client = None
+    if args.dask:
+        import distributed
+
+        cluster = distributed.LocalCluster(n_workers=args.workers, threads_per_worker=1,
+                                           dashboard_address=None)
+        client = distributed.Client(cluster)
     times = []
     for _ in range(args.repeat):
         t0 = time.perf_counter()
-        result = season(targets, site, start, end, lim, workers=args.workers)
+        result = season(targets, site, start, end, lim, workers=args.workers, client=client)
         if args.parquet:
             data = seasoncolumns.parquet(result, per_night=False)
             with open(args.parquet, "wb") as f:
@@ -55,8 +65,12 @@ def main(argv: list[str] | None = None) -> None:
     best = min(times)
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     kids = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
-    print(f"{n} targets x {args.nights} nights, {args.workers} workers: best {best:.2f} s "
-          f"of {len(times)} ({', '.join(f'{t:.2f}' for t in times)}); "
+    if client is not None:
+        client.close()
+        cluster.close()
+    print(f"{n} targets x {args.nights} nights, {args.workers} "
+          f"{'Dask workers' if args.dask else 'workers'}: best {best:.2f} s of"
+          f" {len(times)} ({', '.join(f'{t:.2f}' for t in times)}); "
           f"{best / (n * args.nights) * 1e6:.2f} µs per target-night; "
           f"peak RSS main {own:.0f} MiB, largest worker {kids:.0f} MiB", file=sys.stdout)
 
