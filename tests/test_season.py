@@ -197,6 +197,20 @@ def test_dask_cluster_run_equals_the_local_run(demo) -> None:
     assert a == b
 
 
+def test_blocks_of_targets_and_nights_join_up(demo, monkeypatch) -> None:
+    """Small blocks (16 targets × 2 nights) give what one block gives."""
+    from skyplan.engine import season as season_engine
+
+    site, targets, lim = demo
+    whole = season(targets, site, "2027-04-01", "2027-04-05", lim, workers=1)
+    monkeypatch.setattr(season_engine, "TARGET_BLOCK", 16)
+    monkeypatch.setattr(season_engine, "NIGHT_BLOCK", 2)
+    assert len(season_engine.blocks(len(targets), 5)) == 9
+    parts = season(targets, site, "2027-04-01", "2027-04-05", lim, workers=1)
+    np.testing.assert_allclose(parts.usable_min, whole.usable_min, atol=1 / 60)
+    assert np.isfinite(parts.airmass_mid).sum() == np.isfinite(whole.airmass_mid).sum()
+
+
 def test_process_pool_equals_one_process(demo) -> None:
     site, targets, lim = demo
     one = season(targets, site, "2027-04-01", "2027-04-20", lim, workers=1)

@@ -109,9 +109,12 @@ def dates_between(first: dt.date, last: dt.date) -> list[dt.date]:
     return [first + dt.timedelta(days=k) for k in range((last - first).days + 1)]
 
 
-def blocks(n_targets: int, n_nights: int, *, target_block: int = TARGET_BLOCK,
-           night_block: int = NIGHT_BLOCK) -> list[tuple[int, int, int, int]]:
-    """The (a, b, i, j) blocks of a run: targets a..b on nights i..j, targets fastest."""
+def blocks(n_targets: int, n_nights: int, *, target_block: int | None = None,
+           night_block: int | None = None) -> list[tuple[int, int, int, int]]:
+    """The (a, b, i, j) blocks of a run: targets a..b on nights i..j, targets fastest
+    (default sizes :data:`TARGET_BLOCK` and :data:`NIGHT_BLOCK`)."""
+    target_block = target_block or TARGET_BLOCK
+    night_block = night_block or NIGHT_BLOCK
     out = []
     for i in range(0, n_nights, night_block):
         for a in range(0, max(n_targets, 1), target_block):
@@ -223,10 +226,13 @@ def middle_times(windows, n: int) -> np.ndarray:
 def season_block(targets: TargetSet, site, limits, dates: list[dt.date], a: int, b: int,
                  i: int, j: int, orbits=()) -> SeasonBlock:
     """Usable minutes, air mass at the middle of the usable time and the Moon's
-    illumination for targets ``a..b`` on nights ``i..j`` of ``dates``."""
+    illumination for targets ``a..b`` of the run (``targets``: those targets alone) on
+    nights ``i..j`` of ``dates``."""
     from skyplan.engine.windows import compute_windows
 
-    sub = targets.rows(a, b)
+    sub = targets
+    if len(sub) != b - a:
+        raise ValueError(f"{len(sub)} targets for the block {a}..{b}")
     nights = season_nights(site, dates[i:j])
     n = b - a
     usable = np.zeros((n, j - i), np.float32)
