@@ -211,6 +211,16 @@ def test_blocks_of_targets_and_nights_join_up(demo, monkeypatch) -> None:
     assert np.isfinite(parts.airmass_mid).sum() == np.isfinite(whole.airmass_mid).sum()
 
 
+def test_notices_of_worker_processes_reach_the_caller(monkeypatch) -> None:
+    """Nights beyond the bundled IERS table: the note comes back from the workers."""
+    from skyplan.engine import season as season_engine
+
+    monkeypatch.setattr(season_engine, "NIGHT_BLOCK", 1)
+    site = skyplan.site(demo=True)
+    with pytest.warns(skyplan.SkyplanWarning, match="IERS"):
+        season(fixed(["A"], [10.0], [20.0]), site, "2028-01-01", "2028-01-02", workers=2)
+
+
 def test_process_pool_equals_one_process(demo) -> None:
     site, targets, lim = demo
     one = season(targets, site, "2027-04-01", "2027-04-20", lim, workers=1)

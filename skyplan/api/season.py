@@ -83,10 +83,17 @@ def cluster_address(cluster: str | None) -> str | None:
 
 
 def _run_block(args):
+    """One block, with the notices it raised (a worker process's notices would be lost)."""
+    from skyplan import notices
     from skyplan.engine.season import season_block
 
     targets, site, limits, dates, a, b, i, j, orbits = args
-    return season_block(targets, site, limits, dates, a, b, i, j, orbits)
+    earlier = notices.take()
+    block = season_block(targets, site, limits, dates, a, b, i, j, orbits)
+    said = notices.take()
+    for line in earlier:
+        notices.add(line)
+    return block, said
 
 
 def run_blocks(targets, site: Site, limits: Limits, dates: list[dt.date], *, orbits=(),
@@ -145,10 +152,17 @@ def _on_dask(jobs: Sequence, address: str | None, client) -> Iterator:
 
 def collect(blocks_iter, n_targets: int, n_nights: int):
     """The (targets, nights) matrices and the per-night Moon illumination from the blocks."""
+    from skyplan import notices
+
     usable = np.zeros((n_targets, n_nights), np.float32)
     x_mid = np.full((n_targets, n_nights), np.nan, np.float32)
     illum = np.zeros(n_nights)
-    for blk in blocks_iter:
+    seen: set[str] = set()
+    for blk, said in blocks_iter:
+        for line in said:
+            if line not in seen:
+                seen.add(line)
+                notices.add(line)
         usable[blk.a:blk.b, blk.i:blk.j] = blk.usable_min
         x_mid[blk.a:blk.b, blk.i:blk.j] = blk.airmass_mid
         illum[blk.i:blk.j] = blk.moon_illumination
