@@ -29,6 +29,8 @@ _HOMES = {
     "Limits": "skyplan.inputs.limits",
     "windows": "skyplan.api.windows",
     "Windows": "skyplan.api.windows",
+    "season": "skyplan.api.season",
+    "Season": "skyplan.api.season",
     "plan": "skyplan.api.plan",
     "plan_settings": "skyplan.api.plan",
     "Plan": "skyplan.api.plan",

@@ -35,6 +35,7 @@ HELP = (
 COMMANDS = (
     ("night", "skyplan.cli.night"),
     ("windows", "skyplan.cli.windows"),
+    ("season", "skyplan.cli.season"),
     ("plan", "skyplan.cli.plan"),
     ("next", "skyplan.cli.nextvisit"),
     ("chart", "skyplan.cli.charts"),
