@@ -89,7 +89,7 @@ def window_inputs(site: Site, limits_kw: dict, *, date: str | None = None,
     orbits = read_orbits(elements)
     path = catalogue_path(catalog, demo)
     cat = read_catalogue(path, skip_bad, input_format)
-    tset, _ = targets.target_set(cat, orbits=orbits, source=cat.source)
+    _, tset = targets.catalog_targets(cat, orbits=orbits, source=cat.source, skip_bad=skip_bad)
     return WindowRun(site, lim, the_night, tset, orbits)
 
 

@@ -64,7 +64,7 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
             to_frame: str = "horizon", site: Site | None = None, at=None,
             equinox: str = "J2000", ecliptic_of_date: bool = False,
             refraction: str = "bennett", skip_bad_rows: bool = False,
-            demo: bool = False) -> Conversion:
+            demo: bool = False, input_format: str | None = None) -> Conversion:
     """Convert positions between frames: icrs, fk5, apparent, horizon, ecliptic, galactic.
 
     ``positions``: a catalogue file, two angles of ``from_frame`` (``["05h35m17s",
@@ -73,7 +73,9 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
     azimuth (from north through east), then altitude.  ``at`` is needed for the apparent and horizon
     frames and the ecliptic of date: an aware datetime, astropy Time, ISO 8601 text (without
     an offset: the site's clock) or 'now'.  ``site`` is needed for the horizon frame.
-    ``refraction``: bennett, erfa or none.
+    ``refraction``: bennett, erfa or none.  ``"-"`` is a catalogue on standard input, read
+    as ``input_format`` (csv, tsv, ecsv, votable, fits; for a file it overrides the
+    extension).  ``skip_bad_rows`` drops malformed rows and names that do not resolve.
     """
     from skyplan.api.times import posix
     from skyplan.engine import convert as conversion
@@ -97,10 +99,11 @@ def convert(positions: list[str] | str | Path, *, from_frame: str = "icrs",
     if isinstance(positions, (str, Path)):
         positions = [str(positions)]
     positions = [str(p) for p in positions]
-    if len(positions) == 1 and not Path(positions[0]).is_file():
+    if len(positions) == 1 and positions[0] != "-" and not Path(positions[0]).is_file():
         positions = list(angles.split_position(positions[0]) or positions)
     found = targets.targets_from_arguments([str(p) for p in positions], from_frame,
-                                           skip_bad=skip_bad_rows, demo=demo)
+                                           skip_bad=skip_bad_rows, demo=demo,
+                                           input_format=input_format)
     request = conversion.ConversionRequest(
         from_frame=from_frame, to_frame=to_frame, unix=unix, site=site,
         equinox_jyear=equinox_jyear(equinox), ecliptic_of_date=ecliptic_of_date,

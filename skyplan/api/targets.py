@@ -73,9 +73,9 @@ def read_targets(path: str | Path | None = None, *, skip_bad_rows: bool = False,
     ``-`` reads standard input and needs it.
 
     Rows with a name only are resolved offline (``elements``: an orbital elements file for
-    comets and asteroids).  With ``skip_bad_rows`` malformed rows are dropped and reported
-    as a :class:`skyplan.SkyplanWarning`; otherwise the first one raises
-    :class:`skyplan.InputError`.  ``demo=True`` (and no path) reads the demo programme.
+    comets and asteroids).  With ``skip_bad_rows`` malformed rows, and rows whose name does
+    not resolve, are dropped and reported as :class:`skyplan.SkyplanWarning`; otherwise they
+    raise :class:`skyplan.InputError`.  ``demo=True`` (and no path) reads the demo programme.
     """
     from skyplan.errors import InputError
     from skyplan.inputs import scenario
@@ -87,9 +87,10 @@ def read_targets(path: str | Path | None = None, *, skip_bad_rows: bool = False,
                              field="CATALOG")
         path = scenario.demo_path(scenario.DEMO_CATALOG)
     orbits = _orbits(elements)
-    cat = target_input.load_catalog(path, skip_bad=skip_bad_rows, input_format=input_format)
-    source = cat.source
-    tset, _ = target_input.target_set(cat, orbits=orbits, source=source)
+    read = target_input.load_catalog(path, skip_bad=skip_bad_rows, input_format=input_format)
+    source = read.source
+    cat, tset = target_input.catalog_targets(read, orbits=orbits, source=source,
+                                             skip_bad=skip_bad_rows)
     return Targets(tset, cat.priority, cat.exposure_s, orbits, source)
 
 

@@ -6,6 +6,7 @@ from __future__ import annotations
 import typer
 
 from skyplan.cli import options
+from skyplan.cli.sky import INPUT_FORMAT_HELP
 
 FRAME_HELP = "icrs, fk5, apparent, horizon, ecliptic or galactic."
 
@@ -17,7 +18,8 @@ def register(app: typer.Typer) -> None:
 def convert(
     position: list[str] = typer.Argument(
         None,
-        help="A catalogue file, or a position (RA DEC; l b; λ β; for --from horizon AZ ALT, "
+        help="A catalogue file ('-': standard input, with --input-format), or a position "
+        "(RA DEC; l b; λ β; for --from horizon AZ ALT, "
         "azimuth from north through east, then altitude; the output lists them in the same "
         "order) as two values or one ('05:35:17.3 -05:23:28', '05:35:17.3,-05:23:28', "
         "5h35m17.3s -5d23m28s), or target names.",
@@ -40,8 +42,10 @@ def convert(
     demo: bool = options.DemoOpt,
     skip_bad: bool = typer.Option(
         False, "--skip-bad-rows",
-        help="Skip malformed catalogue rows (reported) instead of stopping."
+        help="Skip malformed catalogue rows and names that do not resolve (reported) "
+        "instead of stopping."
     ),
+    input_format: str = typer.Option(None, "--input-format", help=INPUT_FORMAT_HELP),
     fmt: str = typer.Option("table", "--format", "-f", help="table, json, ndjson or csv."),
     out: str = options.OutOpt,
     quiet: bool = options.QuietOpt,
@@ -64,7 +68,8 @@ def convert(
         result = positions.convert(position or [], from_frame=src, to_frame=dst,
                                    site=the_site, at=at, equinox=equinox,
                                    ecliptic_of_date=ecliptic_of_date, refraction=model,
-                                   skip_bad_rows=skip_bad, demo=demo)
+                                   skip_bad_rows=skip_bad, demo=demo,
+                                   input_format=input_format)
     rows = result.to_records()
     if fmt == "json":
         options.emit(records.to_json(rows), out)

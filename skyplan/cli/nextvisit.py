@@ -49,6 +49,7 @@ def next_cmd(
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
     skip_bad: bool = planopts.SkipBad,
+    input_format: str = typer.Option(None, "--input-format", help=sky.INPUT_FORMAT_HELP),
     fmt: str = typer.Option("table", "--format", "-f", help="table or json."),
     out: str = common.OutOpt,
     quiet: bool = common.QuietOpt,
@@ -71,7 +72,7 @@ def next_cmd(
     limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
-                           elements, start_option="--at")
+                           elements, start_option="--at", input_format=input_format)
     answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,
                                   at=got.at, done=done, computed=got.computed)
     if fmt == "json":

@@ -34,13 +34,14 @@ def load_catalog(path: str | Path, *, skip_bad: bool = False, input_format: str 
     return read.catalog
 
 
-def positions_from_catalog(cat):
+def positions_from_catalog(cat, *, skip_bad: bool = False):
     """Fixed targets from a catalogue; rows with a name only are looked up first.
 
-    Every name that does not resolve, and every Sun, Moon, planet or orbit (they move, and
-    ``convert`` takes fixed targets), is an error naming its line.
+    Every name that does not resolve (with ``skip_bad``: its row is dropped and noted), and
+    every Sun, Moon, planet or orbit (they move, and ``convert`` takes fixed targets), is an
+    error naming its line.
     """
-    tset, _ = target_set(cat)
+    _, tset = catalog_targets(cat, skip_bad=skip_bad)
     moving = np.flatnonzero(tset.body != "")
     if moving.size:
         problems = [InputError(f"{cat.name[i]!r} moves: convert takes fixed targets; use "
@@ -51,8 +52,9 @@ def positions_from_catalog(cat):
 
 
 def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = False,
-                           demo: bool = False):
-    """The targets of ``convert``'s arguments (positions in the ``frame`` given)."""
+                           demo: bool = False, input_format: str | None = None):
+    """The targets of ``convert``'s arguments (positions in the ``frame`` given); one
+    argument ``-`` is a catalogue on standard input, read as ``input_format``."""
     from skyplan.inputs import angles, scenario
 
     if not args:
@@ -60,11 +62,17 @@ def targets_from_arguments(args: list[str], frame: str, *, skip_bad: bool = Fals
             return positions_from_catalog(load_catalog(scenario.demo_path(scenario.DEMO_CATALOG)))
         raise InputError("give a catalogue file, a position (two angles) or a target name",
                          field="position")
-    if len(args) == 1 and Path(args[0]).is_file():
+    if len(args) == 1 and (args[0] == "-" or Path(args[0]).is_file()):
         if frame != "icrs":
             raise InputError("catalogue files hold ICRS positions; use --from icrs",
                              field="--from")
-        return positions_from_catalog(load_catalog(args[0], skip_bad=skip_bad))
+        return positions_from_catalog(
+            load_catalog(args[0], skip_bad=skip_bad, input_format=input_format),
+            skip_bad=skip_bad)
+    if input_format is not None:
+        raise InputError("reads a catalogue file or '-' (standard input), not positions or "
+                         "names",
+                         field="--input-format")
     if len(args) == 2:
         try:
             if frame in ("icrs", "fk5", "apparent"):
@@ -125,12 +133,26 @@ def target_set(cat, *, orbits=(), source: str | None = None):
     Returns (TargetSet, identifiers) where identifiers holds the catalogue identifier of each
     resolved row ("" for rows given with coordinates).
     """
+    _, tset = catalog_targets(cat, orbits=orbits, source=source)
+    return tset, tset.identifiers
+
+
+SKIPPED_NAMES_SHOWN = 20  # unresolved rows noted one by one; the rest are counted
+
+
+def catalog_targets(cat, *, orbits=(), source: str | None = None, skip_bad: bool = False):
+    """The catalogue's rows kept and their targets: ``(Catalog, TargetSet)``.
+
+    As :func:`target_set`; with ``skip_bad`` the rows whose name does not resolve are dropped
+    instead, each noted with its file, line and the closest known names.
+    """
     n = len(cat)
     ra, dec = cat.ra_deg.copy(), cat.dec_deg.copy()
     pmra, pmdec = cat.pm_ra_masyr.copy(), cat.pm_dec_masyr.copy()
     plx, rv, ep = cat.parallax_mas.copy(), cat.radial_velocity_kms.copy(), cat.epoch_jyear.copy()
     body = np.full(n, "", dtype=object)
     ident = np.full(n, "", dtype=object)
+    keep = np.ones(n, dtype=bool)
     look = np.nonzero(cat.needs_lookup)[0]
     if len(look):
         from skyplan.names import resolve as resolver
@@ -140,7 +162,10 @@ def target_set(cat, *, orbits=(), source: str | None = None):
             problems = [InputError(e.message, file=source or cat.source,
                                    line=int(cat.line[look[i]]), field="name")
                         for i, e in sorted(errs.items())]
-            raise InputErrors(problems) if len(problems) > 1 else problems[0]
+            if not skip_bad:
+                raise InputErrors(problems) if len(problems) > 1 else problems[0]
+            _note_unresolved(problems, source or cat.source, len(errs) == n)
+            keep[look[sorted(errs)]] = False
         fixed = (col.kind == "star") | (col.kind == "deep_sky")
         rows = look[fixed]
         ra[rows], dec[rows] = col.ra_deg[fixed], col.dec_deg[fixed]
@@ -154,4 +179,20 @@ def target_set(cat, *, orbits=(), source: str | None = None):
             [f"orbit:{q}" if k == "orbit" else str(q).strip().lower()
              for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
         ident[look] = col.identifier
-    return TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body, ident), ident
+    if keep.all():
+        return cat, TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body, ident)
+    kept = cat.subset(keep)
+    columns = (ra, dec, pmra, pmdec, plx, rv, ep, body, ident)
+    return kept, TargetSet(kept.name, *(c[keep] for c in columns))
+
+
+def _note_unresolved(problems: list[InputError], source: str, none_left: bool) -> None:
+    """One note per skipped unresolved row (file:line, the name, closest known names)."""
+    for problem in problems[:SKIPPED_NAMES_SHOWN]:
+        notices.add(f"skipped: {problem.one_line()}")
+    if len(problems) > SKIPPED_NAMES_SHOWN:
+        notices.add(f"{source}: skipped {len(problems) - SKIPPED_NAMES_SHOWN} more row(s) "
+                    "whose name does not resolve")
+    if none_left:
+        notices.add(f"{source}: the catalogue holds no targets once the rows whose name does "
+                    "not resolve are skipped")
