@@ -22,8 +22,7 @@ TopCurves = typer.Option(8, "--top", help="Curves for at most N targets: with --
                          "planned targets of highest priority; otherwise the " + _TOP_HELP)
 Elements = typer.Option(None, "--elements", help="Orbital elements file (MPC one-line formats) "
                         "for comets and asteroids named in the catalogue.")
-SkipBad = typer.Option(False, "--skip-bad-rows",
-                       help="Skip malformed catalogue rows (reported) instead of stopping.")
+SkipBad = sky_cmds.SkipBad
 
 
 def register(app: typer.Typer) -> None:

@@ -40,8 +40,7 @@ AllowNearSun = typer.Option(False, "--allow-near-sun", help="Allow targets near 
                             "the plan (only with a proper solar filter).")
 Elements = typer.Option(None, "--elements", help="Orbital elements file (MPC one-line formats) "
                         "for comets and asteroids named in the catalogue.")
-SkipBad = typer.Option(False, "--skip-bad-rows", help="Skip malformed catalogue rows "
-                       "(reported) instead of stopping.")
+SkipBad = sky.SkipBad
 
 
 def register(app: typer.Typer) -> None:

@@ -41,3 +41,7 @@ def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_rang
                 sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
                 no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
                 refraction=refraction)
+
+SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
+                 "reported) instead of stopping.")
+SkipBad = typer.Option(False, "--skip-bad-rows", help=SKIP_BAD_HELP)

@@ -18,6 +18,7 @@ from skyplan.cli.skyoptions import (
     MoonGap,
     NoProfile,
     Refraction,
+    SkipBad,
     SunGap,
     limit_args,
 )
@@ -74,9 +75,7 @@ def windows_cmd(
                                  "formats) for comets and asteroids named in the catalogue."),
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
-    skip_bad: bool = typer.Option(False, "--skip-bad-rows",
-                                  help="Skip malformed catalogue rows (reported) instead of "
-                                  "stopping."),
+    skip_bad: bool = SkipBad,
     fmt: str = typer.Option("table", "--format", "-f",
                             help="table, json, ndjson, csv or parquet (with --out)."),
     out: str = common.OutOpt,
