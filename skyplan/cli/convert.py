@@ -6,7 +6,7 @@ from __future__ import annotations
 import typer
 
 from skyplan.cli import options
-from skyplan.cli.sky import INPUT_FORMAT_HELP
+from skyplan.cli.skyoptions import INPUT_FORMAT_HELP
 
 FRAME_HELP = "icrs, fk5, apparent, horizon, ecliptic or galactic."
 
