@@ -41,7 +41,7 @@ def _kind(mode: int) -> str:
     if stat.S_ISDIR(mode):
         return "a directory"
     if stat.S_ISFIFO(mode):
-        return "a named pipe (give '-' to read standard input)"
+        return "a named pipe"
     if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
         return "a device"
     if stat.S_ISSOCK(mode):
@@ -71,8 +71,10 @@ def open_input(path: str | Path, *, what: str = "file") -> BinaryIO:
     mode = os.fstat(fd).st_mode
     if not stat.S_ISREG(mode):
         os.close(fd)
-        raise InputError(f"cannot read the {what}: it is {_kind(mode)}, not a regular file",
-                         file=source)
+        hint = "; give '-' to read standard input" if (
+            stat.S_ISFIFO(mode) and what == "catalogue") else ""
+        raise InputError(f"cannot read the {what}: it is {_kind(mode)}, not a regular file"
+                         f"{hint}", file=source)
     os.set_blocking(fd, True)
     return os.fdopen(fd, "rb")
 
