@@ -353,3 +353,30 @@ def test_typical_slew_from_a_sample_is_near_the_all_pairs_quantile():
     assert most > 2 * TYPICAL_SLEW_TARGETS
     exact = float(np.quantile(np.concatenate(slews), 0.5))
     assert typical_slew_s(night, 0.5) == pytest.approx(exact, rel=0.01)
+
+
+def test_the_lagrangian_grid_divides_the_bounds_grid():
+    from skyplan.planning.solver import fine_stride
+
+    # smallest divisor of k at least `least` (k itself when none smaller fits)
+    assert [fine_stride(12, m) for m in (0, 1, 2, 5, 7, 12, 40)] == [1, 1, 2, 6, 12, 12, 12]
+    assert fine_stride(26, 2) == 2 and fine_stride(26, 3) == 13 and fine_stride(5, 2) == 5
+
+
+@pytest.mark.parametrize("budget", [1, 40])
+@pytest.mark.parametrize("seed", range(3))
+def test_the_bound_stays_above_every_plan_with_the_lagrangian_grid_capped(
+    monkeypatch, seed, budget
+):
+    # A small variable budget coarsens (or drops) the Lagrangian model: the bound must still be
+    # above the best plan found by enumeration, so the reported gap stays honest.
+    from skyplan.planning import solver
+
+    monkeypatch.setattr(solver, "LAGRANGIAN_VARIABLE_BUDGET", budget)
+    req = tiny_request(40 + seed, n=3, hours=0.5)
+    plan = make_plan(req, PlanOptions(method="optimal", time_limit_s=10.0, airmass_slack=None))
+    best = best_plan_by_enumeration(req)
+    assert plan.metrics.dual_bound >= best - 1e-6
+    if best > 0:
+        value = plan_worth(req, plan.visits)
+        assert plan.metrics.gap >= 1.0 - value / best - 1e-9
