@@ -297,3 +297,86 @@ def test_each_polishing_step_keeps_every_rule_and_never_loses_value(seed):
     assert realise.plan_value(night, filled, weight) >= realise.plan_value(night, start, weight)
     swapped = realise.swap_neighbours(night, start, weight)
     assert realise.plan_value(night, swapped, weight) >= realise.plan_value(night, start, weight)
+
+
+# -- bounded memory on large catalogues ---------------------------------------------------------
+
+
+def test_relaxed_model_in_chunks_equals_the_one_pass_model(monkeypatch):
+    # The lowest-airmass samples are evaluated a chunk of variables at a time; each variable
+    # alone, so any chunk size must give the same model as one pass.
+    req = random_request(31, n=30, hours=6.0)
+    night = PlanNight(req, PlanOptions())
+    weight = merit.priority_weights(night.priority, night.active)
+    whole = timeindexed.relaxed_model(night, night.step_s, weight)
+    monkeypatch.setattr(timeindexed, "LOWEST_CHUNK", 17)
+    chunked = timeindexed.relaxed_model(night, night.step_s, weight)
+    assert whole.size > 17 * 3
+    for name in ("var_target", "var_slot", "var_block", "var_merit", "var_duration"):
+        assert np.array_equal(getattr(whole, name), getattr(chunked, name)), name
+
+
+def test_slot_grid_in_chunks_equals_the_one_pass_grid():
+    from skyplan.planning.build import slot_grid
+
+    class Sky:  # element-wise, like the position pipeline: each (target, time) pair alone
+        def horizon(self, rows, t):
+            return np.sin(0.37 * rows + t / 997.0) * 90.0, (rows * 7.0 + t / 13.0) % 360.0, t
+
+    idx = np.array([3, 0, 8, 5, 11, 2, 9])
+    slots = T0 + 120.0 * np.arange(41)
+    one = slot_grid(Sky(), idx, slots, chunk=10**9)
+    # one pass, computed here from the definition
+    expect_alt = np.sin(0.37 * idx[:, None] + slots[None, :] / 997.0) * 90.0
+    assert np.array_equal(one[0], expect_alt)
+    for chunk in (1, 40, 41, 100, 123):
+        got = slot_grid(Sky(), idx, slots, chunk=chunk)
+        assert np.array_equal(got[0], one[0]) and np.array_equal(got[1], one[1])
+
+
+def test_typical_slew_from_a_sample_is_near_the_all_pairs_quantile():
+    # Above TYPICAL_SLEW_TARGETS targets up at a time, the quantile is taken over the pairs of
+    # a sample; compare with the quantile over every pair, computed here from its definition.
+    from skyplan.planning.model import EPS_S, TYPICAL_SLEW_TARGETS, typical_slew_s
+
+    req = random_request(47, n=3000, hours=4.0)
+    night = PlanNight(req, PlanOptions())
+    times = night.slot_unix[np.linspace(0, night.slot_unix.size - 1, 9).round().astype(int)]
+    slews, most = [], 0
+    for t in times:
+        up = (night.win_start <= t + EPS_S) & (night.win_end >= t - EPS_S)
+        i = np.unique(night.win_target[up])
+        most = max(most, i.size)
+        alt, az = night.pointing_at(i, np.full(i.shape, t))
+        a, b = np.triu_indices(i.size, 1)
+        slews.append(night.slew.slew_s(alt[a], az[a], alt[b], az[b]))
+    assert most > 2 * TYPICAL_SLEW_TARGETS
+    exact = float(np.quantile(np.concatenate(slews), 0.5))
+    assert typical_slew_s(night, 0.5) == pytest.approx(exact, rel=0.01)
+
+
+def test_the_lagrangian_grid_divides_the_bounds_grid():
+    from skyplan.planning.solver import fine_stride
+
+    # smallest divisor of k at least `least` (k itself when none smaller fits)
+    assert [fine_stride(12, m) for m in (0, 1, 2, 5, 7, 12, 40)] == [1, 1, 2, 6, 12, 12, 12]
+    assert fine_stride(26, 2) == 2 and fine_stride(26, 3) == 13 and fine_stride(5, 2) == 5
+
+
+@pytest.mark.parametrize("budget", [1, 40])
+@pytest.mark.parametrize("seed", range(3))
+def test_the_bound_stays_above_every_plan_with_the_lagrangian_grid_capped(
+    monkeypatch, seed, budget
+):
+    # A small variable budget coarsens (or drops) the Lagrangian model: the bound must still be
+    # above the best plan found by enumeration, so the reported gap stays honest.
+    from skyplan.planning import solver
+
+    monkeypatch.setattr(solver, "LAGRANGIAN_VARIABLE_BUDGET", budget)
+    req = tiny_request(40 + seed, n=3, hours=0.5)
+    plan = make_plan(req, PlanOptions(method="optimal", time_limit_s=10.0, airmass_slack=None))
+    best = best_plan_by_enumeration(req)
+    assert plan.metrics.dual_bound >= best - 1e-6
+    if best > 0:
+        value = plan_worth(req, plan.visits)
+        assert plan.metrics.gap >= 1.0 - value / best - 1e-9

@@ -99,6 +99,29 @@ SCHEDULER_TEXT = {
 }
 
 
+GRID_CHUNK = 100_000  # (target, slot) pairs evaluated at once: bounds the temporaries
+
+
+def slot_grid(sky, idx: np.ndarray, slots: np.ndarray,
+              chunk: int = GRID_CHUNK) -> tuple[np.ndarray, np.ndarray]:
+    """Altitude and azimuth (degrees) of targets ``idx`` on ``slots``, [len(idx), len(slots)].
+
+    Evaluated a block of whole targets at a time, so the position pipeline's temporaries
+    (some twenty arrays per pair) stay bounded whatever the catalogue's size; every pair is
+    computed by the same element-wise operations, so the result equals the one-pass one.
+    """
+    s = len(slots)
+    alt = np.empty((len(idx), s))
+    az = np.empty((len(idx), s))
+    per = max(chunk // max(s, 1), 1)
+    for a in range(0, len(idx), per):
+        rows = idx[a:a + per]
+        al, zz, _ = sky.horizon(np.repeat(rows, s), np.tile(slots, len(rows)))
+        alt[a:a + per] = al.reshape(len(rows), s)
+        az[a:a + per] = zz.reshape(len(rows), s)
+    return alt, az
+
+
 def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads: Overheads,
                     options: model.PlanOptions, progress=None,
                     rest: replan.Progress | None = None) -> NightPlan:
@@ -119,12 +142,7 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     best = replan.best_airmass_left(res, wins)
     start, end = float(wins.start[has[wins.rows]].min()), float(wins.end[has[wins.rows]].max())
     slots = events.grid(start, end, SLOT_STEP_S)
-    sky = res.sky
-    rr = np.repeat(idx, len(slots))
-    tt = np.tile(slots, len(idx))
-    alt, az, _ = sky.horizon(rr, tt)
-    alt = alt.reshape(len(idx), len(slots))
-    az = az.reshape(len(idx), len(slots))
+    alt, az = slot_grid(res.sky, idx, slots)
     x = am.airmass(alt, res.limits.airmass_model)
     remap = np.full(n, -1)
     remap[idx] = np.arange(len(idx))

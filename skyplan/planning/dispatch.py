@@ -99,14 +99,14 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     if options.airmass_slack is not None and not 0 <= options.airmass_slack < 100:
         raise InputError("the airmass slack must be a fraction >= 0", field="airmass_slack")
     night = PlanNight(request, options)
-    model = build_slot_model(night, _IP_STEP_S, typical_slew_s(night, _ALLOWANCE_QUANTILE))
+    typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
+    model = build_slot_model(night, _IP_STEP_S, typical)
     greedy = reserve_greedy(model)
     dispatch = _improve(night, _forward(night, model, greedy))
     if options.method == "dispatch":
         return _finish(night, dispatch, "dispatch", None)
     from skyplan.planning import solver
 
-    typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
     outcome = solver.optimise(night, dispatch, options.time_limit_s, _improve, typical)
     if not outcome.solved:
         notices.add("the optimiser found no plan in time; the plan was made by dispatch")

@@ -132,8 +132,23 @@ def relaxed_model(night: PlanNight, step_s: float, weight: np.ndarray) -> TimeMo
     return replace(model, var_duration=shortest[model.var_target])
 
 
+LOWEST_CHUNK = 40_000  # variables whose samples are evaluated at once (bounds the temporaries)
+
+
 def _lowest_between(night: PlanNight, tgt, t_lo, t_hi, longest_s: float) -> np.ndarray:
-    """Lowest airmass of the linear interpolation over [t_lo, t_hi]: ends and inner samples."""
+    """Lowest airmass of the linear interpolation over [t_lo, t_hi]: ends and inner samples.
+
+    Evaluated ``LOWEST_CHUNK`` variables at a time; each variable's value is computed alone,
+    so the chunks change nothing but the size of the temporaries.
+    """
+    out = np.empty(tgt.size)
+    for a in range(0, tgt.size, LOWEST_CHUNK):
+        b = a + LOWEST_CHUNK
+        out[a:b] = _lowest_chunk(night, tgt[a:b], t_lo[a:b], t_hi[a:b], longest_s)
+    return out
+
+
+def _lowest_chunk(night: PlanNight, tgt, t_lo, t_hi, longest_s: float) -> np.ndarray:
     m = int(math.ceil(longest_s / night.step_s)) + 2
     base = np.floor((t_lo - night.t0) / night.step_s)
     times = night.t0 + (base[:, None] + np.arange(m)[None, :]) * night.step_s
