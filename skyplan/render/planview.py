@@ -10,7 +10,7 @@ from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import Sheet, site_record
 from skyplan.render.windowview import hhmm as _hhmm
 
-SCHEMA = "skyplan.plan/2"
+SCHEMA = "skyplan.plan/2.1"
 SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the site's rules come "
                 "first.", "Never point unfiltered optics at or near the Sun.")
 SAFETY = " ".join(SAFETY_LINES)
@@ -30,6 +30,12 @@ def visit_record(v) -> dict:
         "airmass_mid": round(v.airmass_mid, 4), "hour_angle_mid_h": round(v.hour_angle_mid_h, 4),
         "moon_distance_deg": round(v.moon_distance_deg, 2), "priority": v.priority,
         "best_airmass": round(v.best_airmass, 4),
+        "az_start_deg": round(v.az_start_deg, 3), "az_end_deg": round(v.az_end_deg, 3),
+        "parallactic_start_deg": round(v.parallactic_start_deg, 3),
+        "parallactic_mid_deg": round(v.parallactic_mid_deg, 3),
+        "parallactic_end_deg": round(v.parallactic_end_deg, 3),
+        "field_rotation_deg_per_min": round(v.field_rotation_deg_per_min, 4),
+        "sun_distance_deg": round(v.sun_distance_deg, 2),
     }
 
 

@@ -1,0 +1,141 @@
+"""What the mount has to do: parallactic angle, field rotation, the plan's per-visit mount fields.
+
+References, named beside each check: ERFA ``eraHd2pa`` (through pyerfa); an independent
+vector construction of the angle between the directions to the pole and to the zenith at the
+target; the finite-difference time derivative of the parallactic angle along the engine's own
+tracks (the field of an alt-azimuth mount turns with the parallactic angle); the engine's own
+horizon places; astropy's Sun (``get_body``) for the distance from the Sun.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import erfa
+import numpy as np
+import pytest
+
+from skyplan.engine import ephemeris, mount, night, windows
+from skyplan.engine.sky import Sky
+from skyplan.inputs.limits import Limits
+from skyplan.inputs.sites import Site, nautical_zone
+from skyplan.planning import build, model
+
+
+def target_set(ra_deg, dec_deg) -> windows.TargetSet:
+    n = len(ra_deg)
+    z = np.zeros(n)
+    return windows.TargetSet(
+        np.array([f"target {i}" for i in range(n)]), np.asarray(ra_deg, float),
+        np.asarray(dec_deg, float), z, z, z, z, np.full(n, 2000.0),
+        np.array([""] * n, dtype=object))
+
+
+def random_places(rng, n):
+    ha = rng.uniform(-np.pi, np.pi, n)
+    dec = np.arcsin(rng.uniform(-1.0, 1.0, n))
+    lat = np.arcsin(rng.uniform(-1.0, 1.0, n))
+    return ha, dec, lat
+
+
+def test_parallactic_angle_matches_erfa_hd2pa() -> None:
+    """ERFA ``eraHd2pa`` on 10,000 random (H, δ, φ): agreement to 1e-9 degrees."""
+    ha, dec, lat = random_places(np.random.default_rng(14), 10_000)
+    q = mount.parallactic_angle_deg(ha, dec, lat)
+    ref = np.degrees(erfa.hd2pa(ha, dec, lat))
+    assert np.abs((q - ref + 180.0) % 360.0 - 180.0).max() < 1e-9
+
+
+def test_parallactic_angle_matches_the_angle_between_pole_and_zenith() -> None:
+    """Independent construction: in the local (H, δ) frame, the tangent directions at the
+    target toward the celestial pole and toward the zenith; q is the angle from the first to
+    the second, positive when the target is west of the meridian (H > 0)."""
+    ha, dec, lat = random_places(np.random.default_rng(141), 2_000)
+    s = np.stack([np.cos(dec) * np.cos(ha), -np.cos(dec) * np.sin(ha), np.sin(dec)], -1)
+    pole = np.array([0.0, 0.0, 1.0])
+    zen = np.stack([np.cos(lat), np.zeros_like(lat), np.sin(lat)], -1)
+    tp = pole - np.sum(s * pole, -1, keepdims=True) * s
+    tz = zen - np.sum(s * zen, -1, keepdims=True) * s
+    ok = (np.linalg.norm(tp, axis=-1) > 1e-6) & (np.linalg.norm(tz, axis=-1) > 1e-6)
+    angle = np.degrees(np.arccos(np.clip(
+        np.sum(tp * tz, -1) / np.linalg.norm(tp, axis=-1) / np.linalg.norm(tz, axis=-1),
+        -1.0, 1.0)))
+    q = mount.parallactic_angle_deg(ha, dec, lat)
+    assert np.abs(np.abs(q[ok]) - angle[ok]).max() < 1e-6
+    west = ok & (np.abs(np.sin(ha)) > 1e-6) & (angle > 1e-6) & (angle < 180 - 1e-6)
+    assert np.all(np.sign(q[west]) == np.sign(np.sin(ha[west])))
+
+
+def test_field_rotation_is_the_rate_of_the_parallactic_angle_along_engine_tracks() -> None:
+    """Along the engine's own tracks (hour angle and declination from :class:`Sky`), the
+    field rotation rate equals the central difference of the parallactic angle over ±15 s,
+    to 0.1 % (or 1e-4 °/min) wherever the target is more than 2° from the zenith and the nadir."""
+    site = Site("test", 37.2, -3.6, 2800.0, zone=nautical_zone(-3.6))
+    nt = night.compute_night(site, dt.date(2026, 3, 20))
+    rng = np.random.default_rng(5)
+    ra, dec = rng.uniform(0, 360, 60), np.degrees(np.arcsin(rng.uniform(-0.6, 1.0, 60)))
+    sky = Sky(target_set(ra, dec), site, nt, Limits(refraction_model="none"))
+    rows = np.repeat(np.arange(60), 40)
+    t = np.tile(np.linspace(nt.span_start + 60, nt.span_end - 60, 40), 60)
+    lat = np.radians(site.lat_deg)
+
+    def q(at):
+        _, _, ha = sky.horizon(rows, at)
+        return mount.parallactic_angle_deg(ha, sky.radec(rows, at)[1], lat)
+
+    alt, _, ha = sky.horizon(rows, t)
+    rate = mount.field_rotation_deg_per_min(ha, sky.radec(rows, t)[1], lat)
+    fd = ((q(t + 15.0) - q(t - 15.0) + 180.0) % 360.0 - 180.0) / 0.5
+    ok = np.abs(alt) < 88.0  # away from the zenith and the nadir, where ω diverges
+    assert np.all(np.abs(fd[ok] - rate[ok]) < np.maximum(1e-3 * np.abs(rate[ok]), 1e-4))
+
+
+@pytest.fixture(scope="module")
+def small_plan():
+    ephemeris.configure_astropy_offline()
+    site = Site("test", -30.2, -70.7, 2200.0, zone=nautical_zone(-70.7))
+    nt = night.compute_night(site, dt.date(2026, 6, 15))
+    rng = np.random.default_rng(7)
+    n = 25
+    ra, dec = rng.uniform(0, 360, n), rng.uniform(-80, 20, n)
+    res = windows.compute_windows(target_set(ra, dec), site, nt, Limits())
+    plan = build.make_night_plan(res, np.zeros(n, int), np.full(n, np.nan), build.Overheads(),
+                                 model.PlanOptions())
+    assert len(plan.visits) > 3
+    return site, res, plan, ra, dec
+
+
+def test_visit_azimuths_and_parallactic_angles_follow_the_engine(small_plan) -> None:
+    """Each visit's start/end azimuths are the engine's horizon places at the exposure's
+    start and end; its parallactic angles those of ERFA ``eraHd2pa`` at the engine's hour
+    angle and declination at start, middle and end."""
+    site, res, plan, _, _ = small_plan
+    lat = np.radians(site.lat_deg)
+    for v in plan.visits:
+        mid = 0.5 * (v.exposure_start + v.end)
+        for t, az, q in ((v.exposure_start, v.az_start_deg, v.parallactic_start_deg),
+                         (mid, v.az_mid_deg, v.parallactic_mid_deg),
+                         (v.end, v.az_end_deg, v.parallactic_end_deg)):
+            _, az_ref, ha = res.sky.horizon(np.array([v.target]), np.array([t]))
+            dec = res.sky.radec(np.array([v.target]), np.array([t]))[1]
+            assert abs(az - az_ref[0]) < 1e-9
+            assert abs(q - np.degrees(erfa.hd2pa(ha[0], dec[0], lat))) < 1e-9
+        assert np.isfinite(v.field_rotation_deg_per_min)
+
+
+def test_visit_sun_distance_matches_astropy(small_plan) -> None:
+    """Distance from the Sun at mid-exposure against astropy: the catalogue place taken to
+    GCRS at that instant, separated from astropy's geocentric apparent Sun (``get_body``).
+    Within 0.01° (the engine's Sun is topocentric: its parallax is below 9″)."""
+    import astropy.units as u
+    from astropy.coordinates import GCRS, SkyCoord, get_body
+    from astropy.time import Time
+
+    _, res, plan, ra, dec = small_plan
+    for v in plan.visits:
+        when = Time(0.5 * (v.exposure_start + v.end), format="unix")
+        star = SkyCoord(ra=ra[v.target] * u.deg, dec=dec[v.target] * u.deg).transform_to(
+            GCRS(obstime=when))
+        sep = star.separation(get_body("sun", when)).deg
+        assert abs(v.sun_distance_deg - sep) < 0.01
+
