@@ -15,6 +15,7 @@ import erfa
 import numpy as np
 import pytest
 
+from skyplan.cli.app import main
 from skyplan.engine import ephemeris, mount, night, windows
 from skyplan.engine.sky import Sky
 from skyplan.inputs.limits import Limits
@@ -139,3 +140,51 @@ def test_visit_sun_distance_matches_astropy(small_plan) -> None:
         sep = star.separation(get_body("sun", when)).deg
         assert abs(v.sun_distance_deg - sep) < 0.01
 
+
+# ------------------------------------------------------------------ the maximum altitude
+
+
+def test_max_alt_splits_a_near_zenith_pass_and_charges_the_time_above() -> None:
+    """A star passing 1° north of the zenith (δ = φ + 1°) at about local midnight, with
+    ``max_alt_deg=85``: two windows, one ending before the transit and one starting after;
+    the minutes charged to ``max_alt`` equal the time above 85° on a 1-minute grid of
+    astropy's ICRS → AltAz (pressure 0, as the engine with refraction off), within 1 minute."""
+    import astropy.units as u
+    from astropy.coordinates import AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    lat, lon = 37.2, -3.6
+    site = Site("test", lat, lon, 2800.0, zone=nautical_zone(lon))
+    nt = night.compute_night(site, dt.date(2026, 3, 20))
+    ra, dec = np.array([177.0, 80.0]), np.array([lat + 1.0, 10.0])
+    res = windows.compute_windows(target_set(ra, dec), site, nt,
+                                  Limits(max_alt_deg=85.0, refraction_model="none"))
+    mine = res.windows.rows == 0
+    starts, ends = res.windows.start[mine], res.windows.end[mine]
+    assert len(starts) == 2
+    transit = float(res.transit[0])
+    assert ends[0] < transit < starts[1]
+
+    t = np.arange(res.span[0], res.span[1], 60.0)
+    frame = AltAz(obstime=Time(t, format="unix", scale="utc"),
+                  location=EarthLocation.from_geodetic(lon * u.deg, lat * u.deg, 2800.0 * u.m),
+                  pressure=0 * u.hPa)
+    alt = SkyCoord(ra=ra[0] * u.deg, dec=dec[0] * u.deg).transform_to(frame).alt.deg
+    dark = np.zeros(len(t), bool)
+    for a, b in res.dark:
+        dark |= (t >= a) & (t < b)
+    above_min = float(np.sum(dark & (alt > 85.0)))
+    assert abs(res.lost_s["max_alt"][0] / 60.0 - above_min) <= 1.0
+    assert above_min > 10.0
+    assert abs((starts[1] - ends[0]) / 60.0 - float(np.sum(alt > 85.0))) <= 1.0
+    # the other star never gets above 85°: nothing charged
+    assert res.lost_s["max_alt"][1] == 0.0
+
+
+def test_max_alt_must_be_above_the_minimum_altitude(capsys) -> None:
+    """A maximum altitude at or below the minimum: a one-line error naming the option, exit 2."""
+    with pytest.raises(SystemExit) as exc:
+        main(["windows", "--demo", "--min-alt", "30", "--max-alt", "30"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert "--max-alt" in err and "Traceback" not in err

@@ -54,6 +54,7 @@ def plan_cmd(
     start: str = typer.Option(None, "--start", help=START_HELP),
     done: str = Done,
     min_alt: float = sky.MinAlt,
+    max_alt: float | None = sky.MaxAlt,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
     moon_gap: float = sky.MoonGap,
@@ -99,7 +100,7 @@ def plan_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     chosen = settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
                       airmass_slack, priority_cut, allow_near_sun)
-    limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+    limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     with _progress(quiet) as step:
         step("reading targets and computing windows")

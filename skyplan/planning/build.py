@@ -89,7 +89,8 @@ def _reason(res, i: int) -> tuple[str, str]:
     lost = {k: v[i] for k, v in res.lost_s.items() if k != "dark"}
     key = max(lost, key=lambda k: lost[k]) if lost else "dark"
     text = {
-        "altitude": "below the minimum altitude all night", "airmass": "air mass too high",
+        "altitude": "below the minimum altitude all night",
+        "max_alt": "above the maximum altitude whenever it is up", "airmass": "air mass too high",
         "horizon": "behind the horizon profile", "moon": "lost to the Moon",
         "sun": "too close to the Sun", "hour_angle": "outside the mount's hour-angle range",
         "dec": "outside the mount's declination range", "between": "outside the clock range",
