@@ -188,3 +188,109 @@ def test_max_alt_must_be_above_the_minimum_altitude(capsys) -> None:
     assert exc.value.code == 2
     err = capsys.readouterr().err
     assert "--max-alt" in err and "Traceback" not in err
+
+
+# ------------------------------------------------------------------ the site's mount
+
+MOUNT_SITE = """[site.hill]
+latitude = 37.2
+longitude = -3.6
+elevation = 2800
+zone = "Europe/Madrid"
+
+[site.hill.mount]
+{mount}
+"""
+
+
+def write_site(tmp_path, mount: str, extra: str = ""):
+    path = tmp_path / "sites.toml"
+    path.write_text(MOUNT_SITE.format(mount=mount) + extra)
+    return path
+
+
+@pytest.mark.parametrize(("mount", "key", "line"), [
+    ('kind = "fork"', "kind", 8),
+    ("max_alt_deg = 86", "kind", 7),  # kind missing: the table's line
+    ('kind = "altaz"\nmax_alt_deg = 95', "max_alt_deg", 9),
+    ('kind = "altaz"\nmax_alt = 85', "max_alt", 9),
+])
+def test_a_bad_mount_table_is_reported_with_file_line_and_field(tmp_path, mount, key,
+                                                                 line) -> None:
+    from skyplan.inputs.sitesfile import check_sites_file
+
+    (problem,) = check_sites_file(write_site(tmp_path, mount))
+    assert (problem.field, problem.line) == (f"site.hill.mount.{key}", line)
+    assert problem.file.endswith("sites.toml")
+
+
+def windows_limits(capsys, args) -> dict:
+    import json
+
+    with pytest.raises(SystemExit) as exc:
+        main(["windows", "--demo", "--format", "json", *args])
+    assert exc.value.code == 0
+    return json.loads(capsys.readouterr().out)["limits"]
+
+
+def test_an_altaz_mount_gives_its_max_alt_as_the_default_limit(tmp_path, capsys) -> None:
+    """altaz: the mount's max_alt_deg is the maximum altitude, unless --max-alt, the site's
+    own limit or another --mount kind says otherwise."""
+    path = write_site(tmp_path, 'kind = "altaz"\nmax_alt_deg = 86')
+    base = ["--sites-file", str(path), "--site", "hill"]
+    assert windows_limits(capsys, base)["max_alt_deg"] == 86.0
+    assert windows_limits(capsys, [*base, "--max-alt", "80"])["max_alt_deg"] == 80.0
+    assert windows_limits(capsys, [*base, "--mount", "equatorial"])["max_alt_deg"] is None
+    own = write_site(tmp_path, 'kind = "altaz"\nmax_alt_deg = 86',
+                     "\n[site.hill.limits]\nmax_alt_deg = 84\n")
+    assert windows_limits(capsys, ["--sites-file", str(own), "--site", "hill"])[
+        "max_alt_deg"] == 84.0
+
+
+def test_an_altaz_max_alt_below_the_minimum_is_reported_at_the_mount_line(tmp_path,
+                                                                          capsys) -> None:
+    path = write_site(tmp_path, 'kind = "altaz"\nmax_alt_deg = 15')
+    with pytest.raises(SystemExit) as exc:
+        main(["windows", "--demo", "--sites-file", str(path), "--site", "hill"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert "sites.toml:9" in err and "site.hill.mount.max_alt_deg" in err
+
+
+def test_a_german_mount_names_the_pier_side_from_the_hour_angle(tmp_path, capsys) -> None:
+    """german-equatorial: pier_side is east exactly when the hour angle at the exposure's
+    start is positive (target west of the meridian); the hour angle recomputed from astropy's
+    apparent sidereal time at the site's longitude and the visit's apparent right ascension.
+    Without a German mount there is no pier_side."""
+    import json
+
+    import astropy.units as u
+    from astropy.time import Time
+
+    ephemeris.configure_astropy_offline()
+    path = write_site(tmp_path, 'kind = "german-equatorial"')
+    out = tmp_path / "plan.json"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--format",
+              "json", "--out", str(out), "--quiet"])
+    assert exc.value.code == 0
+    obs = json.loads(out.read_text())["observations"]
+    assert obs
+    t = Time([o["exposure_start"].replace("Z", "") for o in obs], scale="utc")
+    last = t.sidereal_time("apparent", longitude=-3.6 * u.deg).deg
+    ha = (last - np.array([o["ra_apparent_deg"] for o in obs]) + 180.0) % 360.0 - 180.0
+    clear = np.abs(ha) > 0.05  # degrees: away from the meridian itself
+    assert clear.sum() > 3
+    sides = np.array([o["pier_side"] for o in obs])
+    assert np.all((sides[clear] == "east") == (ha[clear] > 0))
+    with pytest.raises(SystemExit):
+        main(["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--mount",
+              "altaz", "--format", "json", "--out", str(out), "--quiet"])
+    assert all("pier_side" not in o for o in json.loads(out.read_text())["observations"])
+
+
+def test_an_unknown_mount_option_is_refused(capsys) -> None:
+    with pytest.raises(SystemExit) as exc:
+        main(["windows", "--demo", "--mount", "fork"])
+    assert exc.value.code == 2
+    assert "--mount" in capsys.readouterr().err

@@ -55,6 +55,7 @@ def plan_cmd(
     done: str = Done,
     min_alt: float = sky.MinAlt,
     max_alt: float | None = sky.MaxAlt,
+    mount: str | None = sky.Mount,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
     moon_gap: float = sky.MoonGap,
@@ -105,7 +106,7 @@ def plan_cmd(
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         got = prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad,
-                      elements, input_format=input_format)
+                      elements, input_format=input_format, mount=mount)
         step("scheduling")
         try:
             made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
@@ -167,7 +168,8 @@ class Prepared:
 
 
 def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, elements,
-            *, start_option: str = "--start", input_format: str | None = None) -> Prepared:
+            *, start_option: str = "--start", input_format: str | None = None,
+            mount: str | None = None) -> Prepared:
     """Site, night (an ISO ``start`` without ``--date`` names it), limits, targets, windows
     and the start as an aware datetime."""
     import datetime as dt
@@ -175,8 +177,9 @@ def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, e
     from skyplan.api import targets, windows
     from skyplan.cli.night import night_of
     from skyplan.inputs import progress
+    from skyplan.inputs.site import with_mount
 
-    the_site = common.get_site(site, sites_file, demo)
+    the_site = with_mount(common.get_site(site, sites_file, demo), mount)
     zone = the_site.tzinfo
     if start is not None and date is None and not progress.is_clock_time(start):
         date = progress.night_date_of(progress.start_instant(start, zone, None,

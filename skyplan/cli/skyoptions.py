@@ -44,6 +44,11 @@ def limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                 no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
                 refraction=refraction)
 
+Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equatorial or "
+                     "altaz (default: the site's [site.NAME.mount] kind). altaz takes the "
+                     "site's mount max_alt_deg as --max-alt; german-equatorial adds pier_side "
+                     "to each visit of a plan.")
+
 SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
                  "reported) instead of stopping.")
 SkipBad = typer.Option(False, "--skip-bad-rows", help=SKIP_BAD_HELP)

@@ -66,6 +66,7 @@ class PlannedVisit:
     parallactic_end_deg: float
     field_rotation_deg_per_min: float  # alt-azimuth mount, at mid-exposure
     sun_distance_deg: float
+    pier_side: str  # of a German equatorial mount: "east" while the target is west of the meridian
 
 
 @dataclass(frozen=True)
@@ -244,6 +245,7 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
             parallactic_start_deg=float(q0[k]), parallactic_mid_deg=float(qm[k]),
             parallactic_end_deg=float(q1[k]), field_rotation_deg_per_min=float(rot[k]),
             sun_distance_deg=float(sun[k]),
+            pier_side="east" if np.sin(ha0[k]) > 0 else "west",
         ))
     return out
 

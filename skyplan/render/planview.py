@@ -16,8 +16,15 @@ SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the sit
 SAFETY = " ".join(SAFETY_LINES)
 
 
-def visit_record(v) -> dict:
+def has_pier_side(site) -> bool:
+    """Whether the plan's visits name the pier side: a German equatorial mount."""
+    return site.mount is not None and site.mount.kind == "german-equatorial"
+
+
+def visit_record(v, pier_side: bool = False) -> dict:
+    """One visit as a plan observation; ``pier_side``: with the German mount's pier side."""
     extra = {"identifier": v.identifier} if v.identifier else {}
+    pier = {"pier_side": v.pier_side} if pier_side else {}
     return {
         "seq": v.seq, "name": v.name, **extra, "repeat": v.repeat,
         "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
@@ -35,7 +42,7 @@ def visit_record(v) -> dict:
         "parallactic_mid_deg": round(v.parallactic_mid_deg, 3),
         "parallactic_end_deg": round(v.parallactic_end_deg, 3),
         "field_rotation_deg_per_min": round(v.field_rotation_deg_per_min, 4),
-        "sun_distance_deg": round(v.sun_distance_deg, 2),
+        "sun_distance_deg": round(v.sun_distance_deg, 2), **pier,
     }
 
 
@@ -61,7 +68,7 @@ def plan_document(p, site, generated_at: float, rest=None) -> dict:
             "slew_az_deg_s": p.overheads.slew_az_deg_s,
             "slew_alt_deg_s": p.overheads.slew_alt_deg_s, "settle_s": p.overheads.settle_s,
         },
-        "observations": [visit_record(v) for v in p.visits],
+        "observations": [visit_record(v, has_pier_side(site)) for v in p.visits],
         "not_placed": [{"name": str(res.names[i]), "reason": code, "explanation": text}
                        for i, code, text in p.not_placed],
         "short_repeats": [{"name": str(res.names[i]), "visits": got, "asked": asked}
@@ -187,7 +194,7 @@ def next_record(status: str, at: float, p, choice, site, generated_at: float) ->
         "status": status,
         "summary": _NEXT_HEADLINE[status],
         "night": p.windows.night.date.isoformat(),
-        "visit": None if first is None else visit_record(first),
+        "visit": None if first is None else visit_record(first, has_pier_side(site)),
         "wait_s": None if first is None else round(max(first.start - at, 0.0), 1),
         "next_possible": None if first is None else iso_utc(first.start),
         "why": [] if first is None else next_reasons(p, choice, zone),
