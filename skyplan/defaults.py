@@ -18,6 +18,7 @@ RISE_SET_ALT_DEG = -34.0 / 60.0
 
 # The observer's limits when neither the command line nor the site sets them.
 MIN_ALT_DEG = 20.0  # minimum altitude: common practice for small telescopes
+MAX_ALT_DEG = None  # no maximum altitude (an alt-azimuth mount may want ~85°: its zenith keyhole)
 MAX_AIRMASS = None  # no air-mass cap
 DARK = "astronomical"  # a name of TWILIGHT_SUN_ALT_DEG, "none", or a Sun altitude
 MOON_GAP_DEG = 0.0  # no distance from the Moon

@@ -69,10 +69,10 @@ def test_every_spec_default_passes_its_own_check() -> None:
 
 def test_options_are_named_from_the_spec_table() -> None:
     assert {spec.arg for spec in SPECS.values()} == {
-        "min_alt", "max_airmass", "dark", "moon_gap", "sun_gap", "ha_range", "dec_range",
-        "between", "no_horizon_profile", "airmass_model", "refraction"}
-    assert limits.FILE_KEYS == ("min_alt_deg", "max_airmass", "dark", "moon_gap_deg",
-                                "sun_gap_deg", "ha_range_h", "dec_range_deg")
+        "min_alt", "max_alt", "max_airmass", "dark", "moon_gap", "sun_gap", "ha_range",
+        "dec_range", "between", "no_horizon_profile", "airmass_model", "refraction"}
+    assert limits.FILE_KEYS == ("min_alt_deg", "max_alt_deg", "max_airmass", "dark",
+                                "moon_gap_deg", "sun_gap_deg", "ha_range_h", "dec_range_deg")
     assert SPECS["min_alt_deg"].option_help() == (
         "Minimum apparent altitude in degrees (at least -5° and below 90°; default: 20).")
 
@@ -110,6 +110,8 @@ def test_the_same_value_from_the_option_names_the_option(capsys) -> None:
 BOUNDS = [
     ("min_alt_deg", "min_alt", -5.0, -5.01),
     ("min_alt_deg", "min_alt", 89.99, 90.0),
+    ("max_alt_deg", "max_alt", 90.0, 90.5),
+    ("max_alt_deg", "max_alt", 45.0, 0.0),
     ("max_airmass", "max_airmass", 40.0, 40.01),
     ("max_airmass", "max_airmass", 1.001, 1.0),
     ("moon_gap_deg", "moon_gap", 0.0, -0.1),

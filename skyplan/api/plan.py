@@ -117,7 +117,8 @@ class Plan:
         """One record per visit, as in the JSON ``observations`` (and NDJSON lines)."""
         from skyplan.render import planview
 
-        return [planview.visit_record(v) for v in self.result.visits]
+        pier = planview.has_pier_side(self.site)
+        return [planview.visit_record(v, pier) for v in self.result.visits]
 
     def to_table(self):
         """An astropy QTable, one row per visit; times as UTC ``Time``, angles in deg."""

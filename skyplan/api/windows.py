@@ -23,9 +23,10 @@ def limits(site: Site | None = None, *, defaults: dict | None = None, **options)
     limit keys, e.g. a plan file's) take the place of the site file's where given.
     """
     from skyplan.inputs.limits import build_limits
+    from skyplan.inputs.site import mount_limits
 
-    merged = {**(site.limits if site is not None else {}), **(defaults or {})}
-    origins = site.limit_origins if site is not None else None
+    own, origins = mount_limits(site) if site is not None else ({}, None)
+    merged = {**own, **(defaults or {})}
     return build_limits(merged, origins=origins, **options)
 
 

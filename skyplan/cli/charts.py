@@ -81,6 +81,7 @@ def sky_chart(
     top: int = TopTracks,
     size: int = typer.Option(1000, "--size", help="Width and height of the chart in pixels."),
     min_alt: float = sky_cmds.MinAlt,
+    max_alt: float | None = sky_cmds.MaxAlt,
     max_airmass: float = sky_cmds.MaxAirmass,
     dark: str = sky_cmds.Dark,
     moon_gap: float = sky_cmds.MoonGap,
@@ -109,7 +110,7 @@ def sky_chart(
         raise InputError(f"{size} px must be from 100 to {MAX_SIZE_PX}", field="--size")
     the_site = common.get_site(site, sites_file, demo)
     lim = windows.limits(the_site, **sky_cmds.limit_args(
-        min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
+        min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
         no_horizon_profile, airmass_model, refraction))
     if at is None and demo:
         at = f"{scenario.DEMO_DATE}T22:00"
@@ -135,6 +136,7 @@ def altitude_chart(
     top: int = TopCurves,
     size: str = typer.Option("1400x800", "--size", help="WIDTHxHEIGHT in pixels."),
     min_alt: float = sky_cmds.MinAlt,
+    max_alt: float | None = sky_cmds.MaxAlt,
     max_airmass: float = sky_cmds.MaxAirmass,
     dark: str = sky_cmds.Dark,
     moon_gap: float = sky_cmds.MoonGap,
@@ -160,9 +162,9 @@ def altitude_chart(
     common.set_quiet(quiet)
     path = _chart_path(out)
     width, height = _size_pair(size)
-    limit_args = sky_cmds.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
-                                     dec_range, between, no_horizon_profile, airmass_model,
-                                     refraction)
+    limit_args = sky_cmds.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap,
+                                     ha_range, dec_range, between, no_horizon_profile,
+                                     airmass_model, refraction)
     if plan is not None:
         if catalog is not None or date is not None or elements:
             raise InputError("--plan brings its own night and targets: give no catalogue, "

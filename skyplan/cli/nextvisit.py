@@ -23,6 +23,7 @@ def next_cmd(
     date: str = planopts.Date,
     done: str = planopts.Done,
     min_alt: float = sky.MinAlt,
+    max_alt: float | None = sky.MaxAlt,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
     moon_gap: float = sky.MoonGap,
@@ -69,7 +70,7 @@ def next_cmd(
     fmt = common.check_format(fmt, ("table", "json"))
     chosen = planopts.settings(exposure, setup, repeats, spacing, slew_rate, settle, method,
                                time_limit, airmass_slack, priority_cut, allow_near_sun)
-    limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+    limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
                            elements, start_option="--at", input_format=input_format)

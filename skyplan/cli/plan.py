@@ -54,6 +54,8 @@ def plan_cmd(
     start: str = typer.Option(None, "--start", help=START_HELP),
     done: str = Done,
     min_alt: float = sky.MinAlt,
+    max_alt: float | None = sky.MaxAlt,
+    mount: str | None = sky.Mount,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
     moon_gap: float = sky.MoonGap,
@@ -99,12 +101,12 @@ def plan_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     chosen = settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
                       airmass_slack, priority_cut, allow_near_sun)
-    limits_kw = sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+    limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         got = prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad,
-                      elements, input_format=input_format)
+                      elements, input_format=input_format, mount=mount)
         step("scheduling")
         try:
             made = planning.plan(got.targets, got.site, got.night, got.limits, chosen,
@@ -166,7 +168,8 @@ class Prepared:
 
 
 def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, elements,
-            *, start_option: str = "--start", input_format: str | None = None) -> Prepared:
+            *, start_option: str = "--start", input_format: str | None = None,
+            mount: str | None = None) -> Prepared:
     """Site, night (an ISO ``start`` without ``--date`` names it), limits, targets, windows
     and the start as an aware datetime."""
     import datetime as dt
@@ -174,8 +177,9 @@ def prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad, e
     from skyplan.api import targets, windows
     from skyplan.cli.night import night_of
     from skyplan.inputs import progress
+    from skyplan.inputs.site import with_mount
 
-    the_site = common.get_site(site, sites_file, demo)
+    the_site = with_mount(common.get_site(site, sites_file, demo), mount)
     zone = the_site.tzinfo
     if start is not None and date is None and not progress.is_clock_time(start):
         date = progress.night_date_of(progress.start_instant(start, zone, None,

@@ -26,6 +26,7 @@ def season_cmd(
     per_night: bool = typer.Option(False, "--per-night", help="Machine formats: every "
                                    "night of every target as well as the summary."),
     min_alt: float = sky.MinAlt,
+    max_alt: float | None = sky.MaxAlt,
     max_airmass: float = sky.MaxAirmass,
     dark: str = sky.Dark,
     moon_gap: float = sky.MoonGap,
@@ -78,7 +79,7 @@ def season_cmd(
     if track and not chart:
         raise InputError("--track draws a chart: name its file with --chart", field="--track")
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits(the_site, **sky.limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap,
+    lim = limits(the_site, **sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap,
                                             ha_range, dec_range, between, no_horizon_profile,
                                             airmass_model, refraction))
     if start is None and demo:

@@ -22,6 +22,7 @@ def limit_option(key: str):
 
 
 MinAlt = limit_option("min_alt_deg")
+MaxAlt = limit_option("max_alt_deg")
 MaxAirmass = limit_option("max_airmass")
 Dark = limit_option("dark")
 MoonGap = limit_option("moon_gap_deg")
@@ -34,13 +35,19 @@ AirmassModel = limit_option("airmass_model")
 Refraction = limit_option("refraction_model")
 
 
-def limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
-               no_horizon_profile, airmass_model, refraction) -> dict:
+def limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
+               between, no_horizon_profile, airmass_model, refraction) -> dict:
     """The limit options of a command as keyword arguments of ``limits.build_limits``."""
-    return dict(min_alt=min_alt, max_airmass=max_airmass, dark=dark, moon_gap=moon_gap,
-                sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range, between=between,
+    return dict(min_alt=min_alt, max_alt=max_alt, max_airmass=max_airmass, dark=dark,
+                moon_gap=moon_gap, sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range,
+                between=between,
                 no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
                 refraction=refraction)
+
+Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equatorial or "
+                     "altaz (default: the site's [site.NAME.mount] kind). altaz takes the "
+                     "site's mount max_alt_deg as --max-alt; german-equatorial adds pier_side "
+                     "to each visit of a plan.")
 
 SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
                  "reported) instead of stopping.")

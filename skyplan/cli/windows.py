@@ -14,8 +14,10 @@ from skyplan.cli.skyoptions import (
     DecRange,
     HaRange,
     MaxAirmass,
+    MaxAlt,
     MinAlt,
     MoonGap,
+    Mount,
     NoProfile,
     Refraction,
     SkipBad,
@@ -61,6 +63,8 @@ def windows_cmd(
     site: str = common.SiteOpt,
     date: str = typer.Option(None, "--date", "-d", help=DATE_HELP),
     min_alt: float = MinAlt,
+    max_alt: float | None = MaxAlt,
+    mount: str | None = Mount,
     max_airmass: float = MaxAirmass,
     dark: str = Dark,
     moon_gap: float = MoonGap,
@@ -91,9 +95,12 @@ def windows_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv", "parquet"))
     if fmt == "parquet" and out is None:
         raise InputError("parquet output is a binary file: name it with --out", field="--format")
-    limits_kw = limit_args(min_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
-                           between, no_horizon_profile, airmass_model, refraction)
-    run = bulk.window_inputs(common.get_site(site, sites_file, demo), limits_kw, date=date,
+    limits_kw = limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
+                           dec_range, between, no_horizon_profile, airmass_model, refraction)
+    from skyplan.inputs.site import with_mount
+
+    the_site = with_mount(common.get_site(site, sites_file, demo), mount)
+    run = bulk.window_inputs(the_site, limits_kw, date=date,
                              catalog=catalog, demo=demo, skip_bad=skip_bad, elements=elements,
                              input_format=input_format)
     if fmt != "table" and not (fmt == "json" and len(run.targets) <= SMALL_JSON):

@@ -1,8 +1,9 @@
 """Each limit's intervals for every target: closed form where the limit allows, else sampled.
 
-* Fixed targets, limits of constant altitude (minimum altitude, maximum air mass) and the
-  hour-angle range: from the transit time and the half arc, cos H₀ = (sin h − sin φ sin δ) /
-  (cos φ cos δ) (Meeus 1998, eq. 15.1); the hour angle runs at the Earth's rotation rate.
+* Fixed targets, limits of constant altitude (minimum and maximum altitude, maximum air mass)
+  and the hour-angle range: from the transit time and the half arc,
+  cos H₀ = (sin h − sin φ sin δ) / (cos φ cos δ) (Meeus 1998, eq. 15.1); the hour angle runs
+  at the Earth's rotation rate.
 * Everything else — bodies, the horizon profile, the distance from the Moon and from the
   Sun — is sampled on the evaluator's grid and its sign changes refined by
   :func:`skyplan.engine.events.find_crossings`.
@@ -73,6 +74,27 @@ def altitude_intervals(sky: Sky, rows: np.ndarray, alt_app_deg: float, span) -> 
     part = ha_intervals(sky, rows[mid], -h0[mid], h0[mid], span)
     whole = Intervals.whole(rows[always], span[0], span[1])
     return part.union_rows(whole)
+
+
+def below_altitude_intervals(sky: Sky, rows: np.ndarray, alt_app_deg: float, span) -> Intervals:
+    """Fixed targets below an apparent altitude (a maximum altitude): closed form.
+
+    Below h while |H| ≥ H₀ of Meeus (1998) eq. 15.1, i.e. from one transit + H₀ to the next
+    transit − H₀.
+    """
+    h0 = sky_half_arc(sky, rows, sky.true_alt(alt_app_deg))
+    always = h0 < 0  # never reaches h
+    never = h0 > np.pi  # never gets below h
+    mid = ~always & ~never
+    part = ha_intervals(sky, rows[mid], h0[mid], 2 * np.pi - h0[mid], span)
+    whole = Intervals.whole(rows[always], span[0], span[1])
+    return part.union_rows(whole)
+
+
+def below_margin(sky: Sky, alt_app_deg: float):
+    def f(rows, t):
+        return alt_app_deg - sky.horizon(rows, t)[0]
+    return f
 
 
 # ------------------------------------------------------------------ sampled pieces

@@ -8,8 +8,8 @@ Method (vectorised over the whole catalogue):
    ≤ 0.34″/day, precession by 0.14″/day), which moves event times by well under 0.1 s.
 2. Horizon coordinates then follow from Earth rotation alone: the hour angle is
    ERA(t) + λ′ − α (ERFA ``eraApco``'s adjusted longitude λ′).  Limits of constant altitude
-   (minimum altitude, maximum air mass) and the hour-angle range are solved in closed form
-   from cos H₀ = (sin h − sin φ sin δ) / (cos φ cos δ) (Meeus 1998, eq. 15.1); polar motion and
+   (minimum and maximum altitude, maximum air mass) and the hour-angle range are solved in closed
+   form from cos H₀ = (sin h − sin φ sin δ) / (cos φ cos δ) (Meeus 1998, eq. 15.1); polar motion and
    diurnal aberration (≤ 0.5″) are left out of this step, an error below 0.1 s.
 3. Limits that are not analytic — the horizon profile, the distance from the Moon and from
    the Sun — are sampled on a 5-minute grid and refined by :mod:`skyplan.engine.events` to 0.5 s.
@@ -40,6 +40,8 @@ from skyplan.engine.intervals import Intervals, intersect
 from skyplan.engine.limitintervals import (
     alt_margin,
     altitude_intervals,
+    below_altitude_intervals,
+    below_margin,
     distance_now,
     gap_intervals,
     ha_intervals,
@@ -130,6 +132,10 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
             sampled(sky, moving_rows, hour_angle_margin(sky, lo, hi), span))
     pieces["altitude"] = altitude_intervals(sky, fixed_rows, limits.min_alt_deg, span).union_rows(
         sampled(sky, moving_rows, alt_margin(sky, limits.min_alt_deg), span))
+    if limits.max_alt_deg is not None:
+        top = limits.max_alt_deg
+        pieces["max_alt"] = below_altitude_intervals(sky, fixed_rows, top, span).union_rows(
+            sampled(sky, moving_rows, below_margin(sky, top), span))
     threshold = limits.min_alt_deg
     if limits.max_airmass is not None:
         x_alt = am.altitude_for_airmass(limits.max_airmass, limits.airmass_model)

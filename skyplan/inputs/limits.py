@@ -24,12 +24,14 @@ from skyplan.inputs.fieldvalues import decimal, number, shown
 TWILIGHTS = defaults.TWILIGHT_SUN_ALT_DEG
 NO_DARK = ("none", "off", "day")  # darkness not required (daytime work)
 # the order in which engine.windows charges each limit with the minutes it removes
-ORDER = ("dark", "between", "dec", "hour_angle", "altitude", "airmass", "horizon", "moon", "sun")
+ORDER = ("dark", "between", "dec", "hour_angle", "altitude", "max_alt", "airmass", "horizon",
+         "moon", "sun")
 
 
 @dataclass(frozen=True)
 class Limits:
     min_alt_deg: float = defaults.MIN_ALT_DEG
+    max_alt_deg: float | None = defaults.MAX_ALT_DEG  # None: no maximum altitude
     max_airmass: float | None = defaults.MAX_AIRMASS
     dark_sun_alt_deg: float | None = TWILIGHTS[defaults.DARK]  # None: no darkness limit
     dark_label: str = defaults.DARK
@@ -44,7 +46,8 @@ class Limits:
 
     def as_record(self) -> dict:
         return {
-            "min_alt_deg": self.min_alt_deg, "max_airmass": self.max_airmass,
+            "min_alt_deg": self.min_alt_deg, "max_alt_deg": self.max_alt_deg,
+            "max_airmass": self.max_airmass,
             "dark": self.dark_label, "dark_sun_alt_deg": self.dark_sun_alt_deg,
             "moon_gap_deg": self.moon_gap_deg, "sun_gap_deg": self.sun_gap_deg,
             "ha_range_h": list(self.ha_range_h) if self.ha_range_h else None,
@@ -130,6 +133,10 @@ SPECS: dict[str, LimitSpec] = {spec.key: spec for spec in (
     LimitSpec("min_alt_deg", "--min-alt", "number", "minimum altitude",
               "Minimum apparent altitude in degrees", defaults.MIN_ALT_DEG,
               lo=-5.0, hi=90.0, hi_open=True, unit="°"),
+    LimitSpec("max_alt_deg", "--max-alt", "number", "maximum altitude",
+              "Maximum apparent altitude in degrees: the zenith keyhole of an alt-azimuth "
+              "mount, where the azimuth cannot follow", defaults.MAX_ALT_DEG,
+              lo=0.0, hi=90.0, lo_open=True, unit="°"),
     LimitSpec("max_airmass", "--max-airmass", "number", "maximum air mass",
               "Maximum air mass", defaults.MAX_AIRMASS,
               lo=1.0, hi=40.0, lo_open=True),
@@ -189,6 +196,11 @@ def check_limits(given: Mapping[str, Given]) -> dict[str, object]:
 def limits_from(given: Mapping[str, Given]) -> Limits:
     """Limits from given values (checked by :func:`check_limits`), the defaults for the rest."""
     values = {key: spec.default for key, spec in SPECS.items()} | check_limits(given)
+    top = values["max_alt_deg"]
+    if top is not None and top <= values["min_alt_deg"]:
+        where = given.get("max_alt_deg") or given["min_alt_deg"]
+        raise where.origin.error(f"maximum altitude {top:g}° must be above the minimum "
+                                 f"altitude {values['min_alt_deg']:g}°")
     dark = values["dark"]
     if dark == "none":
         dark_alt, dark_label = None, "none"
@@ -197,7 +209,8 @@ def limits_from(given: Mapping[str, Given]) -> Limits:
     else:
         dark_alt, dark_label = float(dark), f"sun below {dark:g}°"
     return Limits(
-        min_alt_deg=values["min_alt_deg"], max_airmass=values["max_airmass"],
+        min_alt_deg=values["min_alt_deg"], max_alt_deg=values["max_alt_deg"],
+        max_airmass=values["max_airmass"],
         dark_sun_alt_deg=dark_alt, dark_label=dark_label, moon_gap_deg=values["moon_gap_deg"],
         sun_gap_deg=values["sun_gap_deg"], ha_range_h=values["ha_range_h"],
         dec_range_deg=values["dec_range_deg"], between_local=values["between"],

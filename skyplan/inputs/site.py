@@ -8,12 +8,14 @@ default limits.  How a site is found (``--site``, a sites file) is in
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import math
 import zoneinfo
 from dataclasses import dataclass, field
 
 from skyplan import notices
+from skyplan.errors import InputError
 from skyplan.inputs.atmosphere import isa_pressure_hpa, isa_temperature_c
 from skyplan.inputs.horizon import HorizonProfile
 from skyplan.inputs.limits import Origin
@@ -22,6 +24,18 @@ from skyplan.text import first_unprintable
 ELEVATION_RANGE_M = (-500.0, 9000.0)
 PRESSURE_RANGE_HPA = (100.0, 1100.0)
 TEMPERATURE_RANGE_C = (-90.0, 60.0)
+MOUNT_KINDS = ("equatorial", "german-equatorial", "altaz")
+MOUNT_MAX_ALT_RANGE_DEG = (0.0, 90.0)  # above 0, at most 90
+
+
+@dataclass(frozen=True)
+class Mount:
+    """The telescope's mount: its kind (:data:`MOUNT_KINDS`) and, for an alt-azimuth mount,
+    the highest altitude it can follow (its zenith keyhole), with where that was written."""
+
+    kind: str
+    max_alt_deg: float | None = None
+    origin: Origin | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -50,6 +64,7 @@ class Site:
     source: str = ""
     limit_origins: dict[str, Origin] = field(
         default_factory=dict, hash=False, compare=False, repr=False)
+    mount: Mount | None = None
 
     def __post_init__(self) -> None:
         unprintable = first_unprintable(str(self.name))
@@ -222,3 +237,26 @@ def zone_warning(site: Site) -> str | None:
     fix = _flips(lat, lon, lambda z: z == zone or _continent(z) == _continent(zone))
     return (f"{where} lies in {found}, not in its zone {zone} (meridian {meridian:+.0f}°); "
             + (f"check the coordinates: {fix}" if fix else "check the coordinates and zone"))
+
+
+def with_mount(site: Site, kind: str | None) -> Site:
+    """The site with its mount's kind set from ``--mount`` (None: as the site says)."""
+    if kind is None:
+        return site
+    if kind not in MOUNT_KINDS:
+        raise InputError(f"mount {kind!r} is not one of {', '.join(MOUNT_KINDS)}",
+                         field="--mount")
+    old = site.mount or Mount(kind)
+    return dataclasses.replace(site, mount=dataclasses.replace(old, kind=kind))
+
+
+def mount_limits(site: Site) -> tuple[dict[str, object], dict[str, Origin]]:
+    """The site's limits with an alt-azimuth mount's ``max_alt_deg`` as the default maximum
+    altitude (a ``max_alt_deg`` among the site's limits comes first), and their origins."""
+    m = site.mount
+    if m is None or m.kind != "altaz" or m.max_alt_deg is None or "max_alt_deg" in site.limits:
+        return dict(site.limits), dict(site.limit_origins)
+    origins = dict(site.limit_origins)
+    if m.origin is not None:
+        origins["max_alt_deg"] = m.origin
+    return {**site.limits, "max_alt_deg": m.max_alt_deg}, origins

@@ -3,7 +3,8 @@
 The astronomy for a plan lives here (the scheduler in :mod:`skyplan.planning.dispatch` sees only
 arrays): each schedulable target's altitude, azimuth and air mass on a uniform slot grid over
 the usable night, then, for every planned visit, its exact altitude at the start, middle and
-end of the exposure, azimuth, air mass, hour angle and distance from the Moon at the middle.
+end of the exposure, azimuth and parallactic angle at the start, middle and end, air mass, hour
+angle, field rotation rate and distance from the Moon and the Sun at the middle.
 """
 
 from __future__ import annotations
@@ -15,7 +16,7 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from skyplan.engine import airmass as am
-from skyplan.engine import events
+from skyplan.engine import events, mount
 from skyplan.errors import NothingObservable
 from skyplan.planning import dispatch as scheduling
 from skyplan.planning import model, reasons, replan
@@ -58,6 +59,14 @@ class PlannedVisit:
     moon_distance_deg: float
     priority: int
     best_airmass: float
+    az_start_deg: float
+    az_end_deg: float
+    parallactic_start_deg: float
+    parallactic_mid_deg: float
+    parallactic_end_deg: float
+    field_rotation_deg_per_min: float  # alt-azimuth mount, at mid-exposure
+    sun_distance_deg: float
+    pier_side: str  # of a German equatorial mount: "east" while the target is west of the meridian
 
 
 @dataclass(frozen=True)
@@ -81,7 +90,8 @@ def _reason(res, i: int) -> tuple[str, str]:
     lost = {k: v[i] for k, v in res.lost_s.items() if k != "dark"}
     key = max(lost, key=lambda k: lost[k]) if lost else "dark"
     text = {
-        "altitude": "below the minimum altitude all night", "airmass": "air mass too high",
+        "altitude": "below the minimum altitude all night",
+        "max_alt": "above the maximum altitude whenever it is up", "airmass": "air mass too high",
         "horizon": "behind the horizon profile", "moon": "lost to the Moon",
         "sun": "too close to the Sun", "hour_angle": "outside the mount's hour-angle range",
         "dec": "outside the mount's declination range", "between": "outside the clock range",
@@ -224,12 +234,17 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
     t0 = np.array([p.exposure_start_unix for p in v])
     t1 = np.array([p.end_unix for p in v])
     tm = 0.5 * (t0 + t1)
-    a0, _, _ = sky.horizon(rows, t0)
+    a0, az0, ha0 = sky.horizon(rows, t0)
     am_, azm, ham = sky.horizon(rows, tm)
-    a1, _, _ = sky.horizon(rows, t1)
+    a1, az1, ha1 = sky.horizon(rows, t1)
     xm = am.airmass(am_, res.limits.airmass_model)
     tr = res.night.track
     moon = _moon_distance(sky, rows, tm, tr)
+    sun = _sun_distance(sky, rows, tm, tr)
+    lat = np.radians(sky.site.lat_deg)
+    q0, qm, q1 = (mount.parallactic_angle_deg(h, sky.radec(rows, t)[1], lat)
+                  for h, t in ((ha0, t0), (ham, tm), (ha1, t1)))
+    rot = mount.field_rotation_deg_per_min(ham, sky.radec(rows, tm)[1], lat)
     out = []
     for k, p in enumerate(v):
         i = int(rows[k])
@@ -244,6 +259,11 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
             hour_angle_mid_h=float(((np.degrees(ham[k]) + 180.0) % 360.0 - 180.0) / 15.0),
             moon_distance_deg=float(moon[k]), priority=int(priority[i]),
             best_airmass=float(res.best_airmass[i]),
+            az_start_deg=float(az0[k]), az_end_deg=float(az1[k]),
+            parallactic_start_deg=float(q0[k]), parallactic_mid_deg=float(qm[k]),
+            parallactic_end_deg=float(q1[k]), field_rotation_deg_per_min=float(rot[k]),
+            sun_distance_deg=float(sun[k]),
+            pier_side="east" if np.sin(ha0[k]) > 0 else "west",
         ))
     return out
 
@@ -252,3 +272,9 @@ def _moon_distance(sky, rows, t, track) -> np.ndarray:
     from skyplan.engine.sky import distance_margin
 
     return distance_margin(sky, track.t, track.moon_ra_deg, track.moon_dec_deg, 0.0)(rows, t)
+
+
+def _sun_distance(sky, rows, t, track) -> np.ndarray:
+    from skyplan.engine.sky import distance_margin
+
+    return distance_margin(sky, track.t, track.sun_ra_deg, track.sun_dec_deg, 0.0)(rows, t)

@@ -10,14 +10,21 @@ from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import Sheet, site_record
 from skyplan.render.windowview import hhmm as _hhmm
 
-SCHEMA = "skyplan.plan/2"
+SCHEMA = "skyplan.plan/2.1"
 SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the site's rules come "
                 "first.", "Never point unfiltered optics at or near the Sun.")
 SAFETY = " ".join(SAFETY_LINES)
 
 
-def visit_record(v) -> dict:
+def has_pier_side(site) -> bool:
+    """Whether the plan's visits name the pier side: a German equatorial mount."""
+    return site.mount is not None and site.mount.kind == "german-equatorial"
+
+
+def visit_record(v, pier_side: bool = False) -> dict:
+    """One visit as a plan observation; ``pier_side``: with the German mount's pier side."""
     extra = {"identifier": v.identifier} if v.identifier else {}
+    pier = {"pier_side": v.pier_side} if pier_side else {}
     return {
         "seq": v.seq, "name": v.name, **extra, "repeat": v.repeat,
         "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
@@ -30,6 +37,12 @@ def visit_record(v) -> dict:
         "airmass_mid": round(v.airmass_mid, 4), "hour_angle_mid_h": round(v.hour_angle_mid_h, 4),
         "moon_distance_deg": round(v.moon_distance_deg, 2), "priority": v.priority,
         "best_airmass": round(v.best_airmass, 4),
+        "az_start_deg": round(v.az_start_deg, 3), "az_end_deg": round(v.az_end_deg, 3),
+        "parallactic_start_deg": round(v.parallactic_start_deg, 3),
+        "parallactic_mid_deg": round(v.parallactic_mid_deg, 3),
+        "parallactic_end_deg": round(v.parallactic_end_deg, 3),
+        "field_rotation_deg_per_min": round(v.field_rotation_deg_per_min, 4),
+        "sun_distance_deg": round(v.sun_distance_deg, 2), **pier,
     }
 
 
@@ -55,7 +68,7 @@ def plan_document(p, site, generated_at: float, rest=None) -> dict:
             "slew_az_deg_s": p.overheads.slew_az_deg_s,
             "slew_alt_deg_s": p.overheads.slew_alt_deg_s, "settle_s": p.overheads.settle_s,
         },
-        "observations": [visit_record(v) for v in p.visits],
+        "observations": [visit_record(v, has_pier_side(site)) for v in p.visits],
         "not_placed": [{"name": str(res.names[i]), "reason": code, "explanation": text}
                        for i, code, text in p.not_placed],
         "short_repeats": [{"name": str(res.names[i]), "visits": got, "asked": asked}
@@ -181,7 +194,7 @@ def next_record(status: str, at: float, p, choice, site, generated_at: float) ->
         "status": status,
         "summary": _NEXT_HEADLINE[status],
         "night": p.windows.night.date.isoformat(),
-        "visit": None if first is None else visit_record(first),
+        "visit": None if first is None else visit_record(first, has_pier_side(site)),
         "wait_s": None if first is None else round(max(first.start - at, 0.0), 1),
         "next_possible": None if first is None else iso_utc(first.start),
         "why": [] if first is None else next_reasons(p, choice, zone),
