@@ -38,8 +38,6 @@ from __future__ import annotations
 
 import difflib
 import json
-import re
-import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -60,11 +58,16 @@ from skyplan.inputs.site import (
     normalise_lon,
     zone_info,
 )
-from skyplan.text import excerpt, first_unprintable, quoted
+from skyplan.inputs.tomltext import (
+    KeyLines,
+    field_of,
+    parse_toml,
+    toml_key,
+    toml_value,
+)
+from skyplan.text import first_unprintable, quoted
 
 MAX_SITES_FILE_BYTES = 1 << 20  # a sites file longer than this (1 MiB) is refused unread
-MAX_NESTING = 8  # tables and arrays inside one another, the document counting 1: the
-# pairs of a horizon and the ranges of the limits are 5 deep
 
 SITE_KEYS = (
     "latitude",
@@ -117,7 +120,7 @@ def check_sites_file(path: str | Path) -> list[InputError]:
 
 def site_to_toml(site: Site) -> str:
     """The ``[site.NAME]`` tables of a site, in the sites-file format (horizon inline)."""
-    key = _toml_key(site.name)
+    key = toml_key(site.name)
     lines = [
         f"[site.{key}]",
         f"latitude = {site.lat_deg!r}",
@@ -141,115 +144,12 @@ def site_to_toml(site: Site) -> str:
     if site.limits:
         lines += ["", f"[site.{key}.limits]"]
         for name, value in site.limits.items():
-            lines.append(f"{name} = {_toml_value(value)}")
+            lines.append(f"{name} = {toml_value(value)}")
     if site.mount is not None:
         lines += ["", f"[site.{key}.mount]", f"kind = {json.dumps(site.mount.kind)}"]
         if site.mount.max_alt_deg is not None:
             lines.append(f"max_alt_deg = {site.mount.max_alt_deg!r}")
     return "\n".join(lines) + "\n"
-
-
-def _toml_key(name: str) -> str:
-    return name if re.fullmatch(r"[A-Za-z0-9_-]+", name) else json.dumps(name)
-
-
-def _toml_value(value: object) -> str:
-    if isinstance(value, str):
-        return json.dumps(value)
-    if isinstance(value, tuple | list):
-        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
-    if isinstance(value, int | float):
-        return repr(float(value))
-    raise TypeError(f"cannot write {shown(value)} to a sites file")
-
-
-# --------------------------------------------------------------------------- reading
-
-_KEY_PART = r'"(?:[^"\\]|\\.)*"|\'[^\']*\'|[A-Za-z0-9_-]+'
-_DOTTED = rf"(?:{_KEY_PART})(?:\s*\.\s*(?:{_KEY_PART}))*"
-_HEADER_RE = re.compile(rf"\s*\[\s*({_DOTTED})\s*\]\s*(?:#.*)?")
-_KEY_RE = re.compile(rf"\s*({_DOTTED})\s*=")
-_TOML_WHERE = re.compile(r"\s*\(at line (\d+), column \d+\)\s*$")
-
-
-class _Lines:
-    """Best-effort line numbers of TOML keys, found by scanning the text."""
-
-    def __init__(self, text: str) -> None:
-        self._first: dict[tuple[str, ...], int] = {}
-        table: tuple[str, ...] = ()
-        for line_no, line in enumerate(text.splitlines(), start=1):
-            header = _HEADER_RE.fullmatch(line)
-            if header:
-                table = _key_parts(header.group(1))
-                self._first.setdefault(table, line_no)
-                continue
-            key = _KEY_RE.match(line)
-            if key:
-                self._first.setdefault(table + _key_parts(key.group(1)), line_no)
-
-    def of(self, *path: str) -> int | None:
-        """Line of the key at ``path``, else of its nearest enclosing table found."""
-        for end in range(len(path), 0, -1):
-            if path[:end] in self._first:
-                return self._first[path[:end]]
-        return None
-
-
-def _field(key_path: tuple[str, ...]) -> str:
-    """The dotted field of a key for a message, each part a short escaped excerpt."""
-    return ".".join(excerpt(part) for part in key_path)
-
-
-def _key_parts(dotted: str) -> tuple[str, ...]:
-    parts = re.findall(_KEY_PART, dotted)
-    return tuple(_unquoted(p) for p in parts)
-
-
-def _unquoted(part: str) -> str:
-    """A key part as TOML reads it: a basic string's escapes (``\\u001b``) decoded."""
-    if part[:1] == '"' and "\\" in part:
-        try:
-            return tomllib.loads(f"k = {part}")["k"]
-        except tomllib.TOMLDecodeError:
-            return part[1:-1]
-    return part[1:-1] if part[:1] in "\"'" else part
-
-
-def _nesting(value: object) -> int:
-    """How deeply arrays and tables nest in a parsed TOML value (without recursion)."""
-    deepest, stack = 0, [(value, 0)]
-    while stack:
-        item, depth = stack.pop()
-        if isinstance(item, dict | list):
-            depth += 1
-            if depth > MAX_NESTING:
-                return depth
-            deepest = max(deepest, depth)
-            stack.extend((child, depth) for child in
-                         (item.values() if isinstance(item, dict) else item))
-    return deepest
-
-
-def _parse_toml(text: str, name: str) -> tuple[dict | None, list[InputError]]:
-    """The TOML document, or the one problem that stops it being read."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        message = str(exc)
-        where = _TOML_WHERE.search(message)
-        line = int(where.group(1)) if where else None
-        return None, [
-            InputError(f"TOML syntax: {_TOML_WHERE.sub('', message)}", file=name, line=line)
-        ]
-    except RecursionError:
-        data = None
-    except ValueError as exc:  # an integer of more digits than Python converts
-        return None, [InputError(f"TOML value: {str(exc).split(';')[0]}", file=name)]
-    if data is None or _nesting(data) > MAX_NESTING:
-        return None, [InputError(
-            f"arrays or tables nested more than {MAX_NESTING} deep", file=name)]
-    return data, []
 
 
 def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
@@ -260,15 +160,15 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         return None, [exc]
     except UnicodeDecodeError as exc:
         return None, [InputError(f"cannot read sites file: {exc}", file=name)]
-    data, unreadable = _parse_toml(text, name)
+    data, unreadable = parse_toml(text, name)
     if data is None:
         return None, unreadable
-    lines = _Lines(text)
+    lines = KeyLines(text)
     problems: list[InputError] = []
 
     def problem(message: str, *key_path: str) -> None:
         problems.append(InputError(message, file=name, line=lines.of(*key_path),
-                                   field=_field(key_path)))
+                                   field=field_of(key_path)))
 
     for key in data:
         if key not in ("default", "site"):
@@ -298,7 +198,7 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
         folded[site_name.casefold()] = site_name
         if not isinstance(table, dict):
             problem(
-                f"expected a table [site.{_toml_key(site_name)}], got {shown(table)}",
+                f"expected a table [site.{toml_key(site_name)}], got {shown(table)}",
                 "site",
                 site_name,
             )
@@ -326,7 +226,7 @@ def _read_sites_file(path: Path) -> tuple[SitesFile | None, list[InputError]]:
 
 
 def _site_from_table(
-    site_name: str, table: dict, path: Path, lines: _Lines, problems: list[InputError]
+    site_name: str, table: dict, path: Path, lines: KeyLines, problems: list[InputError]
 ) -> Site | None:
     """One site from its table; appends every problem found and returns None if any."""
     file = str(path)
@@ -335,7 +235,7 @@ def _site_from_table(
     def problem(message: str, *keys: str) -> None:
         key_path = ("site", site_name, *keys)
         problems.append(InputError(message, file=file, line=lines.of(*key_path),
-                                   field=_field(key_path)))
+                                   field=field_of(key_path)))
 
     def value(
         key: str,
@@ -391,7 +291,7 @@ def _site_from_table(
         if isinstance(table["limits"], dict):
             limits, origins = _limits_from_table(table["limits"], file, lines, site_name, problems)
         else:
-            problem(f"expected a table [site.{_toml_key(site_name)}.limits]", "limits")
+            problem(f"expected a table [site.{toml_key(site_name)}.limits]", "limits")
     mount = None
     if "mount" in table:
         mount = _mount_from_table(table["mount"], file, lines, site_name, problem)
@@ -411,15 +311,15 @@ def _site_from_table(
         limits=limits,
         limit_origins=origins,
         mount=mount,
-        source=f"{file} [site.{_toml_key(site_name)}]",
+        source=f"{file} [site.{toml_key(site_name)}]",
     )
 
 
-def _mount_from_table(table: object, file: str, lines: _Lines, site_name: str,
+def _mount_from_table(table: object, file: str, lines: KeyLines, site_name: str,
                       problem: Callable[..., None]) -> Mount | None:
     """The ``[site.NAME.mount]`` table: its kind and an optional maximum altitude."""
     if not isinstance(table, dict):
-        problem(f"expected a table [site.{_toml_key(site_name)}.mount]", "mount")
+        problem(f"expected a table [site.{toml_key(site_name)}.mount]", "mount")
         return None
     ok = True
     for key in table:
@@ -445,18 +345,18 @@ def _mount_from_table(table: object, file: str, lines: _Lines, site_name: str,
     if not ok:
         return None
     path = ("site", site_name, "mount", "max_alt_deg")
-    origin = limits_mod.Origin(field=_field(path), file=file, line=lines.of(*path))
+    origin = limits_mod.Origin(field=field_of(path), file=file, line=lines.of(*path))
     return Mount(str(kind), top, origin)
 
 
 def _limits_from_table(
-    table: dict, file: str, lines: _Lines, site_name: str, problems: list[InputError]
+    table: dict, file: str, lines: KeyLines, site_name: str, problems: list[InputError]
 ) -> tuple[dict[str, object], dict[str, limits_mod.Origin]]:
     """The site's limits checked by the one validator, and where each key is written."""
     given: dict[str, limits_mod.Given] = {}
     for key, raw in table.items():
         key_path = ("site", site_name, "limits", key)
-        origin = limits_mod.Origin(field=_field(key_path), file=file, line=lines.of(*key_path))
+        origin = limits_mod.Origin(field=field_of(key_path), file=file, line=lines.of(*key_path))
         if key in limits_mod.FILE_KEYS:
             given[key] = limits_mod.Given(raw, origin)
             continue
