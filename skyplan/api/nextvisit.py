@@ -76,8 +76,8 @@ def next_visit(targets: Targets, site: Site, night: Night | None = None,
 
     ``night``: default the night ``at`` belongs to (before local noon, the night that began
     the evening before); ``done``, ``options`` and ``settings`` as for :func:`skyplan.plan`
-    (the method defaults to 'dispatch' here, the fast one: pass the same settings to both to
-    compare).
+    (the method defaults to 'optimal', as for :func:`skyplan.plan`, so that the answer is the
+    first visit of the plan made from the same moment).
     """
     from skyplan.api.night import night as night_for
     from skyplan.errors import InputError, NothingObservable
@@ -91,7 +91,7 @@ def next_visit(targets: Targets, site: Site, night: Night | None = None,
     if night is None:
         night = night_for(site, progress.night_date_of(at.timestamp(), site.tzinfo))
     chosen = settings if settings is not None else plan_settings(
-        **{"method": "dispatch", **options})
+        **options)
     if computed is None:
         computed = windows(targets, site, night, limits)
     try:

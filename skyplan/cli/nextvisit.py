@@ -40,8 +40,9 @@ def next_cmd(
     spacing: float = planopts.Spacing,
     slew_rate: str = planopts.SlewRate,
     settle: float = planopts.Settle,
-    method: str = typer.Option("dispatch", "--method", help="dispatch (fast greedy, default "
-                               "here) or optimal (integer program, as plan's default)."),
+    method: str = typer.Option("optimal", "--method", help="optimal (as plan's default, so that "
+                               "the answer is the first visit of plan's plan) or dispatch "
+                               "(fast greedy)."),
     time_limit: float = planopts.TimeLimit,
     airmass_slack: float = planopts.AirmassSlack,
     priority_cut: int = planopts.PriorityCut,
