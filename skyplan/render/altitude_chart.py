@@ -65,7 +65,13 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
 
     fig, renderer = new_figure(width_px, height_px, dpi)
     base = max(6.0, 10.0 * height_px / dpi / 8.0)
-    ax = fig.add_axes((0.065, 0.1, 0.66, 0.8))
+    # the legend takes one column, or two when its entries (twilight bands, limits, the Moon,
+    # the visits and one per target: at most 8 besides the targets) outgrow the height; the
+    # plot narrows to leave the legend room
+    legend_rows = max(1, int(0.8 * height_px / (1.75 * base * dpi / 72.0)))
+    two_columns = len(scene.names) + 8 > legend_rows
+    plot_width = 0.52 if two_columns else 0.66
+    ax = fig.add_axes((0.065, 0.1, plot_width, 0.8))
     t = scene.time_unix
     ax.set_xlim(t[0], t[-1])
     ax.set_ylim(0.0, 90.0)
@@ -150,14 +156,12 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
 
     hidden = place_labels(ax, renderer, peak_labels,
                           [n.get_window_extent(renderer) for n in numbers])
-    legend_rows = max(1, int(0.8 * height_px / (1.75 * base * dpi / 72.0)))
-    ncols = 1 if len(handles) <= legend_rows else 2
     fig.legend(
         handles,
         texts,
         loc="upper left",
-        bbox_to_anchor=(0.8, 0.9),
-        ncols=ncols,
+        bbox_to_anchor=(plot_width + 0.14, 0.9),
+        ncols=2 if two_columns else 1,
         fontsize=0.8 * base,
         frameon=False,
         handlelength=2.6,

@@ -25,9 +25,11 @@ def _png(fig) -> bytes:
 
 
 def _month_ticks(ax, dates) -> None:
-    firsts = [k for k, d in enumerate(dates) if d.day == 1 or k == 0]
+    # the range's first night is marked too, unless a month begins less than 20 nights later
+    # (the two labels would run into each other)
+    firsts = [k for k, d in enumerate(dates) if d.day == 1 or (k == 0 and d.day <= 10)]
     ax.set_xticks(firsts)
-    ax.set_xticklabels([dates[k].strftime("%b\n%Y" if dates[k].month == 1 or k == 0
+    ax.set_xticklabels([dates[k].strftime("%b\n%Y" if dates[k].month == 1 or k == firsts[0]
                                           else "%b") for k in firsts])
 
 
