@@ -161,6 +161,7 @@ def season_nights(site, dates: list[dt.date]) -> list[night_mod.Night]:
 
 
 COARSE_STEP_S = 3600.0  # the Sun and the Moon from skyfield every hour, then interpolated
+SLOW_STEP_S = 6 * 3600.0  # nutation and GAST − ERA every six hours, then interpolated
 
 
 def _sun_and_moon(site, unix: np.ndarray) -> tuple[dict, dict, np.ndarray]:
@@ -176,16 +177,25 @@ def _sun_and_moon(site, unix: np.ndarray) -> tuple[dict, dict, np.ndarray]:
     and azimuth then follow from the hour angle by spherical trigonometry (Meeus 1998,
     eqs. 13.5–13.6) on the geodetic latitude; polar motion (< 0.5″) is left out.  Against
     the night's own track the Sun's altitude differs by well under 1″, i.e. under 1 s in
-    twilight times.
+    twilight times.  The nutation angles (IAU 2000A) and GAST − ERA are themselves computed
+    every six hours and interpolated the same way: their shortest period of any size is
+    13.7 days (0.2″), whose four-point interpolation error at a 6-hour step is below
+    0.001″; handing skyfield the nutation angles is the pattern its ``Time`` supports for
+    saving the cost of the series.
     """
     from skyplan.engine import bodies, ephemeris, timescales
 
     tc = np.arange(unix[0] - 2 * COARSE_STEP_S, unix[-1] + 3 * COARSE_STEP_S, COARSE_STEP_S)
     t = bodies.sf_time(tc)
+    # precession and nutation every six hours, interpolated (see the docstring)
+    tn = np.arange(tc[0] - 2 * SLOW_STEP_S, tc[-1] + 3 * SLOW_STEP_S, SLOW_STEP_S)
+    d_psi, d_eps = _nutation(tn)
+    t._nutation_angles_radians = (events.interp_cubic(tc, tn, d_psi),
+                                  events.interp_cubic(tc, tn, d_eps))
     here = bodies.observer(site.lat_deg, site.lon_deg, site.elevation_m).at(t)
     era = timescales.era_rad(unix)
-    offset = np.unwrap(timescales.gast_rad(tc) - timescales.era_rad(tc))
-    last = era + events.interp_cubic(unix, tc, offset) + np.radians(site.lon_deg)
+    offset = np.unwrap(timescales.gast_rad(tn) - timescales.era_rad(tn))
+    last = era + events.interp_cubic(unix, tn, offset) + np.radians(site.lon_deg)
     phi = np.radians(site.lat_deg)
     out = []
     for key in ("sun", "moon"):
@@ -202,6 +212,15 @@ def _sun_and_moon(site, unix: np.ndarray) -> tuple[dict, dict, np.ndarray]:
                     "ra_deg": np.degrees(ra) % 360.0, "dec_deg": np.degrees(dec),
                     "distance_km": events.interp_cubic(unix, tc, dist_c.km)})
     return out[0], out[1], np.degrees(last) % 360.0
+
+
+def _nutation(unix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """IAU 2000A nutation in longitude and obliquity (radians), as skyfield computes it."""
+    from skyfield.nutationlib import iau2000a_radians
+
+    from skyplan.engine import bodies
+
+    return iau2000a_radians(bodies.sf_time(unix))
 
 
 def middle_times(windows, n: int) -> np.ndarray:
@@ -227,8 +246,11 @@ def season_block(targets: TargetSet, site, limits, dates: list[dt.date], a: int,
                  i: int, j: int, orbits=()) -> SeasonBlock:
     """Usable minutes, air mass at the middle of the usable time and the Moon's
     illumination for targets ``a..b`` of the run (``targets``: those targets alone) on
-    nights ``i..j`` of ``dates``."""
-    from skyplan.engine.windows import compute_windows
+    nights ``i..j`` of ``dates``.
+
+    Fixed targets take the closed forms of :mod:`skyplan.engine.seasonwindows`; bodies and
+    orbits, which move, the ``windows`` engine night by night."""
+    from skyplan.engine.seasonwindows import fixed_block
 
     sub = targets
     if len(sub) != b - a:
@@ -237,14 +259,33 @@ def season_block(targets: TargetSet, site, limits, dates: list[dt.date], a: int,
     n = b - a
     usable = np.zeros((n, j - i), np.float32)
     x_mid = np.full((n, j - i), np.nan, np.float32)
+    moving = np.asarray(sub.body, dtype=object) != ""
+    fixed_rows = np.flatnonzero(~moving)
+    if len(fixed_rows):
+        usable[fixed_rows], x_mid[fixed_rows] = fixed_block(sub.take(fixed_rows), site,
+                                                            limits, nights)
+    if moving.any():
+        moving_rows = np.flatnonzero(moving)
+        usable[moving_rows], x_mid[moving_rows] = _moving_block(
+            sub.take(moving_rows), site, limits, nights, orbits)
+    illum = np.array([nt.moon.illumination for nt in nights])
+    return SeasonBlock(a, b, i, j, usable, x_mid, illum)
+
+
+def _moving_block(targets: TargetSet, site, limits, nights, orbits):
+    """Bodies and orbits: the ``windows`` engine on each night."""
+    from skyplan.engine.windows import compute_windows
+
+    n = len(targets)
+    usable = np.zeros((n, len(nights)), np.float32)
+    x_mid = np.full((n, len(nights)), np.nan, np.float32)
     rows = np.arange(n)
     for k, night in enumerate(nights):  # a loop over nights; each is vectorised over targets
-        res = compute_windows(sub, site, night, limits, orbits=orbits)
+        res = compute_windows(targets, site, night, limits, orbits=orbits)
         usable[:, k] = res.usable_s / 60.0
         t_mid = middle_times(res.windows, n)
         has = np.isfinite(t_mid)
         if has.any():
             alt, _, _ = res.sky.horizon(rows[has], t_mid[has])
             x_mid[has, k] = am.airmass(alt, limits.airmass_model)
-    illum = np.array([nt.moon.illumination for nt in nights])
-    return SeasonBlock(a, b, i, j, usable, x_mid, illum)
+    return usable, x_mid
