@@ -61,8 +61,12 @@ def fixed_block(targets: TargetSet, site, limits: Limits,
     skies = [Sky(targets, site, night, limits) for night in nights]
     profile = profile_set(skies[m // 2], limits)
     high = heights(skies[0], limits)
+    sun_alts = [night_mod.SUNSET_ALT_DEG]
+    if limits.dark_sun_alt_deg is not None:
+        sun_alts.append(limits.dark_sun_alt_deg)
+    dark = darkness(nights, sun_alts)
     for k, sky in enumerate(skies):
-        seconds, t_mid = night_minutes(sky, limits, profile, high)
+        seconds, t_mid = night_minutes(sky, limits, profile, high, dark[k])
         usable[:, k] = seconds / 60.0
         has = np.flatnonzero(np.isfinite(t_mid))
         if len(has):
@@ -225,21 +229,59 @@ def _wrap(x):
     return (x + np.pi) % TWO_PI - np.pi
 
 
-def _times(sky: Sky, limits: Limits) -> list[tuple[float, float]]:
+def darkness(nights: list[night_mod.Night], sun_alts: list[float]) -> list[dict]:
+    """Per night, the intervals of its span with the Sun below each of ``sun_alts``, as
+    :meth:`skyplan.engine.night.Night.dark_interval` finds them, for a run of consecutive
+    nights at once: their tracks join on one 10-minute grid, searched in one call."""
+    t = np.concatenate([nt.track.t[:-1] for nt in nights] + [nights[-1].track.t[-1:]])
+    alt = np.concatenate([nt.track.sun_alt_deg[:-1] for nt in nights]
+                         + [nights[-1].track.sun_alt_deg[-1:]])
+    thr = np.asarray(sun_alts, dtype=float)
+
+    def below(rows, tt):
+        return thr[rows] - events.interp_cubic(tt, t, alt)
+
+    c = events.find_crossings(below, np.arange(len(thr)), t, tol_s=night_mod.EVENT_TOL_S)
+    out = []
+    for nt in nights:
+        a, b = nt.span_start, nt.span_end
+        i = int(np.searchsorted(t, a))
+        here = (c.t > a) & (c.t < b)
+        per = {}
+        for k, value in enumerate(sun_alts):
+            sel = here & (c.rows == k)
+            edges, opens = c.t[sel], c.rising[sel]
+            inside = bool(thr[k] - alt[i] >= 0)
+            start = a if inside else None
+            pieces = []
+            for when, up in zip(edges.tolist(), opens.tolist()):
+                if up and start is None:
+                    start = when
+                elif not up and start is not None:
+                    pieces.append((start, when))
+                    start = None
+            if start is not None:
+                pieces.append((start, b))
+            per[value] = pieces
+        out.append(per)
+    return out
+
+
+def _times(sky: Sky, limits: Limits, dark: dict) -> list[tuple[float, float]]:
     """The time intervals of the night common to every target: the span, the darkness,
-    the clock-time range (as ``windows`` builds them)."""
+    the clock-time range (as ``windows`` builds them); ``dark``: the night's
+    :func:`darkness`."""
     from skyplan.engine.windows import _between_intervals
 
     night = sky.night
     if limits.dark_sun_alt_deg is None:
         pieces = [(night.span_start, night.span_end)]
     else:
-        below = night.dark_interval(night_mod.SUNSET_ALT_DEG)
+        below = dark[night_mod.SUNSET_ALT_DEG]
         if not below:
             return []
         span = (below[0][0], below[-1][1])
-        pieces = [(max(a, span[0]), min(b, span[1]))
-                  for a, b in night.dark_interval(limits.dark_sun_alt_deg)]
+        pieces = [(max(a, span[0]), min(b, span[1])) for a, b in dark[limits.dark_sun_alt_deg]]
     if limits.between_local is not None:
         iv = _between_intervals(limits, night, np.zeros(1, np.int64))
         if len(iv) == 0:
@@ -282,11 +324,12 @@ class _Usable:
         return self.t_mid + (x - self.h_mid[rows]) / SIDEREAL_RATE
 
 
-def night_minutes(sky: Sky, limits: Limits, profile: HourAngleSet, heights: dict):
+def night_minutes(sky: Sky, limits: Limits, profile: HourAngleSet, heights: dict,
+                  dark: dict):
     """Usable seconds and the middle of the usable time (NaN: none) of every target on the
-    night of ``sky``."""
+    night of ``sky`` (``dark``: the night's :func:`darkness`)."""
     n = len(sky.ra)
-    times = _times(sky, limits)
+    times = _times(sky, limits, dark)
     seconds, t_mid = np.zeros(n), np.full(n, np.nan)
     if not times:
         return seconds, t_mid
