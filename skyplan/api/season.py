@@ -24,6 +24,9 @@ from skyplan.notices import as_warnings
 
 CLUSTER_ENV = "SKYPLAN_CLUSTER"
 MIN_MINUTES = 60.0  # a night counts as observable with at least this many usable minutes
+# below this many target-nights (about 2 s of one core), the default is this process alone:
+# starting worker processes costs 1-2 s (measured, docs/performance.md)
+POOL_MIN_TARGET_NIGHTS = 2_000_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -102,8 +105,8 @@ def run_blocks(targets, site: Site, limits: Limits, dates: list[dt.date], *, orb
     """The season's blocks, in block order, from whoever computes them.
 
     ``client``: a ``distributed.Client`` to use as it is; else ``cluster`` (an address) or
-    ``SKYPLAN_CLUSTER``; else ``workers`` local processes (default: the CPU count; 1: this
-    process).
+    ``SKYPLAN_CLUSTER``; else ``workers`` local processes (default: the CPU count, or this
+    process alone below :data:`POOL_MIN_TARGET_NIGHTS`; 1: this process).
     """
     from skyplan.engine.season import blocks
 
@@ -114,7 +117,9 @@ def run_blocks(targets, site: Site, limits: Limits, dates: list[dt.date], *, orb
     if client is not None or address is not None:
         yield from _on_dask(jobs, address, client)
         return
-    workers = (os.cpu_count() or 1) if workers is None else workers
+    if workers is None:  # small runs: starting processes would cost more than they save
+        small = len(targets) * len(dates) < POOL_MIN_TARGET_NIGHTS
+        workers = 1 if small else (os.cpu_count() or 1)
     if workers <= 1 or len(jobs) == 1:
         yield from map(_run_block, jobs)
         return
@@ -204,7 +209,8 @@ def season(targets: Targets, site: Site, start=None, end=None, limits: Limits | 
     ``limits`` (default: the site file's, then skyplan's).
 
     ``cluster``: a Dask scheduler address (else ``SKYPLAN_CLUSTER``); ``workers``: local
-    processes (default the CPU count); ``client``: a ``distributed.Client`` to use.
+    processes (default the CPU count; this process alone for small runs); ``client``: a
+    ``distributed.Client`` to use.
     """
     from skyplan.api.windows import limits as make_limits
 

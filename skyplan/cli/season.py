@@ -41,7 +41,8 @@ def season_cmd(
                                 "(tcp://HOST:8786; default $SKYPLAN_CLUSTER); needs "
                                 "skyplan[cluster].  Without it: local processes."),
     workers: int = typer.Option(None, "--workers", help="Local worker processes "
-                                "(default: the CPU count; 1: this process only)."),
+                                "(default: the CPU count, or this process alone under 2 "
+                                "million target-nights; 1: this process only)."),
     chart: str = typer.Option(None, "--chart", help="Also draw a PNG: the usable hours of "
                               "every target by date (a heat map)."),
     track: str = typer.Option(None, "--track", help="With --chart: instead, the usable "
@@ -108,7 +109,7 @@ def season_cmd(
     elif fmt == "csv":
         common.emit(cols.csv_stream(result, per_night=per_night), out)
     elif fmt == "parquet":
-        common.emit(cols.parquet(result, per_night=per_night), out)
+        common.emit(cols.parquet_stream(result, per_night=per_night), out)
     else:
         from skyplan.render import seasonview, tables
 

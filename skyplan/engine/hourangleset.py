@@ -74,12 +74,16 @@ class HourAngleSet:
         return HourAngleSet(np.where(keep, self.p, 0.0), np.where(keep, self.q, 0.0))
 
     def intersect(self, other: HourAngleSet) -> HourAngleSet:
-        """Row by row: every pair of intervals intersected, then packed to the fewest
-        columns that hold every non-empty interval."""
+        """Row by row: every pair of intervals intersected (in the order of ``self``'s
+        intervals, then ``other``'s: two sets in increasing order give non-empty
+        intervals in increasing order), less the columns empty in every row."""
         p = np.maximum(self.p[:, :, None], other.p[:, None, :]).reshape(len(self), -1)
         q = np.minimum(self.q[:, :, None], other.q[:, None, :]).reshape(len(self), -1)
         q = np.maximum(q, p)
-        return HourAngleSet(p, q).packed()
+        used = (q > p).any(axis=0)  # drop the columns empty in every row
+        if not used.any():
+            used[0] = True
+        return HourAngleSet(p[:, used], q[:, used])
 
     def packed(self) -> HourAngleSet:
         """The same sets with empty intervals dropped where a column is empty in every row,
@@ -96,8 +100,8 @@ class HourAngleSet:
         return c * self.total[rows] + inside
 
     def inverse(self, rows: np.ndarray, y: np.ndarray) -> np.ndarray:
-        """The hour angle x with F(x) = y (rows with a non-empty set; intervals in
-        increasing order, as :meth:`packed` leaves them)."""
+        """The hour angle x with F(x) = y (rows with a non-empty set; the non-empty
+        intervals in increasing order, empty ones anywhere)."""
         total = self.total[rows]
         c = np.floor(y / total)
         r = y - c * total

@@ -36,7 +36,7 @@ from skyplan.engine import night as night_mod
 from skyplan.targetdata import TargetSet
 
 NIGHT_BLOCK = 16  # nights per block: one Sun-and-Moon track each
-TARGET_BLOCK = 20_000  # targets per block
+TARGET_BLOCK = 50_000  # targets per block
 
 
 @dataclass(frozen=True)

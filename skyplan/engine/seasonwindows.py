@@ -37,7 +37,7 @@ import numpy as np
 from skyplan.engine import airmass as am
 from skyplan.engine import events, frames
 from skyplan.engine import night as night_mod
-from skyplan.engine.hourangleset import TWO_PI, HourAngleSet, pack
+from skyplan.engine.hourangleset import TWO_PI, HourAngleSet
 from skyplan.engine.limitintervals import distance_now, half_arc, profile_margin
 from skyplan.engine.sky import SIDEREAL_RATE, Sky
 from skyplan.inputs.limits import Limits
@@ -293,7 +293,8 @@ def _times(sky: Sky, limits: Limits, dark: dict) -> list[tuple[float, float]]:
 
 class _Usable:
     """The usable time of a night for targets ``rows``: the hour-angle set met by each
-    row's time intervals ``[ts, te]`` (shape (rows, J), increasing, zero-length padding)."""
+    row's time intervals ``[ts, te]`` (shape (rows, J); the non-empty ones in increasing
+    order, empty ones anywhere)."""
 
     def __init__(self, sky: Sky, aset: HourAngleSet, h_mid, rows, ts, te):
         self.aset, self.rows, self.h_mid, self.t_mid = aset, rows, h_mid, sky.t_mid
@@ -355,10 +356,10 @@ def night_minutes(sky: Sky, limits: Limits, profile: HourAngleSet, heights: dict
         slot = np.searchsorted(cut_rows, er)
         gp, gq = _gaps(len(cut_rows), slot, e0, e1, times[0][0], times[-1][1])
         cs, ce = np.array([a for a, _ in times]), np.array([b for _, b in times])
-        p = np.maximum(gp[:, :, None], cs[None, None, :]).reshape(len(cut_rows), -1)
-        q = np.minimum(gq[:, :, None], ce[None, None, :]).reshape(len(cut_rows), -1)
-        p, q = pack(p, np.maximum(p, q), times[-1][1])
-        part = _Usable(sky, aset, h_mid, cut_rows, p, q)
+        # night's interval by night's interval, the gaps in order: increasing in time
+        p = np.maximum(gp[:, None, :], cs[None, :, None]).reshape(len(cut_rows), -1)
+        q = np.minimum(gq[:, None, :], ce[None, :, None]).reshape(len(cut_rows), -1)
+        part = _Usable(sky, aset, h_mid, cut_rows, p, np.maximum(p, q))
         seconds[cut_rows] = part.total
         left = np.flatnonzero(part.total > 0)
         t_mid[cut_rows] = np.nan

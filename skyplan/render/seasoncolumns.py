@@ -142,11 +142,46 @@ def csv_stream(season, *, per_night: bool) -> Iterator[bytes]:
         yield buffer.getvalue()
 
 
-def parquet(season, *, per_night: bool) -> bytes:
-    """Every record in one Parquet file (one row group per frame; ``nights`` nested)."""
-    import polars as pl
+class _Sink(io.RawIOBase):
+    """The file pyarrow's Parquet writer writes into: it hands the bytes on as they come
+    and keeps only their count (the writer's offsets)."""
 
-    buffer = io.BytesIO()
-    pl.concat(list(frames(season, per_night=per_night))).write_parquet(
-        buffer, row_group_size=BLOCK)
-    return buffer.getvalue()
+    def __init__(self) -> None:
+        super().__init__()
+        self.pieces: list[bytes] = []
+        self.size = 0
+
+    def writable(self) -> bool:
+        return True
+
+    def write(self, data) -> int:
+        piece = bytes(data)
+        self.pieces.append(piece)
+        self.size += len(piece)
+        return len(piece)
+
+    def tell(self) -> int:
+        return self.size
+
+    def take(self) -> bytes:
+        out = b"".join(self.pieces)
+        self.pieces.clear()
+        return out
+
+
+def parquet_stream(season, *, per_night: bool) -> Iterator[bytes]:
+    """Every record in one Parquet file, written frame by frame (one row group per
+    :data:`BLOCK` targets; ``nights`` nested), so that only one frame is held at a time."""
+    import pyarrow.parquet as pq
+
+    sink = _Sink()
+    writer = None
+    for table in frames(season, per_night=per_night):
+        arrow = table.to_arrow()
+        if writer is None:
+            writer = pq.ParquetWriter(sink, arrow.schema, compression="zstd")
+        writer.write_table(arrow.cast(writer.schema))
+        yield sink.take()
+    if writer is not None:
+        writer.close()
+    yield sink.take()
