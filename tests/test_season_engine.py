@@ -16,7 +16,7 @@ import skyplan
 from skyplan.api.season import season
 from skyplan.engine import night as night_mod
 from skyplan.engine import season as season_engine
-from skyplan.engine import seasonwindows
+from skyplan.engine import seasonprofile, seasonwindows
 from skyplan.engine import windows as window_engine
 from skyplan.engine.hourangleset import HourAngleSet
 from skyplan.engine.sky import Sky, distance_margin
@@ -37,7 +37,7 @@ def dense_minutes(sky: Sky, lim, rows, times, step_s: float = 5.0) -> np.ndarray
     every limit tested at every instant (the reference where ``windows``' 5-minute
     sampling of the horizon profile misses a dip shorter than its step)."""
     site, out = sky.site, np.zeros(len(rows))
-    threshold = seasonwindows._threshold(lim)
+    threshold = seasonprofile.threshold(lim)
     tr = sky.night.track
     for a, b in times:
         t = np.arange(a + step_s / 2, b, step_s)

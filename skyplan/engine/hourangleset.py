@@ -122,3 +122,27 @@ def pack(p: np.ndarray, q: np.ndarray, fill: float) -> tuple[np.ndarray, np.ndar
     ok = np.take_along_axis(full, order, axis=1)
     return (np.where(ok, np.take_along_axis(p, order, axis=1), fill),
             np.where(ok, np.take_along_axis(q, order, axis=1), fill))
+
+
+def wrap(x):
+    """Angles (radians) brought into [-π, π)."""
+    return (x + np.pi) % TWO_PI - np.pi
+
+
+def gaps(n: int, r, lo, hi, start: float, end: float) -> tuple[np.ndarray, np.ndarray]:
+    """Per row of ``n``, [start, end] less the row's intervals (disjoint, within
+    [start, end]): (n, width) arrays, zero-length padding."""
+    if len(r) == 0:
+        return np.full((n, 1), start), np.full((n, 1), end)
+    order = np.lexsort((lo, r))
+    r, lo, hi = r[order], lo[order], hi[order]
+    count = np.bincount(r, minlength=n)
+    first = np.concatenate([[0], np.cumsum(count)[:-1]])
+    pos = np.arange(len(r)) - first[r]
+    width = int(count.max()) + 1
+    p = np.full((n, width), end)
+    q = np.full((n, width), end)
+    p[:, 0] = start
+    q[r, pos] = lo  # each interval closes the gap before it
+    p[r, pos + 1] = hi  # and opens the next one
+    return p, np.maximum(q, p)

@@ -9,10 +9,13 @@ Method
   altitude against the night's own track, < 1 s in twilight times).  Each night's track is
   a slice of the long one; darkness and the Moon's and the Sun's distance follow from it as
   in ``windows``.
-* **Windows.** Each night's windows are :func:`skyplan.engine.windows.compute_windows` on
-  that night, vectorised over the targets: the same apparent place at local midnight, the
-  same closed forms and the same sampled limits, so a night of the season is the ``windows``
-  result of that night.
+* **Windows of fixed targets**: :mod:`skyplan.engine.seasonwindows`, the closed forms of
+  ``windows`` carried across nights (the apparent place of each night, the limits of
+  direction alone as a set of hour angles, the horizon profile sampled once per block of
+  nights, darkness mapped to hour angle, the Moon and the Sun only where they come near):
+  each night's usable minutes are those of ``windows`` on that night (tested).
+* **Bodies and orbits** move: each night is
+  :func:`skyplan.engine.windows.compute_windows` on that night.
 * **Air mass at the middle of the usable time**: the instant at which half of the night's
   usable time has passed (through every window of the night), its apparent altitude, then
   the night's air-mass model.

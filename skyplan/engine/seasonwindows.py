@@ -22,12 +22,14 @@ Method (vectorised over targets; a loop over the nights of a block):
    day) of the body at local midnight are looked at, exactly as ``windows`` chooses them;
    for those, the distance is evaluated at the nodes of the night's 10-minute track (on
    which ``windows`` interpolates the body linearly, so the distance's cosine is linear
-   between nodes) and the crossings solved between nodes.  The time lost is the measure of
-   the usable set inside the intervals too close to the body: differences of the same
-   cumulative measure.
-5. **The middle of the usable time** inverts the cumulative measure (closed form), or, for
-   the few targets that lose time to the Moon or the Sun, by bisection; the air mass there
-   comes from the ``windows`` evaluator.
+   between nodes) and the crossings solved between nodes.
+   For those targets the night's time intervals become their own (the night's less the
+   cuts), and the same closed form gives the usable time.
+5. **The middle of the usable time** inverts the cumulative measure (closed form: the
+   interval that holds half the usable time, then F⁻¹); the air mass there comes from the
+   ``windows`` evaluator.
+6. **Darkness** of a block of nights is one event search over their joined Sun track
+   (:func:`darkness`), the same search ``Night.dark_interval`` makes night by night.
 """
 
 from __future__ import annotations
@@ -37,14 +39,13 @@ import numpy as np
 from skyplan.engine import airmass as am
 from skyplan.engine import events, frames
 from skyplan.engine import night as night_mod
-from skyplan.engine.hourangleset import TWO_PI, HourAngleSet
-from skyplan.engine.limitintervals import distance_now, half_arc, profile_margin
+from skyplan.engine.hourangleset import HourAngleSet, gaps, wrap
+from skyplan.engine.limitintervals import distance_now, half_arc
+from skyplan.engine.seasonprofile import profile_set
 from skyplan.engine.sky import SIDEREAL_RATE, Sky
 from skyplan.inputs.limits import Limits
 from skyplan.targetdata import TargetSet
 
-PROFILE_STEP_RAD = np.radians(0.25)  # hour-angle step of the profile's samples (1 min)
-PROFILE_TOL_S = 0.01  # the profile's edges, refined to
 MOON_MOTION_DEG = 9.0  # as ``windows``: bodies closer than limit + this at midnight are sampled
 SUN_MOTION_DEG = 1.5
 
@@ -73,15 +74,6 @@ def fixed_block(targets: TargetSet, site, limits: Limits,
             alt, _, _ = sky.horizon(has, t_mid[has])
             x_mid[has, k] = am.airmass(alt, limits.airmass_model)
     return usable, x_mid
-
-
-def _threshold(limits: Limits) -> float:
-    """The apparent altitude the profile is compared with, as in ``windows``."""
-    threshold = limits.min_alt_deg
-    if limits.max_airmass is not None:
-        threshold = max(threshold, am.altitude_for_airmass(limits.max_airmass,
-                                                           limits.airmass_model))
-    return threshold
 
 
 def heights(sky: Sky, limits: Limits) -> dict:
@@ -116,117 +108,7 @@ def direction_set(sky: Sky, limits: Limits, profile: HourAngleSet,
     return out.intersect(profile)
 
 
-# ------------------------------------------------------------------ the horizon profile
-
-
-def _profile_decs(site, lat_deg: float, threshold: float) -> tuple[float, float]:
-    """The declinations that pass through the part of the sky where the profile stands
-    above ``threshold`` (apparent altitude), with half a degree to spare."""
-    prof = site.horizon
-    az = np.unique(np.concatenate([np.arange(0.0, 360.0, 0.1), prof.az_deg]))
-    top = prof.altitude_at(az)
-    az = az[top > threshold]
-    if len(az) == 0:
-        return 1.0, -1.0
-    f = np.linspace(0.0, 1.0, 24)[None, :]
-    alt = np.radians((threshold - 1.0) + f * (top[top > threshold][:, None] + 1.0
-                                              - (threshold - 1.0)))
-    phi, a = np.radians(lat_deg), np.radians(az)[:, None]
-    sin_dec = np.sin(phi) * np.sin(alt) + np.cos(phi) * np.cos(alt) * np.cos(a)
-    dec = np.degrees(np.arcsin(np.clip(sin_dec, -1.0, 1.0)))
-    return float(dec.min()) - 0.5, float(dec.max()) + 0.5
-
-
-def profile_set(sky: Sky, limits: Limits) -> HourAngleSet:
-    """The hour angles at which each target stands above the horizon profile (or the
-    altitude limits, whichever is higher), from the night of ``sky``."""
-    n = len(sky.ra)
-    prof = sky.site.horizon
-    threshold = _threshold(limits)
-    if not limits.use_horizon_profile or prof is None or float(np.max(prof.alt_deg)) <= threshold:
-        return HourAngleSet.whole(n)
-    lat = sky.site.lat_deg
-    dec_lo, dec_hi = _profile_decs(sky.site, lat, threshold)
-    d = np.degrees(sky.dec)
-    cand = np.flatnonzero((d >= dec_lo) & (d <= dec_hi))
-    a_lo = half_arc(lat, sky.dec[cand], sky.true_alt(threshold) - 0.2)
-    a_hi = half_arc(lat, sky.dec[cand], sky.true_alt(float(np.max(prof.alt_deg))) + 0.2)
-    keep = (a_lo >= 0) & (a_hi <= np.pi)  # reaches the band, and is not always above it
-    cand, a_lo, a_hi = cand[keep], np.minimum(a_lo[keep], np.pi), np.maximum(a_hi[keep], 0.0)
-    # two ranges of hour angle per target, where the altitude lies in the band
-    rows = np.concatenate([cand, cand])
-    lo = np.concatenate([-a_lo, a_hi])
-    hi = np.concatenate([-a_hi, a_lo])
-    bad_r, bad_lo, bad_hi = _profile_bad(sky, threshold, rows, lo, hi)
-    return _allowed(n, bad_r, bad_lo, bad_hi)
-
-
-def _profile_bad(sky: Sky, threshold: float, rows, lo, hi):
-    """Intervals of hour angle inside [lo, hi] (per entry) where the target is below the
-    profile: sampled every :data:`PROFILE_STEP_RAD` at most, edges refined by bisection on
-    the ``windows`` margin."""
-    margin = profile_margin(sky, threshold)
-    h_mid = _wrap(sky.era_local(sky.t_mid) - sky.ra)
-
-    def at(r, h):  # the instant of the night of ``sky`` with hour angle h
-        return sky.t_mid + (h - h_mid[r]) / SIDEREAL_RATE
-
-    counts = np.clip(np.ceil((hi - lo) / PROFILE_STEP_RAD), 4, 2048).astype(int)
-    counts = 2 ** np.ceil(np.log2(counts)).astype(int)
-    out_r, out_lo, out_hi = [np.zeros(0, np.int64)], [np.zeros(0)], [np.zeros(0)]
-    for size in np.unique(counts):  # a few sample counts, each vectorised over targets
-        sel = np.flatnonzero(counts == size)
-        r = rows[sel]
-        f = np.linspace(0.0, 1.0, size + 1)[None, :]
-        h = lo[sel][:, None] + f * (hi[sel] - lo[sel])[:, None]
-        ok = margin(np.repeat(r, size + 1), at(np.repeat(r, size + 1), h.ravel())) >= 0
-        ok = ok.reshape(len(sel), size + 1)
-        i, j = np.nonzero(ok[:, 1:] != ok[:, :-1])
-        up = ok[i, j + 1]
-        t = events.refine(margin, r[i], at(r[i], h[i, j]), at(r[i], h[i, j + 1]), up,
-                          tol_s=PROFILE_TOL_S)
-        x = h_mid[r[i]] + (t - sky.t_mid) * SIDEREAL_RATE
-        # bad intervals open at a start that is bad or where the margin turns negative
-        o_e = np.concatenate([np.flatnonzero(~ok[:, 0]), i[~up]])
-        o_t = np.concatenate([h[~ok[:, 0], 0], x[~up]])
-        c_e = np.concatenate([np.flatnonzero(~ok[:, -1]), i[up]])
-        c_t = np.concatenate([h[~ok[:, -1], -1], x[up]])
-        so, sc = np.lexsort((o_t, o_e)), np.lexsort((c_t, c_e))
-        out_r.append(r[o_e[so]])
-        out_lo.append(o_t[so])
-        out_hi.append(c_t[sc])
-    return np.concatenate(out_r), np.concatenate(out_lo), np.concatenate(out_hi)
-
-
-def _allowed(n: int, bad_r, bad_lo, bad_hi) -> HourAngleSet:
-    """The circle less the bad intervals of each row, as a packed set."""
-    return HourAngleSet(*_gaps(n, bad_r, bad_lo, bad_hi, -np.pi, np.pi)).packed()
-
-
-def _gaps(n: int, r, lo, hi, start: float, end: float) -> tuple[np.ndarray, np.ndarray]:
-    """Per row of ``n``, [start, end] less the row's intervals (disjoint, within
-    [start, end]): (n, width) arrays, zero-length padding."""
-    if len(r) == 0:
-        return np.full((n, 1), start), np.full((n, 1), end)
-    order = np.lexsort((lo, r))
-    r, lo, hi = r[order], lo[order], hi[order]
-    count = np.bincount(r, minlength=n)
-    first = np.concatenate([[0], np.cumsum(count)[:-1]])
-    pos = np.arange(len(r)) - first[r]
-    width = int(count.max()) + 1
-    p = np.full((n, width), end)
-    q = np.full((n, width), end)
-    p[:, 0] = start
-    q[r, pos] = lo  # each interval closes the gap before it
-    p[r, pos + 1] = hi  # and opens the next one
-    return p, np.maximum(q, p)
-
-
 # ------------------------------------------------------------------ one night
-
-
-def _wrap(x):
-    return (x + np.pi) % TWO_PI - np.pi
 
 
 def darkness(nights: list[night_mod.Night], sun_alts: list[float]) -> list[dict]:
@@ -335,7 +217,7 @@ def night_minutes(sky: Sky, limits: Limits, profile: HourAngleSet, heights: dict
     if not times:
         return seconds, t_mid
     aset = direction_set(sky, limits, profile, heights)
-    h_mid = _wrap(sky.era_local(sky.t_mid) - sky.ra)
+    h_mid = wrap(sky.era_local(sky.t_mid) - sky.ra)
     rows = np.arange(n)
     ts = np.broadcast_to(np.array([a for a, _ in times]), (n, len(times)))
     te = np.broadcast_to(np.array([b for _, b in times]), (n, len(times)))
@@ -354,7 +236,7 @@ def night_minutes(sky: Sky, limits: Limits, profile: HourAngleSet, heights: dict
         er, e0, e1 = er[e1 > e0], e0[e1 > e0], e1[e1 > e0]
         cut_rows = np.unique(er)
         slot = np.searchsorted(cut_rows, er)
-        gp, gq = _gaps(len(cut_rows), slot, e0, e1, times[0][0], times[-1][1])
+        gp, gq = gaps(len(cut_rows), slot, e0, e1, times[0][0], times[-1][1])
         cs, ce = np.array([a for a, _ in times]), np.array([b for _, b in times])
         # night's interval by night's interval, the gaps in order: increasing in time
         p = np.maximum(gp[:, None, :], cs[None, :, None]).reshape(len(cut_rows), -1)
