@@ -82,8 +82,8 @@ def profile_set(sky: Sky, limits: Limits) -> HourAngleSet:
 
 def _profile_bad(sky: Sky, low: float, rows, lo, hi):
     """Intervals of hour angle inside [lo, hi] (per entry) where the target is below the
-    profile: sampled every :data:`PROFILE_STEP_RAD` at most, edges refined by bisection on
-    the ``windows`` margin."""
+    profile: sampled every :data:`PROFILE_STEP_RAD` at most (:func:`_sampled_margin`),
+    edges refined by bisection on the ``windows`` margin."""
     margin = profile_margin(sky, low)
     h_mid = wrap(sky.era_local(sky.t_mid) - sky.ra)
 
@@ -98,8 +98,7 @@ def _profile_bad(sky: Sky, low: float, rows, lo, hi):
         r = rows[sel]
         f = np.linspace(0.0, 1.0, size + 1)[None, :]
         h = lo[sel][:, None] + f * (hi[sel] - lo[sel])[:, None]
-        ok = margin(np.repeat(r, size + 1), at(np.repeat(r, size + 1), h.ravel())) >= 0
-        ok = ok.reshape(len(sel), size + 1)
+        ok = _sampled_margin(sky, low, r, h) >= 0
         i, j = np.nonzero(ok[:, 1:] != ok[:, :-1])
         up = ok[i, j + 1]
         t = events.refine(margin, r[i], at(r[i], h[i, j]), at(r[i], h[i, j + 1]), up,
@@ -115,6 +114,20 @@ def _profile_bad(sky: Sky, low: float, rows, lo, hi):
         out_lo.append(o_t[so])
         out_hi.append(c_t[sc])
     return np.concatenate(out_r), np.concatenate(out_lo), np.concatenate(out_hi)
+
+
+def _sampled_margin(sky: Sky, low: float, rows, h) -> np.ndarray:
+    """The profile margin at hour angles ``h`` (rows × samples) for the sampling stage:
+    altitude and azimuth by spherical trigonometry (Meeus 1998, eqs. 13.5–13.6) without
+    polar motion and diurnal aberration (< 1″), then refraction as ``windows``."""
+    phi = np.radians(sky.site.lat_deg)
+    dec = sky.dec[rows][:, None]
+    sin_alt = np.sin(phi) * np.sin(dec) + np.cos(phi) * np.cos(dec) * np.cos(h)
+    alt = np.degrees(np.arcsin(np.clip(sin_alt, -1.0, 1.0)))
+    az = np.degrees(np.arctan2(-np.cos(dec) * np.sin(h),
+                               np.sin(dec) * np.cos(phi) - np.cos(dec) * np.cos(h) * np.sin(phi)))
+    top = sky.site.horizon.altitude_at(az % 360.0)
+    return alt + sky.refract(alt) - np.maximum(top, low)
 
 
 def _allowed(n: int, bad_r, bad_lo, bad_hi) -> HourAngleSet:
