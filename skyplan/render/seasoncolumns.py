@@ -62,12 +62,12 @@ def frame(season, a: int = 0, b: int | None = None, *, per_night: bool = False):
     cols["months"] = base.join(listed, on="row", how="left", maintain_order="left")[
         "months"].fill_null(pl.lit([], dtype=pl.List(pl.String)))
     out = pl.DataFrame([v.alias(k) for k, v in cols.items()])
-    if per_night:
-        long = night_frame(season, a, b, with_row=True)
-        nested = long.group_by("row", maintain_order=True).agg(
+    if per_night:  # every target has every night, in order: the long column cut in rows
+        long = night_frame(season, a, b, with_row=True).select(
             pl.struct("date", "usable_minutes", "airmass_mid", "moon_illumination")
-            .alias("nights"))
-        out = out.with_columns(nested["nights"])
+            .alias("nights")).to_series()
+        cut = long.reshape((n, len(season.dates)))
+        out = out.with_columns(cut.cast(pl.List(cut.dtype.inner)).alias("nights"))
     return out
 
 
@@ -83,14 +83,14 @@ def night_frame(season, a: int, b: int, *, with_row: bool = False):
     import polars as pl
 
     n, m = b - a, len(season.dates)
-    dates = np.array([d.isoformat() for d in season.dates], dtype=str)
+    dates = pl.Series([d.isoformat() for d in season.dates], dtype=pl.String)
     cols = {}
     if with_row:
         cols["row"] = pl.Series(np.repeat(np.arange(n, dtype="int64"), m))
-    else:
-        cols["name"] = pl.Series(np.repeat(np.asarray(season.names[a:b]).astype(str), m),
-                                 dtype=pl.String)
-    cols["date"] = pl.Series(np.tile(dates, n), dtype=pl.String)
+    else:  # each text built once, then repeated by index (in polars, not as Python text)
+        names = pl.Series(np.asarray(season.names[a:b]).astype(str), dtype=pl.String)
+        cols["name"] = names.gather(np.repeat(np.arange(n), m))
+    cols["date"] = dates.gather(np.tile(np.arange(m), n))
     cols["usable_minutes"] = _numbers(season.usable_min[a:b].ravel(), MINUTE_PLACES)
     cols["airmass_mid"] = _numbers(season.airmass_mid[a:b].ravel(), AIRMASS_PLACES)
     cols["moon_illumination"] = _numbers(np.tile(season.moon_illumination, n),
