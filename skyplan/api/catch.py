@@ -8,12 +8,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from skyplan.api.targets import Targets
+from skyplan.defaults import TIMED_BASELINE_MIN as BASELINE_MIN
+from skyplan.defaults import TIMED_MIN_COVERAGE as MIN_COVERAGE
 from skyplan.inputs.limits import Limits
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
 
-BASELINE_MIN = 60.0  # out-of-event time wanted on each side of an event, minutes
-MIN_COVERAGE = 0.5  # the part of an event that must be observable to list it
 NIGHTS = 30  # the default range: this many nights from the first
 MAX_NIGHTS = 400
 DEMO_TIMED = "timed.csv"  # the invented timed programme in catalogs-demo/

@@ -6,10 +6,14 @@ import typer
 
 from skyplan.cli import options as common
 from skyplan.cli import skyoptions as sky
+from skyplan.defaults import TIMED_BASELINE_MIN, TIMED_MIN_COVERAGE
 
 FROM_HELP = ("First night (local date of the evening, YYYY-MM-DD, 'today', 'tomorrow'); "
              "default today (with --demo, the demo date).")
 TO_HELP = "Last night, inclusive; default: 29 nights after the first."
+BASELINE_HELP = "Out-of-event minutes wanted before ingress and after egress."
+COVERAGE_HELP = ("The part of an event that must be observable to list it (0 to 1; 0: every "
+                 "event).")
 
 
 def register(app: typer.Typer) -> None:
@@ -22,11 +26,9 @@ def catch_cmd(
     site: str = common.SiteOpt,
     start: str = typer.Option(None, "--from", help=FROM_HELP),
     end: str = typer.Option(None, "--to", help=TO_HELP),
-    baseline: float = typer.Option(60.0, "--baseline", help="Out-of-event minutes wanted "
-                                   "before ingress and after egress."),
-    min_coverage: float = typer.Option(0.5, "--min-coverage", help="The part of an event "
-                                       "that must be observable to list it (0 to 1; 0: "
-                                       "every event)."),
+    baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=BASELINE_HELP),
+    min_coverage: float = typer.Option(TIMED_MIN_COVERAGE, "--min-coverage",
+                                       help=COVERAGE_HELP),
     min_alt: float = sky.MinAlt,
     max_alt: float | None = sky.MaxAlt,
     max_airmass: float = sky.MaxAirmass,

@@ -69,7 +69,7 @@ class CatchResult:
         return len(self.rows)
 
 
-def _pairs(win: Intervals, rec_rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> Intervals:
+def within(win: Intervals, rec_rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> Intervals:
     """The parts of each record's [a, b] inside the windows of its target (rows = record)."""
     first = np.searchsorted(win.rows, rec_rows, "left")
     count = np.searchsorted(win.rows, rec_rows, "right") - first
@@ -140,13 +140,13 @@ def catch(targets: TargetSet, eph: Ephemerides, site, dates: list[dt.date], limi
         end[here] = np.where(phase, np.clip(end[here], *res.span), end[here])
         mid[here] = np.where(phase, 0.5 * (start[here] + end[here]), mid[here])
         a, b = start[here], end[here]
-        inside = _pairs(res.windows, local, a, b)
+        inside = within(res.windows, local, a, b)
         seen = inside.measure(len(here))
         with np.errstate(invalid="ignore", divide="ignore"):
             coverage[here] = np.where(b > a, seen / (b - a), 0.0)
         event = occ.kind[here] == "event"
-        bef = _pairs(res.windows, local, a - baseline_s, a).measure(len(here))
-        aft = _pairs(res.windows, local, b, b + baseline_s).measure(len(here))
+        bef = within(res.windows, local, a - baseline_s, a).measure(len(here))
+        aft = within(res.windows, local, b, b + baseline_s).measure(len(here))
         before[here] = np.where(event, bef, np.nan)
         after[here] = np.where(event, aft, np.nan)
         longest = np.zeros(len(here))
