@@ -69,3 +69,19 @@ def test_bad_timing_exit_2(capsys, tmp_path):
     path.write_text("name,ra,dec,event_t0,period_d,duration_h\nA,10,20,2461000.5,0,2\n")
     code, _, err = run(capsys, "catch", str(path), "--site", "40,-3")
     assert code == 2 and f"{path}:2" in err and "period_d" in err
+
+
+def test_altitude_chart_shades_tonights_events(tmp_path, capsys):
+    """The demo night holds Corriemoor b's transit (epoch 203) among others: one hatched
+    band per event or fixed time, none for phase spans."""
+    import xml.etree.ElementTree as ET
+
+    path = tmp_path / "alt.svg"
+    from skyplan.inputs import scenario
+
+    code, _, err = run(capsys, "chart", "altitude", str(scenario.demo_path("timed.csv")),
+                       "--demo", "--out", str(path), "--top", "0")
+    assert code == 0, err
+    ids = {g.get("id") for g in ET.parse(path).getroot().iter("{http://www.w3.org/2000/svg}g")}
+    bands = {i for i in ids if i and i.startswith("event-")}
+    assert len(bands) == 5  # Tollgate Vale, Corriemoor b, Feldspar Reach b, two fixed times

@@ -111,7 +111,8 @@ def test_json_marks_the_timed_visits(made):
     jsonschema.validate(doc, schema)
     assert doc["schema"] == "skyplan.plan/2.2"
     timed = {o["name"]: o for o in doc["observations"] if o.get("timed")}
-    assert set(timed) == {"Corriemoor b", "Kestrel Relay", "Quarry Lamp"}
+    assert set(timed) == {"Corriemoor b", "Kestrel Relay", "Quarry Lamp", "Marrow Lantern"}
+    assert timed["Marrow Lantern"]["epoch_number"] == 63  # the phase span over the night
     assert timed["Corriemoor b"]["epoch_number"] == 203
     assert all("timed" not in o for o in doc["observations"] if o["name"] not in timed)
     placed = {o["name"] for o in doc["observations"]}

@@ -105,3 +105,23 @@ def catch(targets: Targets, site: Site, start=None, end=None, limits: Limits | N
                              lim, baseline_s=60.0 * baseline_min, min_coverage=min_coverage,
                              exposure_s=exposure[rows])
     return Catch(site, lim, res)
+
+
+def event_spans(targets: Targets, rows: np.ndarray, site: Site, night, lim: Limits) -> tuple:
+    """The events and fixed-time requests of the targets ``rows`` on ``night`` (an API
+    :class:`~skyplan.api.night.Night`) as ``(start, end, name)``, for the altitude chart;
+    empty without time-critical targets."""
+    timed = targets.timed
+    if timed is None or not timed.timed[rows].any():
+        return ()
+    from skyplan.engine import catch as catch_engine
+
+    rows = np.asarray(rows)[timed.timed[rows]]
+    exposure = np.where(np.isfinite(targets.exposure_s), targets.exposure_s,
+                        DEFAULT_EXPOSURE_S)
+    res = catch_engine.catch(targets.target_set.take(rows), timed.take(rows), site,
+                             [night.date], lim, baseline_s=0.0, min_coverage=0.0,
+                             exposure_s=exposure[rows])
+    shown = res.kind != "phase"  # a phase span may fill the night: its curve says enough
+    return tuple((float(a), float(b), str(name)) for a, b, name in
+                 zip(res.ingress[shown], res.egress[shown], res.names[shown], strict=True))

@@ -37,7 +37,7 @@ class Occurrences:
     mid: np.ndarray
     end: np.ndarray  # egress; the end of a phase span or of a fixed request
     mid_sigma_s: np.ndarray  # σ(Tₙ); NaN for fixed-time requests
-    need_s: np.ndarray  # the visit's length inside a fixed window (else the whole span)
+    need_s: np.ndarray  # an event's length; the exposure inside a phase span or fixed window
 
     def __len__(self) -> int:
         return len(self.rows)
@@ -89,8 +89,9 @@ def occurrences(eph: Ephemerides, ra_deg: np.ndarray, dec_deg: np.ndarray, site,
         end = barycentric.bjd_tdb_to_utc(site, b_bjd, ra, dec)
         centre = n + 0.5 * (lo_phase[which] + hi_phase[which])
         sigma = np.hypot(eph.t0_err_d[rows], centre * eph.period_err_d[rows]) * 86400.0
+        need = np.where(event[which], end - start, np.minimum(exposure_s[rows], end - start))
         parts.append((rows, eph.kind[rows], n.astype(float), start, 0.5 * (start + end), end,
-                      sigma, end - start))
+                      sigma, need))
     fixed = np.flatnonzero(eph.kind == "fixed")
     if fixed.size:
         start = eph.fixed_start[fixed]
