@@ -117,3 +117,25 @@ def test_json_marks_the_timed_visits(made):
     assert all("timed" not in o for o in doc["observations"] if o["name"] not in timed)
     placed = {o["name"] for o in doc["observations"]}
     assert doc["metrics"]["placed"] == len(placed)
+
+
+def test_replan_after_a_timed_visit_began(made):
+    """From 21:50 UTC: Tollgate Vale's eclipse (ingress 21:13 UTC) has begun and is passed;
+    Corriemoor b's transit (ingress 21:57 UTC) is still caught, its baseline before cut to
+    the start; Quarry Lamp's window (to 22:30 UTC) is then taken; nothing overlaps."""
+    import datetime as dt
+
+    site, targets, whole = made
+    start = dt.datetime(2026, 12, 18, 21, 50, tzinfo=dt.UTC).timestamp()
+    p = plan(targets, site, night(site, scenario.DEMO_DATE),
+             start=dt.datetime.fromtimestamp(start, dt.UTC))
+    reasons = {p.result.windows.names[i]: code for i, code, _ in p.result.not_placed}
+    assert reasons["Tollgate Vale"] == "passed"
+    assert reasons["Quarry Lamp"] == "timed_conflict"
+    was = [x for x in whole.result.visits if x.name == "Corriemoor b"][0]
+    now = [x for x in p.result.visits if x.name == "Corriemoor b"][0]
+    assert now.timed and now.end == was.end and now.epoch_number == 203
+    assert start < now.exposure_start < was.exposure_start + 3600.0  # before ingress
+    v = p.result.visits
+    assert all(x.start >= start - 1e-6 for x in v)
+    assert all(v[k].end <= v[k + 1].start + 1e-6 for k in range(len(v) - 1))

@@ -11,11 +11,13 @@ Method of Eastman, Siverd & Gaudi (2010, PASP 122, 935), eq. 1 and sect. 2–4:
   barycentre (ICRS; DE421 through skyfield, the site's geocentric offset included), ``n̂``
   the unit vector towards the target's catalogue place (ICRS).
 
-Left out, as Eastman et al. tabulate them: the Shapiro delay (at most about 20 µs away
-from the Sun's limb), the Einstein delay of the observer's clock beyond TDB − TT (µs), the
+Left out, among the terms Eastman et al. list: the Shapiro delay (tens of µs away from
+the Sun's limb; the size recalled from memory), the Einstein delay of the observer's clock
+beyond TDB − TT (µs), the
 curvature of the wavefront (targets here are infinitely far), and the target's proper
 motion since its catalogue epoch (2.4 ms per arcsecond of motion at most).  The agreement
-with astropy's ``Time.light_travel_time`` is a few milliseconds (tests/test_barycentric.py);
+with astropy's ``Time.light_travel_time`` is below 0.1 ms (0.04 ms at most over 500 random
+directions and dates, 2000–2024; tests/test_barycentric.py);
 the accuracy is set by the target's place: 1″ of error moves the time by up to 2.4 ms.
 
 HJD (as usually published, on the UTC scale) is JD_UTC + r_☉ · n̂ / c with ``r_☉`` the

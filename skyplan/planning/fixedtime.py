@@ -62,9 +62,9 @@ def _best_placement(res, rows, s, e, need):
 
 
 def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.ndarray,
-                 lead_s: float, baseline_s: float) -> TimedVisits:
+                 lead_s: float, baseline_s: float, after: float = -np.inf) -> TimedVisits:
     """Tonight's time-critical visits (see the module docstring); ``lead_s`` is kept free
-    before each (setup and slew)."""
+    before each (setup and slew); nothing starts before ``after`` (a re-plan's start)."""
     night = res.night
     occ = timedevents.occurrences(timed, res.ra_deg, res.dec_deg, res.sky.site,
                                   night.span_start, night.span_end, exposure_s)
@@ -75,7 +75,7 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
     exact = event | ((occ.kind == "fixed") & ~np.isfinite(timed.fixed_end[occ.rows]))
     lo = np.where(event, occ.start - baseline_s, occ.start)
     hi = np.where(event, occ.end + baseline_s, occ.end)
-    parts = within(res.windows, occ.rows, lo, hi)
+    parts = within(res.windows.clip(after, np.inf), occ.rows, lo, hi)
     p = parts.rows
     core_a = np.where(exact[p], occ.start[p], parts.start)
     core_b = np.where(exact[p], occ.end[p], parts.end)
@@ -139,6 +139,9 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
             refused[i] = ("no_event_tonight", "no event, phase span or fixed time tonight")
             continue
         j = mine[0]
+        if exact[j] and occ.start[j] < after:
+            refused[i] = ("passed", "its time-critical visit begins before the start")
+            continue
         span = f"{_hhmm(occ.start[j], zone)}–{_hhmm(occ.end[j], zone)}"
         what = {"event": f"its event {span} (epoch {int(occ.epoch[j])}) is not wholly "
                 "inside a window", "phase": f"its phase span {span} holds no window long "
@@ -189,12 +192,17 @@ def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
     exp = np.where(np.isfinite(exposure_s), exposure_s, overheads.default_exposure_s)
     slew = 180.0 / min(overheads.slew_az_deg_s, overheads.slew_alt_deg_s)
     lead = overheads.setup_s + overheads.settle_s + slew
-    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN)
+    after = -np.inf if rest is None or rest.start_unix is None else \
+        rest.start_unix + overheads.setup_s
+    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN, after)
     if rest is not None:  # re-planning: nothing before the start, nothing done again
         start = -np.inf if rest.start_unix is None else rest.start_unix
         live = (tv.start - overheads.setup_s >= start) & (rest.done[tv.rows] == 0)
-        tv = dataclasses.replace(tv, rows=tv.rows[live], start=tv.start[live],
-                                 end=tv.end[live], epoch=tv.epoch[live])
+        refused = dict(tv.refused)
+        for i in sorted(set(tv.rows[~live].tolist()) - set(tv.rows[live].tolist())):
+            refused[i] = (("done", "done already") if rest.done[i] > 0 else
+                          ("passed", "its time-critical visit begins before the start"))
+        tv = TimedVisits(tv.rows[live], tv.start[live], tv.end[live], tv.epoch[live], refused)
     trimmed = dataclasses.replace(res, windows=_without(res.windows, np.flatnonzero(
         timed.timed), tv.start - lead, tv.end))
     try:
