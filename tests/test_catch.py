@@ -234,3 +234,17 @@ def test_no_timed_target_is_an_error(tmp_path):
     path.write_text("name,ra,dec\nA,1,2\n")
     with pytest.raises(InputError, match="no time-critical target"):
         catch(read_targets(str(path)), SITE, FIRST, LAST)
+
+
+def test_api_records_and_table(caught):
+    """``skyplan.catch`` as exported: records with the issue's keys, a table of equal length."""
+    import skyplan
+
+    targets, _ = caught
+    lim = limits(SITE, min_alt=25.0, dark="astronomical", sun_gap=0.0, moon_gap=0.0)
+    result = skyplan.catch(targets, SITE, FIRST, LAST, lim, min_coverage=0.0)
+    records = result.to_records()
+    table = result.to_table()
+    assert len(records) == len(table) == len(result) > 0
+    assert records[0]["ingress"].endswith("Z") and "epoch_number" in records[0]
+    assert table["coverage"].min() >= 0.0 and table["coverage"].max() <= 1.0
