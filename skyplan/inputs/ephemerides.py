@@ -121,7 +121,7 @@ def read_ephemerides(catalog, *, skip_bad: bool = False) -> tuple[Ephemerides, n
                 "phase_max"):
         note(given[key] & ~t0, key, f"{key} needs event_t0 in the same row")
     if "event_t0_scale" in raw:
-        written = np.array([bool(str(v).strip()) for v in raw["event_t0_scale"]], dtype=bool)
+        written = _texts(raw["event_t0_scale"]) != ""
         note(written & ~t0, "event_t0_scale", "event_t0_scale needs event_t0 in the same row")
     note(t0 & ~given["period_d"], "period_d", "event_t0 needs period_d (days)")
     phase = given["phase_min"] | given["phase_max"]
@@ -196,20 +196,22 @@ def _parse_number(key: str, ok, rule: str):
     return parse_one
 
 
+def _texts(values) -> np.ndarray:
+    """A column as stripped text (numpy strings), vectorised."""
+    return np.char.strip(np.asarray(values).astype(str))
+
+
 def _scales(values, n: int, note) -> np.ndarray:
     """The time scale of each row's ``event_t0`` (empty: ``bjd_tdb``)."""
     out = np.full(n, "bjd_tdb", dtype=object)
     if values is None:
         return out
-    for i, value in enumerate(values):
-        text = str(value).strip().lower()
-        if not text:
-            continue
-        if text not in SCALES:
-            note([i], "event_t0_scale", f"unknown time scale {str(value)[:20]!r}; use "
-                 f"{', '.join(SCALES)}")
-        else:
-            out[i] = text
+    text = np.char.lower(_texts(values))
+    known = np.isin(text, SCALES)
+    out[known] = text[known]
+    for i in np.flatnonzero(~known & (text != "")).tolist():
+        note([i], "event_t0_scale", f"unknown time scale {str(values[i])[:20]!r}; use "
+             f"{', '.join(SCALES)}")
     return out
 
 
@@ -230,16 +232,14 @@ def parse_utc_instant(text: str) -> float:
 def _fixed(raw: dict, n: int, note) -> tuple[np.ndarray, np.ndarray]:
     """Start and end (POSIX seconds, NaN where not given) of the fixed-time requests."""
     start, end = np.full(n, np.nan), np.full(n, np.nan)
-    for i, value in enumerate(raw.get("fixed_start", ())):
-        if str(value).strip():
-            try:
-                start[i] = parse_utc_instant(str(value))
-            except ValueError as exc:
-                note([i], "fixed_start", str(exc))
-    for i, value in enumerate(raw.get("fixed_window", ())):
-        text = str(value).strip()
-        if not text:
-            continue
+    given = {key: _texts(raw[key]) for key in ("fixed_start", "fixed_window") if key in raw}
+    for i in np.flatnonzero(given.get("fixed_start", np.zeros(0, str)) != "").tolist():
+        try:
+            start[i] = parse_utc_instant(str(given["fixed_start"][i]))
+        except ValueError as exc:
+            note([i], "fixed_start", str(exc))
+    for i in np.flatnonzero(given.get("fixed_window", np.zeros(0, str)) != "").tolist():
+        text = str(given["fixed_window"][i])
         if np.isfinite(start[i]):
             note([i], "fixed_window", "give fixed_start or fixed_window, not both")
             continue
