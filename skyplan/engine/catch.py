@@ -42,7 +42,7 @@ class CatchResult:
     """One entry per occurrence that can be caught (arrays), in time order."""
 
     names: np.ndarray
-    rows: np.ndarray  # the target's index in the catalogue's targets
+    rows: np.ndarray  # the target's index in the ``targets`` given
     kind: np.ndarray  # "event", "phase", "fixed"
     night: np.ndarray  # the local date (datetime.date) of the night
     epoch: np.ndarray  # float, NaN for fixed-time requests
@@ -166,6 +166,7 @@ def catch(targets: TargetSet, eph: Ephemerides, site, dates: list[dt.date], limi
         chosen = (occ.kind == "fixed") | ((coverage >= min_coverage) & (coverage > 0))
     chosen &= end > start  # a phase span may lie wholly in daylight
     pick = np.flatnonzero(chosen)
+    pick = pick[np.lexsort((start[pick], which[pick]))]  # by night, then by ingress
     spans = Intervals.empty()
     if span_parts:
         allspans = Intervals(*(np.concatenate([getattr(p, f) for p in span_parts])

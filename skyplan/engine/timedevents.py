@@ -2,8 +2,8 @@
 
 For a periodic target with mid-time T₀ (BJD_TDB) and period P the n-th event is centred
 on Tₙ = T₀ + n·P (a linear ephemeris), with the uncertainty propagated from the ephemeris,
-σ(Tₙ)² = σ(T₀)² + n²σ(P)² (uncorrelated T₀ and P; e.g. Kokori et al. 2022, ApJS 258, 40,
-eq. 3).  Tₙ is turned into UTC for the target's direction by
+σ(Tₙ)² = σ(T₀)² + n²σ(P)² (first-order propagation of errors, T₀ and P taken as
+uncorrelated).  Tₙ is turned into UTC for the target's direction by
 :func:`skyplan.engine.barycentric.bjd_tdb_to_utc`, and so are ingress and egress, Tₙ ∓ D/2
 (the rate of BJD_TDB against UTC differs from 1 by at most 1e-4: 1 s over 3 hours).
 
