@@ -31,6 +31,8 @@ _HOMES = {
     "Windows": "skyplan.api.windows",
     "season": "skyplan.api.season",
     "Season": "skyplan.api.season",
+    "catch": "skyplan.api.catch",
+    "Catch": "skyplan.api.catch",
     "plan": "skyplan.api.plan",
     "plan_settings": "skyplan.api.plan",
     "Plan": "skyplan.api.plan",

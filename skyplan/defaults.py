@@ -31,3 +31,8 @@ REFRACTION_MODEL = "bennett"  # Bennett (1982) / Sæmundsson (1986)
 EPHEMERIS_NAME = "DE421"
 EPHEMERIS_FIRST = "1900-01-01"
 EPHEMERIS_LAST = "2053-10-01"
+
+# Time-critical targets (``catch``, and ``plan`` around them): out-of-event time wanted on
+# each side of an event, and the part of an event that must be observable to list it
+TIMED_BASELINE_MIN = 60.0  # common practice for transit photometry: an hour either side
+TIMED_MIN_COVERAGE = 0.5

@@ -3,7 +3,7 @@ files read back (their targets placed in ICRS by the engine)."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -115,8 +115,11 @@ def altitude_scene(site: Site, night: Night, targets: Targets, limits: Limits | 
     if rows.size == 0:
         notices.add(f"no target has a window on the night of {night.date.isoformat()}: "
                     "the chart shows the Moon and twilight only")
-    return chartdata.altitude_scene(site, night.engine_night, chartdata.subset(tset, rows),
-                                    lim, orbits=targets.orbits)
+    scene = chartdata.altitude_scene(site, night.engine_night, chartdata.subset(tset, rows),
+                                     lim, orbits=targets.orbits)
+    from skyplan.api.catch import event_spans
+
+    return replace(scene, event_spans=event_spans(targets, rows, site, night, lim))
 
 
 def _planned_rows(priority, top: int | None) -> np.ndarray:

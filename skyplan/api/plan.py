@@ -163,7 +163,7 @@ def plan(targets: Targets, site: Site, night: Night, limits: Limits | None = Non
     attribute is then the plan without visits for that night (every target explained).
     """
     from skyplan.errors import NothingObservable
-    from skyplan.planning import build, emptynight
+    from skyplan.planning import emptynight, fixedtime
 
     chosen = settings if settings is not None else plan_settings(**options)
     if computed is None:
@@ -171,8 +171,9 @@ def plan(targets: Targets, site: Site, night: Night, limits: Limits | None = Non
     res = computed.result
     rest = rest_of_night(res.names, site, night, start, done)
     try:
-        made = build.make_night_plan(res, targets.priority, targets.exposure_s,
-                                     chosen.overheads, chosen.options, rest=rest)
+        made = fixedtime.make_timed_plan(res, targets.priority, targets.exposure_s,
+                                         chosen.overheads, chosen.options, rest=rest,
+                                         timed=targets.timed)
     except NothingObservable as exc:
         exc.plan = Plan(site, night, emptynight.empty_night_plan(
             res, targets.priority, chosen.overheads, chosen.options, rest), rest)

@@ -24,6 +24,7 @@ class Targets:
     exposure_s: np.ndarray = field(repr=False)
     orbits: tuple = field(default=(), repr=False)
     source: str = ""
+    timed: object = field(default=None, repr=False)  # skyplan.inputs.ephemerides.Ephemerides
 
     def __len__(self) -> int:
         return len(self.target_set.names)
@@ -91,7 +92,10 @@ def read_targets(path: str | Path | None = None, *, skip_bad_rows: bool = False,
     source = read.source
     cat, tset = target_input.catalog_targets(read, orbits=orbits, source=source,
                                              skip_bad=skip_bad_rows)
-    return Targets(tset, cat.priority, cat.exposure_s, orbits, source)
+    from skyplan.inputs.ephemerides import with_timing
+
+    cat, tset, timed = with_timing(cat, tset, skip_bad=skip_bad_rows)
+    return Targets(tset, cat.priority, cat.exposure_s, orbits, source, timed)
 
 
 @as_warnings

@@ -36,6 +36,7 @@ COMMANDS = (
     ("night", "skyplan.cli.night"),
     ("windows", "skyplan.cli.windows"),
     ("season", "skyplan.cli.season"),
+    ("catch", "skyplan.cli.catch"),
     ("plan", "skyplan.cli.plan"),
     ("next", "skyplan.cli.nextvisit"),
     ("chart", "skyplan.cli.charts"),

@@ -256,6 +256,7 @@ class AltitudeScene:
     max_airmass: float | None = None
     moon_alt_deg: np.ndarray | None = None
     visits: tuple[Visit, ...] = ()
+    event_spans: tuple[tuple[float, float, str], ...] = ()  # (start, end, label): shaded
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "time_unix", _float_array(self.time_unix, "time_unix"))

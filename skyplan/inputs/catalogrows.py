@@ -31,6 +31,8 @@ DEFAULT_EPOCH_JYEAR = 2000.0
 RA_HOURS_MIN_ROWS = 3  # fewer RAs never raise the "RA looks like hours" notice
 _SEXAGESIMAL_MARK = re.compile(r"[^0-9.eE+\-\n]")  # in RA text: not a plain decimal
 
+TIMED_FIELDS = ("event_t0", "event_t0_scale", "period_d", "duration_h", "event_t0_err_d",
+                "period_err_d", "phase_min", "phase_max", "fixed_start", "fixed_window")
 _ALIASES: dict[str, tuple[str, ...]] = {
     "name": ("name", "target"),
     "ra_deg": ("ra", "ra_deg"),
@@ -43,10 +45,11 @@ _ALIASES: dict[str, tuple[str, ...]] = {
     "priority": ("priority",),
     "exposure_s": ("exposure", "exp", "exposure_s"),
     "notes": ("notes", "note"),
+    **{key: (key,) for key in TIMED_FIELDS},  # parsed by skyplan.inputs.ephemerides
 }
 _FIELD_OF_HEADER = {alias: key for key, aliases in _ALIASES.items() for alias in aliases}
 _REQUIRED = ("name", "ra_deg", "dec_deg")
-TEXT_FIELDS = ("name", "notes")
+TEXT_FIELDS = ("name", "notes", "event_t0_scale", "fixed_start", "fixed_window")
 
 # Characters that must not reach a terminal inside a name or note: C0/C1 controls (newline
 # and tab included), line/paragraph separators and bidirectional overrides.
@@ -299,6 +302,7 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
         notes=notes_text,
         line=np.asarray(columns.where, dtype=np.int64),
         source=columns.source,
+        timed={key: _raw(columns, key) for key in TIMED_FIELDS if key in columns.values},
     )
     if not keep.all():
         catalog = catalog.subset(np.flatnonzero(keep))
@@ -307,6 +311,15 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
     if len(set(names_kept)) < len(names_kept):
         duplicates = [name for name, count in Counter(names_kept).items() if count > 1]
     return CatalogRead(catalog, skipped, duplicates, list(columns.ignored))
+
+
+def _raw(columns: Columns, key: str) -> np.ndarray:
+    """A column as read (numbers where the reader made them, else text), one entry a row."""
+    if key in columns.decimals:
+        return columns.decimals[key]
+    values = columns.values[key]
+    texts = values.texts() if isinstance(values, delimited.Cells) else list(values)
+    return np.asarray(texts, dtype=object)
 
 
 def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object], plain: bool) -> bool:

@@ -53,6 +53,7 @@ class Catalog:
     notes: np.ndarray  # object array of str
     line: np.ndarray  # int64
     source: str = ""
+    timed: dict[str, np.ndarray] = field(default_factory=dict)  # ephemeris columns, raw
 
     def __post_init__(self) -> None:
         lengths = {f: len(getattr(self, f)) for f in _ARRAY_FIELDS}
@@ -69,7 +70,8 @@ class Catalog:
             raise ValueError("subset needs a one-dimensional index or mask")
         if picked.size == 0:
             picked = picked.astype(np.intp)
-        return Catalog(**{f: getattr(self, f)[picked] for f in _ARRAY_FIELDS}, source=self.source)
+        return Catalog(**{f: getattr(self, f)[picked] for f in _ARRAY_FIELDS}, source=self.source,
+                       timed={k: v[picked] for k, v in self.timed.items()})
 
     @property
     def needs_lookup(self) -> np.ndarray:

@@ -67,6 +67,8 @@ class PlannedVisit:
     field_rotation_deg_per_min: float  # alt-azimuth mount, at mid-exposure
     sun_distance_deg: float
     pier_side: str  # of a German equatorial mount: "east" while the target is west of the meridian
+    timed: bool = False  # a time-critical visit, placed at its time (planning/fixedtime.py)
+    epoch_number: int | None = None  # the event's epoch of a timed visit (None: fixed time)
 
 
 @dataclass(frozen=True)

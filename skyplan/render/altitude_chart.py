@@ -99,6 +99,15 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         handles.append(Patch(facecolor=BAND[state], edgecolor=GRID, linewidth=0.5))
         texts.append(TWILIGHT_STATES[state])
 
+    for k, (a, b, label) in enumerate(scene.event_spans):  # time-critical: hatched bands
+        ax.axvspan(a, b, facecolor="none", edgecolor=INK, hatch="//", linewidth=0.0,
+                   alpha=0.3, zorder=2, gid=f"event-{k}")
+        ax.text(0.5 * (a + b), 89.0 - 3.5 * (k % 3), _shorten(label, 18), ha="center",
+                va="top", fontsize=0.7 * base, color=INK, zorder=6)
+    if scene.event_spans:
+        handles.append(Patch(facecolor="none", edgecolor=INK, hatch="//", linewidth=0.5))
+        texts.append("event (ingress to egress)")
+
     ax2 = ax.secondary_yaxis("right", functions=(_airmass_of_alt, _alt_of_airmass))
     ax2.set_yticks([1.0, 1.1, 1.2, 1.5, 2.0, 3.0, 5.0])
     ax2.set_yticklabels(["1.0", "1.1", "1.2", "1.5", "2", "3", "5"])

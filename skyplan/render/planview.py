@@ -10,7 +10,7 @@ from skyplan.inputs.timeinput import iso_utc
 from skyplan.render.tables import Sheet, site_record
 from skyplan.render.windowview import hhmm as _hhmm
 
-SCHEMA = "skyplan.plan/2.1"
+SCHEMA = "skyplan.plan/2.2"
 SAFETY_LINES = ("Advice only: the telescope's own limits, interlocks and the site's rules come "
                 "first.", "Never point unfiltered optics at or near the Sun.")
 SAFETY = " ".join(SAFETY_LINES)
@@ -43,6 +43,7 @@ def visit_record(v, pier_side: bool = False) -> dict:
         "parallactic_end_deg": round(v.parallactic_end_deg, 3),
         "field_rotation_deg_per_min": round(v.field_rotation_deg_per_min, 4),
         "sun_distance_deg": round(v.sun_distance_deg, 2), **pier,
+        **({"timed": True, "epoch_number": v.epoch_number} if v.timed else {}),
     }
 
 

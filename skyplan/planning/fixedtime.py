@@ -1,0 +1,253 @@
+"""Plans built around time-critical visits: placed first, at their times, then the rest.
+
+For each time-critical target of the catalogue (:mod:`skyplan.inputs.ephemerides`) the
+night's occurrences come from :mod:`skyplan.engine.timedevents`, and each becomes one visit:
+
+* an event (transit, eclipse): ingress − B .. egress + B, B the baseline
+  (:data:`skyplan.defaults.TIMED_BASELINE_MIN`); ingress..egress must lie in one window of
+  the target (every limit holds), and the baselines are cut to that window;
+* a ``fixed_start`` request: its start and its exposure, which must lie in one window;
+* a ``fixed_window`` request or a phase span: one exposure inside it and inside a window,
+  placed where the target stands highest (a window's edge, or its transit).
+
+Overlapping time-critical visits go by priority (then the earlier).  The visits taken block
+their time, with the setup and a slew's allowance before them, and the night's other targets
+are planned in what is left by the usual objective (:func:`skyplan.planning.build.make_night_plan`);
+the time-critical targets are not planned again there.  Every time-critical target that got
+no visit is listed with why.  Loops run over tonight's few occurrences, never the catalogue.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+from types import SimpleNamespace
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+from skyplan.defaults import TIMED_BASELINE_MIN
+from skyplan.engine import timedevents
+from skyplan.engine.catch import within
+from skyplan.engine.intervals import Intervals, complement, intersect
+from skyplan.errors import NothingObservable
+from skyplan.inputs.ephemerides import Ephemerides
+from skyplan.planning import build, emptynight, model, replan
+
+FIT_TOL_S = 1.0  # window edges are found to 0.5 s
+
+
+@dataclasses.dataclass(frozen=True)
+class TimedVisits:
+    """The time-critical visits taken tonight and the targets that got none."""
+
+    rows: np.ndarray  # target of each visit
+    start: np.ndarray  # exposure start (POSIX s)
+    end: np.ndarray
+    epoch: np.ndarray  # NaN for fixed-time requests
+    refused: dict[int, tuple[str, str]]  # target -> (reason code, explanation)
+
+
+def _best_placement(res, rows, s, e, need):
+    """For each span [s, e] at least ``need`` long: the start giving the highest altitude at
+    mid-exposure among the span's two ends and the target's transit."""
+    latest = e - need
+    cands = np.stack([s, latest, np.clip(res.transit[rows] - need / 2, s, latest)], axis=1)
+    cands = np.where(np.isfinite(cands), cands, s[:, None])
+    alt, _, _ = res.sky.horizon(np.repeat(rows, 3), (cands + need[:, None] / 2).ravel())
+    alt = alt.reshape(-1, 3)
+    pick = np.argmax(alt, axis=1)
+    at = np.arange(len(rows))
+    return cands[at, pick], alt[at, pick]
+
+
+def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.ndarray,
+                 lead_s: float, baseline_s: float, after: float = -np.inf) -> TimedVisits:
+    """Tonight's time-critical visits (see the module docstring); ``lead_s`` is kept free
+    before each (setup and slew); nothing starts before ``after`` (a re-plan's start)."""
+    night = res.night
+    occ = timedevents.occurrences(timed, res.ra_deg, res.dec_deg, res.sky.site,
+                                  night.span_start, night.span_end, exposure_s)
+    tonight = (occ.mid >= night.span_start) & (occ.mid < night.span_end)
+    tonight |= occ.kind == "phase"
+    occ = occ.take(np.flatnonzero(tonight))
+    event = occ.kind == "event"
+    exact = event | ((occ.kind == "fixed") & ~np.isfinite(timed.fixed_end[occ.rows]))
+    lo = np.where(event, occ.start - baseline_s, occ.start)
+    hi = np.where(event, occ.end + baseline_s, occ.end)
+    parts = within(res.windows.clip(after, np.inf), occ.rows, lo, hi)
+    p = parts.rows
+    core_a = np.where(exact[p], occ.start[p], parts.start)
+    core_b = np.where(exact[p], occ.end[p], parts.end)
+    holds = np.where(exact[p], (parts.start <= core_a + FIT_TOL_S)
+                     & (parts.end >= core_b - FIT_TOL_S),
+                     parts.end - parts.start >= occ.need_s[p] - FIT_TOL_S)
+    p, a, b = p[holds], parts.start[holds], parts.end[holds]
+    fixed_start = exact[p] & ~event[p]
+    a = np.where(fixed_start, np.maximum(a, occ.start[p]), a)
+    b = np.where(fixed_start, np.minimum(b, occ.end[p]), b)
+
+    # the exact visits first, by priority; then each windowed one in the time left
+    busy_a: list[float] = []
+    busy_b: list[float] = []
+    chosen: list[tuple[int, float, float]] = []  # (occurrence, start, end)
+    refused: dict[int, tuple[str, str]] = {}
+    pr = np.asarray(priority)[occ.rows]
+    for q in np.lexsort((occ.start, -pr, ~exact)).tolist():  # tonight's few occurrences
+        mine = np.flatnonzero(p == q)
+        if mine.size == 0:
+            continue
+        if exact[q]:
+            k = mine[0]
+            clash = [j for j in range(len(busy_a)) if a[k] - lead_s < busy_b[j]
+                     and busy_a[j] - lead_s < b[k]]
+            if not clash:
+                chosen.append((q, float(a[k]), float(b[k])))
+                busy_a.append(float(a[k]))
+                busy_b.append(float(b[k]))
+                continue
+            other = str(res.names[occ.rows[chosen[clash[0]][0]]])
+        else:
+            free = _free(a[mine], b[mine], np.array(busy_a) - lead_s, np.array(busy_b) + lead_s)
+            need = occ.need_s[q]
+            free = free[free[:, 1] - free[:, 0] >= need - FIT_TOL_S]
+            if len(free):
+                rows_q = np.full(len(free), occ.rows[q])
+                start, alt = _best_placement(res, rows_q, free[:, 0], free[:, 1],
+                                             np.full(len(free), need))
+                best = int(np.argmax(alt))
+                chosen.append((q, float(start[best]), float(start[best] + need)))
+                busy_a.append(float(start[best]))
+                busy_b.append(float(start[best] + need))
+                continue
+            other = "others"
+        refused.setdefault(int(occ.rows[q]), (
+            "timed_conflict", f"overlaps the time-critical visit of {other}" if other !=
+            "others" else "its usable time is taken by other time-critical visits"))
+    chosen.sort(key=lambda c: c[1])
+    q_taken = np.array([c[0] for c in chosen], dtype=np.int64)
+    rows = occ.rows[q_taken]
+    a = np.array([c[1] for c in chosen])
+    b = np.array([c[2] for c in chosen])
+    got = set(rows.tolist())
+    zone = ZoneInfo(night.zone)
+    for i in np.flatnonzero(timed.timed).tolist():
+        if i in got or i in refused:
+            continue
+        mine = np.flatnonzero(occ.rows == i)
+        if mine.size == 0:
+            refused[i] = ("no_event_tonight", "no event, phase span or fixed time tonight")
+            continue
+        j = mine[0]
+        if exact[j] and occ.start[j] < after:
+            refused[i] = ("passed", "its time-critical visit begins before the start")
+            continue
+        span = f"{_hhmm(occ.start[j], zone)}–{_hhmm(occ.end[j], zone)}"
+        what = {"event": f"its event {span} (epoch {int(occ.epoch[j])}) is not wholly "
+                "inside a window", "phase": f"its phase span {span} holds no window long "
+                "enough for one exposure"}.get(occ.kind[j], f"its time {span} is not "
+                                               "observable under the limits")
+        refused[i] = ("timed_not_observable", what)
+    return TimedVisits(rows, a, b, occ.epoch[q_taken], refused)
+
+
+def _free(a: np.ndarray, b: np.ndarray, busy_a: np.ndarray, busy_b: np.ndarray) -> np.ndarray:
+    """The parts of the spans [a, b] outside every busy span, as (k, 2) rows."""
+    spans = Intervals.build(np.zeros(len(a), np.int64), a, b)
+    if len(busy_a):
+        lo, hi = float(min(a.min(), busy_a.min())) - 1.0, float(max(b.max(), busy_b.max())) + 1.0
+        spans = intersect(spans, complement(Intervals.build(
+            np.zeros(len(busy_a), np.int64), busy_a, busy_b), np.zeros(1), lo, hi))
+    return np.stack([spans.start, spans.end], axis=1)
+
+
+def _hhmm(unix: float, zone) -> str:
+    return dt.datetime.fromtimestamp(float(unix), zone).strftime("%H:%M")
+
+
+def _without(windows: Intervals, rows_out: np.ndarray, busy_a, busy_b) -> Intervals:
+    """The windows with the rows ``rows_out`` removed and the busy spans cut out."""
+    mask = np.ones(int(windows.rows.max(initial=-1)) + 1, dtype=bool)
+    mask[rows_out[rows_out < mask.size]] = False
+    w = windows.take_rows(mask) if len(windows) else windows
+    if len(busy_a) == 0 or len(w) == 0:
+        return w
+    lo = float(min(w.start.min(), np.min(busy_a))) - 1.0
+    hi = float(max(w.end.max(), np.max(busy_b))) + 1.0
+    free = complement(Intervals.build(np.zeros(len(busy_a), np.int64), busy_a, busy_b),
+                      np.zeros(1), lo, hi)
+    rows = np.unique(w.rows)
+    return intersect(w, Intervals(np.repeat(rows, len(free)), np.tile(free.start, rows.size),
+                                  np.tile(free.end, rows.size)))
+
+
+def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
+                    overheads: build.Overheads, options: model.PlanOptions, *,
+                    rest: replan.Progress | None = None,
+                    timed: Ephemerides | None = None) -> build.NightPlan:
+    """:func:`skyplan.planning.build.make_night_plan` with the time-critical visits of
+    ``timed`` placed first (the module docstring); the same plan when nothing is timed."""
+    if timed is None or not timed.timed.any():
+        return build.make_night_plan(res, priority, exposure_s, overheads, options, rest=rest)
+    exp = np.where(np.isfinite(exposure_s), exposure_s, overheads.default_exposure_s)
+    slew = 180.0 / min(overheads.slew_az_deg_s, overheads.slew_alt_deg_s)
+    lead = overheads.setup_s + overheads.settle_s + slew
+    after = -np.inf if rest is None or rest.start_unix is None else \
+        rest.start_unix + overheads.setup_s
+    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN, after)
+    if rest is not None:  # re-planning: nothing before the start, nothing done again
+        start = -np.inf if rest.start_unix is None else rest.start_unix
+        live = (tv.start - overheads.setup_s >= start) & (rest.done[tv.rows] == 0)
+        refused = dict(tv.refused)
+        for i in sorted(set(tv.rows[~live].tolist()) - set(tv.rows[live].tolist())):
+            refused[i] = (("done", "done already") if rest.done[i] > 0 else
+                          ("passed", "its time-critical visit begins before the start"))
+        tv = TimedVisits(tv.rows[live], tv.start[live], tv.end[live], tv.epoch[live], refused)
+    trimmed = dataclasses.replace(res, windows=_without(res.windows, np.flatnonzero(
+        timed.timed), tv.start - lead, tv.end))
+    try:
+        made = build.make_night_plan(trimmed, priority, exposure_s, overheads, options,
+                                     rest=rest)
+    except NothingObservable:
+        if len(tv.rows) == 0:
+            raise
+        made = emptynight.empty_night_plan(trimmed, priority, overheads, options, rest)
+    timed_rows = set(np.flatnonzero(timed.timed).tolist())
+    had = set(np.unique(res.windows.rows).tolist())
+    has = set(np.unique(trimmed.windows.rows).tolist())
+    missing = []
+    for i, code, text in made.not_placed:
+        if i in timed_rows:
+            continue
+        if i in had and i not in has and code not in ("done", "passed"):
+            code, text = "taken_by_timed", "its windows are taken by time-critical visits"
+        missing.append((i, code, text))
+    missing += [(i, code, text) for i, (code, text) in tv.refused.items()]
+    missing.sort(key=lambda m: (-int(priority[m[0]]), m[0]))
+    visits = sorted([*made.visits, *_describe(res, tv, priority, overheads)],
+                    key=lambda v: v.exposure_start)
+    visits = [dataclasses.replace(v, seq=k + 1) for k, v in enumerate(visits)]
+    got = len(set(tv.rows.tolist()))
+    m = made.metrics
+    metrics = dataclasses.replace(m, placed=m.placed + got, possible=m.possible + got,
+                                  visits=m.visits + len(tv.rows),
+                                  visits_possible=m.visits_possible + len(tv.rows))
+    return dataclasses.replace(made, visits=visits, not_placed=missing, windows=res,
+                               metrics=metrics)
+
+
+def _describe(res, tv: TimedVisits, priority, overheads) -> list:
+    """The time-critical visits as the plan's visits, marked ``timed``."""
+    if len(tv.rows) == 0:
+        return []
+    repeat = np.zeros(len(tv.rows), dtype=int)
+    for k in range(len(tv.rows)):  # tonight's few visits: their count per target
+        repeat[k] = int(np.sum(tv.rows[:k] == tv.rows[k])) + 1
+    visits = [model.Visit(k, int(repeat[k]), float(tv.start[k] - overheads.setup_s), 0.0,
+                          overheads.setup_s, float(tv.start[k]), float(tv.end[k]), np.nan)
+              for k in range(len(tv.rows))]
+    plan = SimpleNamespace(visits=visits)  # what build._describe reads of a plan
+    described = build._describe(res, plan, tv.rows, priority, tv.end - tv.start, overheads)
+    return [dataclasses.replace(v, timed=True, epoch_number=None if not np.isfinite(e)
+                                else int(e)) for v, e in zip(described, tv.epoch, strict=True)]
+
