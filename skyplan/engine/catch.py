@@ -27,9 +27,9 @@ import numpy as np
 
 from skyplan.engine import airmass as am
 from skyplan.engine import bodies, frames, timedevents
-from skyplan.engine import night as night_mod
 from skyplan.engine import windows as window_engine
 from skyplan.engine.intervals import Intervals
+from skyplan.engine.season import season_nights
 from skyplan.inputs.ephemerides import Ephemerides
 from skyplan.inputs.limits import Limits
 from skyplan.targetdata import TargetSet
@@ -116,7 +116,7 @@ def catch(targets: TargetSet, eph: Ephemerides, site, dates: list[dt.date], limi
           *, baseline_s: float, min_coverage: float, exposure_s: np.ndarray) -> CatchResult:
     """The occurrences of the time-critical ``targets`` on the nights of ``dates`` that
     are observable for at least ``min_coverage`` of their length (0: every one)."""
-    nights = [night_mod.compute_night(site, d) for d in dates]
+    nights = season_nights(site, dates)  # one Sun-and-Moon track for the run of nights
     noons = np.array([n.span_start for n in nights] + [nights[-1].span_end])
     occ = timedevents.occurrences(eph, targets.ra_deg, targets.dec_deg, site, noons[0],
                                   noons[-1], exposure_s)
