@@ -47,7 +47,7 @@ def test_json_validates_against_the_shipped_schema(demo_plan, schema) -> None:
     doc, _ = demo_plan
     jsonschema.Draft202012Validator.check_schema(schema)
     jsonschema.validate(doc, schema)
-    assert doc["schema"] == "skyplan.plan/2.1"
+    assert doc["schema"] == "skyplan.plan/2.2"
     assert doc["observations"], "the demo night has observable targets"
 
 

@@ -240,3 +240,77 @@ def test_longest_slew_is_an_upper_bound_with_flip_and_wrap() -> None:
     a = rng.uniform(-90, 90, (4, 1000))
     h = rng.uniform(0, 360, (2, 1000))
     assert np.all(ger.slew_s(a[0], h[0], a[1], h[1]) <= ger.longest_s())
+
+
+# ------------------------------------------------------------------ the mount table
+
+SITE = """[site.hill]
+latitude = 37.2
+longitude = -3.6
+zone = "Europe/Madrid"
+
+[site.hill.mount]
+{mount}
+"""
+
+
+@pytest.mark.parametrize(("mount", "key", "line"), [
+    ('kind = "german-equatorial"\npast_meridian_west_min = -5', "past_meridian_west_min", 8),
+    ('kind = "german-equatorial"\npast_meridian_east_min = "ten"', "past_meridian_east_min", 8),
+    ('kind = "german-equatorial"\nflip_time_s = 4000', "flip_time_s", 8),
+    ('kind = "altaz"\nflip_time_s = 60', "flip_time_s", 8),
+    ('kind = "equatorial"\naz_rate_max_deg_s = 0.5', "az_rate_max_deg_s", 8),
+    ('kind = "altaz"\naz_min_deg = -90\naz_max_deg = 90', "az_max_deg", 9),
+    ('kind = "altaz"\naz_min_deg = -270', "az_min_deg", 8),
+    ('kind = "altaz"\naz_rate_max_deg_s = 0', "az_rate_max_deg_s", 8),
+    ('kind = "altaz"\nslew_rate_deg_s = [2.0]', "slew_rate_deg_s", 8),
+    ('kind = "equatorial"\nslew_rate_deg_s = [2.0, 0]', "slew_rate_deg_s", 8),
+    ('kind = "equatorial"\nsettle_s = -1', "settle_s", 8),
+])
+def test_a_bad_mount_key_is_reported_with_file_line_and_field(tmp_path, mount, key,
+                                                              line) -> None:
+    from skyplan.inputs.sitesfile import check_sites_file
+
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount=mount))
+    (problem,) = check_sites_file(path)
+    assert (problem.field, problem.line) == (f"site.hill.mount.{key}", line)
+    assert problem.file.endswith("sites.toml")
+
+
+def test_a_full_mount_table_is_read_and_written_back(tmp_path) -> None:
+    from skyplan.inputs.sitesfile import load_sites, site_to_toml
+
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount='kind = "altaz"\nmax_alt_deg = 86\naz_min_deg = -270\n'
+                                      'az_max_deg = 270\naz_rate_max_deg_s = 0.5\n'
+                                      'slew_rate_deg_s = [3.0, 2.0]\nsettle_s = 8'))
+    m = load_sites(path)["hill"].mount
+    assert (m.kind, m.max_alt_deg, m.wrap_deg(), m.az_rate_max_deg_s, m.slew_rate_deg_s,
+            m.settle_s) == ("altaz", 86.0, (-270.0, 270.0), 0.5, (3.0, 2.0), 8.0)
+    again = tmp_path / "again.toml"
+    again.write_text(site_to_toml(load_sites(path)["hill"]))
+    assert load_sites(again)["hill"].mount == m
+
+
+def test_the_mount_table_gives_rates_and_settle_unless_the_options_do(tmp_path,
+                                                                      capsys) -> None:
+    """The plan's overheads: the table's slew rates and settle; --slew-rate and --settle
+    override them."""
+    import json
+
+    from skyplan.cli.app import main
+
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount='kind = "equatorial"\nslew_rate_deg_s = [3.0, 1.5]\n'
+                                      'settle_s = 7'))
+    out = tmp_path / "plan.json"
+    base = ["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--format", "json",
+            "--out", str(out), "--quiet", "--method", "dispatch"]
+    for extra, want in (([], (3.0, 1.5, 7.0)),
+                        (["--slew-rate", "1,1", "--settle", "4"], (1.0, 1.0, 4.0))):
+        with pytest.raises(SystemExit) as exc:
+            main([*base, *extra])
+        assert exc.value.code == 0
+        over = json.loads(out.read_text())["overheads"]
+        assert (over["slew_az_deg_s"], over["slew_alt_deg_s"], over["settle_s"]) == want

@@ -143,7 +143,7 @@ def test_plan_names_the_apparent_place_and_reads_old_files(capsys, tmp_path) -> 
     code, out, _ = run(capsys, "plan", "--demo", "--method", "dispatch", *NIGHT, "-f", "json")
     doc = json.loads(out)
     first = doc["observations"][0]
-    assert doc["schema"] == "skyplan.plan/2.1"
+    assert doc["schema"] == "skyplan.plan/2.2"
     assert "ra_apparent_deg" in first and "ra_deg" not in first and "dec_deg" not in first
     new = tmp_path / "new.json"
     new.write_text(out)
