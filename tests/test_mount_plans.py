@@ -314,3 +314,63 @@ def test_the_mount_table_gives_rates_and_settle_unless_the_options_do(tmp_path,
         assert exc.value.code == 0
         over = json.loads(out.read_text())["overheads"]
         assert (over["slew_az_deg_s"], over["slew_alt_deg_s"], over["settle_s"]) == want
+
+
+# ------------------------------------------------------------------ charts
+
+
+def test_hour_circle_matches_erfa_hd2ae() -> None:
+    """The flip limit's hour circle against ERFA ``eraHd2ae`` (hour angle and declination to
+    azimuth and elevation) at the same declinations: within 1e-9 degrees."""
+    import erfa
+
+    for ha, lat in ((0.26, 0.65), (-0.09, -0.5), (0.0, 0.9)):
+        alt, az = mount.hour_circle(ha, lat, n=37)
+        dec = np.radians(np.linspace(-90.0, 90.0, 37))
+        ref_az, ref_el = erfa.hd2ae(np.full(37, ha), dec, lat)
+        assert np.abs(alt - np.degrees(ref_el)).max() < 1e-9
+        ok = np.abs(np.degrees(ref_el)) < 89.9  # the azimuth is undefined at the zenith
+        assert np.abs(wrap180(az[ok] - np.degrees(ref_az[ok]))).max() < 1e-9
+
+
+def test_the_sky_chart_draws_the_mount_limits_and_the_altitude_chart_the_flips(
+        tmp_path) -> None:
+    """German mount: two flip-limit lines on the sky chart; alt-azimuth: the keyhole; a plan
+    whose pier side changes marks the flip on the altitude chart (the marks read back from
+    the SVG files by their ids)."""
+    import json
+    import xml.etree.ElementTree as ET
+
+    from skyplan.cli.app import main
+
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount='kind = "german-equatorial"\npast_meridian_west_min = 30')
+                    + SITE.replace("hill", "flat").format(mount='kind = "altaz"\n'
+                                                                'max_alt_deg = 80'))
+
+    def ids(svg) -> list[str]:
+        return [e.get("id", "") for e in ET.parse(svg).getroot().iter()]
+
+    for site, want in (("hill", "flip-limit"), ("flat", "keyhole")):
+        out = tmp_path / f"{site}.svg"
+        with pytest.raises(SystemExit) as exc:
+            main(["chart", "sky", "--demo", "--sites-file", str(path), "--site", site,
+                  "--out", str(out), "--quiet"])
+        assert exc.value.code == 0
+        found = ids(out)
+        assert sum(i.startswith(want) for i in found) == (2 if want == "flip-limit" else 1)
+        other = "keyhole" if want == "flip-limit" else "flip-limit"
+        assert not any(i.startswith(other) for i in found)
+    plan = tmp_path / "plan.json"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--format", "json",
+              "--out", str(plan), "--quiet", "--method", "dispatch"])
+    sides = [o["pier_side"] for o in json.loads(plan.read_text())["observations"]]
+    flips = sum(a != b for a, b in zip(sides, sides[1:], strict=False))
+    assert flips >= 1
+    chart = tmp_path / "alt.svg"
+    with pytest.raises(SystemExit) as exc:
+        main(["chart", "altitude", "--plan", str(plan), "--sites-file", str(path), "--site",
+              "hill", "--top", "0", "--out", str(chart), "--quiet"])
+    assert exc.value.code == 0
+    assert sum(i.startswith("flip") for i in ids(chart)) == flips

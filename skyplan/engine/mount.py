@@ -1,4 +1,5 @@
-"""What the telescope's mount has to do to follow a target: parallactic angle, field rotation.
+"""What the telescope's mount has to do to follow a target: parallactic angle, field rotation,
+azimuth rate, the two-axis slew model, the cable wrap's turns and the flip limit's hour circle.
 
 Arrays in, arrays out; hour angle, declination and latitude in radians, results in degrees.
 """
@@ -90,3 +91,20 @@ def wrap_turns(start_deg, lo_deg, hi_deg, present_deg, az_min_deg: float,
     k_hi = np.floor((az_max_deg - hi) / 360.0 + 1e-9)
     k = np.clip(np.round((np.asarray(present_deg, dtype=float) - start) / 360.0), k_lo, k_hi)
     return np.where(k_lo <= k_hi, k, np.nan)
+
+
+def hour_circle(ha_rad: float, lat_rad: float, n: int = 181) -> tuple[np.ndarray, np.ndarray]:
+    """(altitude, azimuth) in degrees along the hour circle of hour angle H, declination from
+    −90° to +90° in ``n`` steps — the line a German mount's flip limit draws on the sky.
+
+    Meeus (1998), eqs. 13.5 and 13.6 (azimuth here from the north through the east):
+    sin h = sin φ sin δ + cos φ cos δ cos H, tan A′ = sin H / (cos H sin φ − tan δ cos φ) with
+    A′ from the south; the numerator and denominator are multiplied by cos δ so that the poles
+    need no special case.
+    """
+    dec = np.radians(np.linspace(-90.0, 90.0, n))
+    sin_h = np.sin(lat_rad) * np.sin(dec) + np.cos(lat_rad) * np.cos(dec) * np.cos(ha_rad)
+    a_south = np.arctan2(np.cos(dec) * np.sin(ha_rad),
+                         np.cos(dec) * np.cos(ha_rad) * np.sin(lat_rad)
+                         - np.sin(dec) * np.cos(lat_rad))
+    return np.degrees(np.arcsin(np.clip(sin_h, -1.0, 1.0))), (np.degrees(a_south) + 180.0) % 360.0
