@@ -38,19 +38,19 @@ def target_set(ra_deg, dec_deg) -> windows.TargetSet:
         np.array([""] * n, dtype=object))
 
 
-def make_plan(kind: str, seed: int, method: str = "dispatch"):
-    """A plan of 40 random targets at a random site and date, with the kind's mount."""
+def make_plan(m: Mount, seed: int, method: str = "dispatch"):
+    """A plan of 40 random targets at a random site and date, with the mount ``m``."""
     ephemeris.configure_astropy_offline()
     rng = np.random.default_rng(seed)
     lat, lon = float(rng.uniform(-50, 50)), float(rng.uniform(-180, 180))
-    site = Site("test", lat, lon, 1000.0, zone=nautical_zone(lon), mount=MOUNTS[kind])
+    site = Site("test", lat, lon, 1000.0, zone=nautical_zone(lon), mount=m)
     date = dt.date(2026, 1, 1) + dt.timedelta(days=int(rng.integers(0, 365)))
     nt = night.compute_night(site, date)
     n = 40
     ra = rng.uniform(0, 360, n)
     dec = np.degrees(np.arcsin(rng.uniform(np.sin(np.radians(lat - 80)),
                                            np.sin(np.radians(min(lat + 80, 89))), n)))
-    limits = Limits(max_alt_deg=MOUNTS[kind].max_alt_deg)
+    limits = Limits(max_alt_deg=m.max_alt_deg)
     res = windows.compute_windows(target_set(ra, dec), site, nt, limits)
     over = dataclasses.replace(build.Overheads(setup_s=30.0), rates_given=False,
                                settle_given=False)
@@ -81,9 +81,10 @@ def wrap180(x):
     return (np.asarray(x) + 180.0) % 360.0 - 180.0
 
 
-def recheck(kind: str, site: Site, plan, ra, dec) -> None:
-    """Every rule of the mount, recomputed from astropy's places."""
-    m = MOUNTS[kind]
+def recheck(site: Site, plan, ra, dec) -> None:
+    """Every rule of the site's mount, recomputed from astropy's places."""
+    m = site.mount
+    kind = m.kind
     v = plan.visits
     assert len(v) >= 5
     tgt = np.array([p.target for p in v])
@@ -135,21 +136,21 @@ def recheck(kind: str, site: Site, plan, ra, dec) -> None:
 @pytest.mark.parametrize("kind", sorted(MOUNTS))
 @pytest.mark.parametrize("seed", [3, 11, 29])
 def test_random_nights_keep_the_mount_rules(kind: str, seed: int) -> None:
-    site, plan, ra, dec = make_plan(kind, seed)
-    recheck(kind, site, plan, ra, dec)
+    site, plan, ra, dec = make_plan(MOUNTS[kind], seed)
+    recheck(site, plan, ra, dec)
 
 
 @pytest.mark.parametrize("kind", sorted(MOUNTS))
 def test_the_optimal_method_keeps_the_mount_rules(kind: str) -> None:
-    site, plan, ra, dec = make_plan(kind, 5, method="optimal")
-    recheck(kind, site, plan, ra, dec)
+    site, plan, ra, dec = make_plan(MOUNTS[kind], 5, method="optimal")
+    recheck(site, plan, ra, dec)
 
 
 def test_a_german_plan_flips_and_pays_for_it() -> None:
     """Over a night some visits are on each side, and every change of side costs the flip."""
     flips = 0
     for seed in (3, 11, 29):
-        _, plan, _, _ = make_plan("german-equatorial", seed)
+        _, plan, _, _ = make_plan(GERMAN, seed)
         sides = [p.pier_side for p in plan.visits]
         flips += sum(a != b for a, b in zip(sides, sides[1:], strict=False))
     assert flips >= 1
@@ -260,7 +261,8 @@ zone = "Europe/Madrid"
     ('kind = "german-equatorial"\nflip_time_s = 4000', "flip_time_s", 8),
     ('kind = "altaz"\nflip_time_s = 60', "flip_time_s", 8),
     ('kind = "equatorial"\naz_rate_max_deg_s = 0.5', "az_rate_max_deg_s", 8),
-    ('kind = "altaz"\naz_min_deg = -90\naz_max_deg = 90', "az_max_deg", 9),
+    ('kind = "altaz"\naz_min_deg = 90\naz_max_deg = -90', "az_max_deg", 9),
+    ('kind = "altaz"\naz_min_deg = -400\naz_max_deg = 400', "az_max_deg", 9),
     ('kind = "altaz"\naz_min_deg = -270', "az_min_deg", 8),
     ('kind = "altaz"\naz_rate_max_deg_s = 0', "az_rate_max_deg_s", 8),
     ('kind = "altaz"\nslew_rate_deg_s = [2.0]', "slew_rate_deg_s", 8),
@@ -374,3 +376,35 @@ def test_the_sky_chart_draws_the_mount_limits_and_the_altitude_chart_the_flips(
               "hill", "--top", "0", "--out", str(chart), "--quiet"])
     assert exc.value.code == 0
     assert sum(i.startswith("flip") for i in ids(chart)) == flips
+
+
+def test_a_narrow_wrap_is_charged_in_lost_minutes_and_plans_keep_inside_it() -> None:
+    """A wrap of 40°..320° leaves out the north: the minutes charged to ``az_wrap`` equal the
+    dark time above the minimum altitude with astropy's azimuth outside it (1-minute grid,
+    pressure 0 as the engine with refraction off), within 2 minutes; a plan with that wrap
+    passes every re-check."""
+    import astropy.units as u
+    from astropy.coordinates import AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    ephemeris.configure_astropy_offline()
+    lat, lon = 37.2, -3.6
+    narrow = dataclasses.replace(ALTAZ, az_min_deg=40.0, az_max_deg=320.0)
+    site = Site("test", lat, lon, 0.0, zone=nautical_zone(lon), mount=narrow)
+    nt = night.compute_night(site, dt.date(2026, 3, 20))
+    ra, dec = np.array([100.0, 200.0, 150.0]), np.array([70.0, 50.0, -10.0])
+    res = windows.compute_windows(target_set(ra, dec), site, nt, Limits(refraction_model="none"))
+    t = np.arange(res.span[0], res.span[1], 60.0)
+    frame = AltAz(obstime=Time(t, format="unix", scale="utc"),
+                  location=EarthLocation.from_geodetic(lon * u.deg, lat * u.deg, 0 * u.m),
+                  pressure=0 * u.hPa)
+    dark = np.zeros(len(t), bool)
+    for a, b in res.dark:
+        dark |= (t >= a) & (t < b)
+    for k in range(3):
+        h = SkyCoord(ra=ra[k] * u.deg, dec=dec[k] * u.deg).transform_to(frame)
+        outside = (h.az.deg < 40.0) | (h.az.deg > 320.0)
+        want = float(np.sum(dark & (h.alt.deg > 20.0) & outside))
+        assert abs(res.lost_s["az_wrap"][k] / 60.0 - want) <= 2.0
+    assert res.lost_s["az_wrap"][0] > 60 * 60.0 and res.lost_s["az_wrap"][2] == 0.0
+    recheck(*make_plan(narrow, 3))

@@ -1,5 +1,5 @@
 """The mount's limits as windows: a German mount's two pier sides, an alt-azimuth mount's
-azimuth rate.
+azimuth rate and a cable wrap narrower than a turn.
 
 A German equatorial mount follows a target with the tube on the west side of the pier while
 the target is east of the meridian, and may go on until hour angle +past_west; with the tube
@@ -93,3 +93,19 @@ def az_rate_intervals(sky: Sky, rows: np.ndarray, rate_max_deg_s: float, span) -
     free = Intervals.build(r, np.maximum(start.ravel(), span[0]),
                            np.minimum(end.ravel(), span[1]))
     return keep.union_rows(free)
+
+
+def az_wrap_intervals(sky: Sky, rows: np.ndarray, wrap_deg: tuple[float, float],
+                      span) -> Intervals:
+    """Intervals where a target's azimuth lies on the arc a cable wrap narrower than 360°
+    reaches, [az_min, az_max] taken modulo 360°: the margin, half the arc's width less the
+    distance from its middle, is sampled and its sign changes refined like the other limits
+    that are not analytic."""
+    lo, hi = wrap_deg
+    middle, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+
+    def margin(r, t):
+        _, az, _ = sky.horizon(r, t)
+        return half - np.abs((az - middle + 180.0) % 360.0 - 180.0)
+
+    return sampled(sky, rows, margin, span)

@@ -28,7 +28,7 @@ MOUNT_KINDS = ("equatorial", "german-equatorial", "altaz")
 MOUNT_MAX_ALT_RANGE_DEG = (0.0, 90.0)  # above 0, at most 90
 MOUNT_PAST_MERIDIAN_RANGE_MIN = (0.0, 360.0)  # how far past the meridian a German mount tracks
 MOUNT_FLIP_TIME_RANGE_S = (0.0, 3600.0)
-MOUNT_AZ_RANGE_DEG = (-720.0, 720.0)  # cable-wrap limits; the range at least 360, at most 720 wide
+MOUNT_AZ_RANGE_DEG = (-720.0, 720.0)  # cable-wrap limits; the range at most 720 wide
 MOUNT_RATE_RANGE_DEG_S = (0.0, 100.0)  # slew and azimuth rates: above 0, at most 100
 MOUNT_SETTLE_RANGE_S = (0.0, 3600.0)
 FLIP_TIME_S = 60.0  # a German mount's meridian flip when the mount table does not give one
@@ -44,7 +44,8 @@ class Mount:
     the meridian) the mount tracks until hour angle +past_meridian_west_min, on the east side
     from hour angle −past_meridian_east_min; ``flip_time_s`` is added to a slew that changes
     the side.  Alt-azimuth: ``az_min_deg``/``az_max_deg`` bound the azimuth the mount may
-    turn to (its cable wrap, a range at least 360° wide), ``az_rate_max_deg_s`` the azimuth
+    turn to (its cable wrap; a range narrower than 360° also cuts sky, charged to ``az_wrap``
+    in the lost minutes), ``az_rate_max_deg_s`` the azimuth
     rate it can follow.  For all kinds: ``slew_rate_deg_s`` (axis 1, axis 2: azimuth and
     altitude for altaz, hour angle and declination for the equatorial kinds) and
     ``settle_s``, None where the plan's options decide.  ``origin``: where ``max_alt_deg`` was

@@ -28,7 +28,7 @@ The sites file is TOML (read with the standard :mod:`tomllib`)::
     [site.ridge.mount]                # optional: the telescope's mount
     kind = "altaz"                    # equatorial, german-equatorial or altaz
     max_alt_deg = 86                  # altaz: the highest altitude it follows (default --max-alt)
-    az_min_deg = -270                 # altaz: the cable wrap (at least 360 degrees wide)
+    az_min_deg = -270                 # altaz: the cable wrap (narrower than 360: sky is lost)
     az_max_deg = 270
     slew_rate_deg_s = [3.0, 2.0]      # axis 1 (azimuth), axis 2 (altitude), degrees per second
     settle_s = 8
@@ -389,9 +389,9 @@ def _mount_from_table(table: object, file: str, lines: KeyLines, site_name: str,
             else "az_max_deg")
     elif "az_min_deg" in got:
         width = float(got["az_max_deg"]) - float(got["az_min_deg"])
-        if not 360.0 <= width <= 720.0:
+        if not 0.0 < width <= 720.0:
             bad(f"the azimuth range {got['az_min_deg']:g}°..{got['az_max_deg']:g}° is "
-                f"{width:g}° wide; the cable wrap must span at least 360° and at most 720°",
+                f"{width:g}° wide; the cable wrap must span more than 0° and at most 720°",
                 "az_max_deg")
     if not ok:
         return None

@@ -122,7 +122,9 @@ def _reason(res, i: int) -> tuple[str, str]:
     text = {
         "altitude": "below the minimum altitude all night",
         "max_alt": "above the maximum altitude whenever it is up",
-        "az_rate": "faster in azimuth than the mount can follow", "airmass": "air mass too high",
+        "az_rate": "faster in azimuth than the mount can follow",
+        "az_wrap": "outside the mount's azimuth range (cable wrap)",
+        "airmass": "air mass too high",
         "horizon": "behind the horizon profile", "moon": "lost to the Moon",
         "sun": "too close to the Sun", "hour_angle": "outside the mount's hour-angle range",
         "dec": "outside the mount's declination range", "between": "outside the clock range",
