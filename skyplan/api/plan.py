@@ -47,8 +47,9 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
         raise InputError(f"{method!r} is not one of: {', '.join(dispatch.METHODS)}",
                          field="method")
     given = slew_rate_deg_s is not None, settle_s is not None
-    slew_rate_deg_s = slew_rate_deg_s or (2.0, 2.0)
-    settle_s = 10.0 if settle_s is None else settle_s
+    slew_rate_deg_s = slew_rate_deg_s or (build.Overheads.slew_az_deg_s,
+                                          build.Overheads.slew_alt_deg_s)
+    settle_s = build.Overheads.settle_s if settle_s is None else settle_s
     for value, name in ((exposure_s, "exposure_s"), (setup_s, "setup_s"),
                         (settle_s, "settle_s"), (spacing_min, "spacing_min"),
                         (time_limit_s, "time_limit_s")):
