@@ -408,3 +408,24 @@ def test_a_narrow_wrap_is_charged_in_lost_minutes_and_plans_keep_inside_it() -> 
         assert abs(res.lost_s["az_wrap"][k] / 60.0 - want) <= 2.0
     assert res.lost_s["az_wrap"][0] > 60 * 60.0 and res.lost_s["az_wrap"][2] == 0.0
     recheck(*make_plan(narrow, 3))
+
+
+def test_the_plan_table_notes_each_flip(tmp_path, capsys) -> None:
+    """The table's notes name the new side where the JSON's pier_side changes."""
+    import json
+
+    from skyplan.cli.app import main
+
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount='kind = "german-equatorial"\nflip_time_s = 120'))
+    base = ["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--quiet",
+            "--method", "dispatch", "--wide"]
+    with pytest.raises(SystemExit):
+        main([*base, "--format", "json", "--out", str(tmp_path / "p.json")])
+    sides = [o["pier_side"] for o in json.loads((tmp_path / "p.json").read_text())[
+        "observations"]]
+    flips = sum(a != b for a, b in zip(sides, sides[1:], strict=False))
+    capsys.readouterr()
+    with pytest.raises(SystemExit):
+        main(base)
+    assert flips >= 1 and capsys.readouterr().out.count("flip to pier") == flips

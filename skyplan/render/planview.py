@@ -143,9 +143,12 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
     named = any(v.identifier and v.identifier != v.name for v in p.visits)
     if named:
         t.column("identifier", rank=11, fate="note")
-    for v in p.visits:
+    sides = [v.pier_side for v in p.visits] if has_pier_side(site) else []
+    for k, v in enumerate(p.visits):
         utc = dt.datetime.fromtimestamp(v.exposure_start, dt.UTC)
         notes = []
+        if sides and k and sides[k] != sides[k - 1]:
+            notes.append(f"flip to pier {sides[k]}")
         if v.repeat > 1:
             notes.append(f"repeat {v.repeat}")
         if v.target in short and v.repeat == short[v.target][0]:
