@@ -62,8 +62,6 @@ def follow(night: PlanNight, visits: list[tuple]) -> list[tuple]:
     return _walk(night, sorted(visits, key=lambda v: (v[1], v[0])))[0]
 
 
-
-
 def states(night: PlanNight, visits: list[tuple]) -> MountState:
     """The mount's state along a followed plan (in time order): the same walk as
     :func:`follow`, which leaves a followed plan as it is."""
