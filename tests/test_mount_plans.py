@@ -429,3 +429,88 @@ def test_the_plan_table_notes_each_flip(tmp_path, capsys) -> None:
     with pytest.raises(SystemExit):
         main(base)
     assert flips >= 1 and capsys.readouterr().out.count("flip to pier") == flips
+
+
+DEMO_MOUNTS = {
+    "german-equatorial": 'kind = "german-equatorial"\npast_meridian_east_min = 15\n'
+                         'past_meridian_west_min = 30\nflip_time_s = 90\n'
+                         'slew_rate_deg_s = [3.0, 2.0]\nsettle_s = 8',
+    "altaz": 'kind = "altaz"\nmax_alt_deg = 80\naz_min_deg = -200\naz_max_deg = 200\n'
+             'slew_rate_deg_s = [2.5, 1.5]\nsettle_s = 6',
+    "equatorial": 'kind = "equatorial"\nslew_rate_deg_s = [2.0, 1.0]\nsettle_s = 5',
+}
+
+
+@pytest.mark.parametrize("kind", sorted(DEMO_MOUNTS))
+def test_the_demo_plan_with_each_mount_kind_rechecked_with_astropy(tmp_path, kind) -> None:
+    """``plan --demo`` at a site with each kind of mount, re-checked from the plan file alone:
+    each visit's apparent place of date (TETE at local midnight, as written) taken by astropy
+    to hour angle (apparent sidereal time) and to altitude and azimuth at the exposure's start
+    and end and at the slew's start; the flip limits, the keyhole, the wrap and the slews as
+    in :func:`recheck`."""
+    import json
+
+    import astropy.units as u
+    from astropy.coordinates import TETE, AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    from skyplan.cli.app import main
+
+    ephemeris.configure_astropy_offline()
+    path = tmp_path / "sites.toml"
+    path.write_text(SITE.format(mount=DEMO_MOUNTS[kind]))
+    out = tmp_path / "plan.json"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "--demo", "--sites-file", str(path), "--site", "hill", "--format", "json",
+              "--out", str(out), "--quiet"])
+    assert exc.value.code == 0
+    doc = json.loads(out.read_text())
+    obs = doc["observations"]
+    assert len(obs) >= 10
+    loc = EarthLocation.from_geodetic(-3.6 * u.deg, 37.2 * u.deg, 0 * u.m)
+    midnight = Time(doc["night"]["local_midnight"].replace("Z", ""), scale="utc")
+
+    def places(o, key):
+        when = Time(o[key].replace("Z", ""), scale="utc")
+        star = SkyCoord(o["ra_apparent_deg"] * u.deg, o["dec_apparent_deg"] * u.deg,
+                        frame=TETE(obstime=midnight))
+        hor = star.transform_to(AltAz(obstime=when, location=loc, pressure=0 * u.hPa))
+        last = when.sidereal_time("apparent", longitude=-3.6 * u.deg).deg
+        return hor.alt.deg, hor.az.deg, wrap180(last - o["ra_apparent_deg"])
+
+    m = load_mount(path)
+    r1, r2 = m.slew_rate_deg_s
+    for k, o in enumerate(obs):
+        alt0, az0, ha0 = places(o, "exposure_start")
+        alt1, az1, ha1 = places(o, "end")
+        if kind == "german-equatorial":
+            if o["pier_side"] == "west":
+                assert ha1 <= 30 / 4.0 + 0.01 and ha1 > ha0
+            else:
+                assert ha0 >= -15 / 4.0 - 0.01
+        if kind == "altaz":
+            assert max(alt0, alt1, o["alt_mid_deg"]) <= 80.0 + 0.02
+            for reading, az in ((o["mount_az_start_deg"], az0), (o["mount_az_end_deg"], az1)):
+                assert -200.0 <= reading <= 200.0 and abs(wrap180(reading - az)) < 0.05
+        if k == 0:
+            continue
+        p = obs[k - 1]
+        pa, pz, ph = places(p, "end")
+        pa_s, pz_s, ph_s = places({**p, "end": o["start"]}, "end")
+        qa, qz, qh = places({**o, "end": o["start"]}, "end")
+        if kind == "altaz":
+            d1 = (o["mount_az_start_deg"] - wrap180(az0 - qz)) - (p["mount_az_end_deg"]
+                                                                  + wrap180(pz_s - pz))
+            d2 = qa - pa_s
+        else:
+            d1, d2 = wrap180(qh - ph_s), o["dec_apparent_deg"] - p["dec_apparent_deg"]
+        want = max(abs(d1) / r1, abs(d2) / r2) + m.settle_s
+        if kind == "german-equatorial" and o["pier_side"] != p["pier_side"]:
+            want += m.flip_time_s
+        assert o["slew_s"] >= want - TOL_S - 0.01, (k, o["slew_s"], want)
+
+
+def load_mount(path) -> Mount:
+    from skyplan.inputs.sitesfile import load_sites
+
+    return load_sites(path)["hill"].mount
