@@ -55,7 +55,10 @@ def read_plan(path: str | Path, *, site: Site | None = None,
     tset = TargetSet(names, np.atleast_1d(ra_icrs), np.atleast_1d(dec_icrs), zeros, zeros,
                      zeros, zeros, np.full(n, 2000.0), body)
     priority = np.array([t.priority for t in found], dtype=float)
-    visits = [Visit(v.name, v.start, v.end, k + 1) for k, v in enumerate(planned)]
+    sides = [""] + [v.pier_side for v in planned]
+    visits = [Visit(v.name, v.start, v.end, k + 1,
+                    flip=bool(sides[k] and v.pier_side and sides[k] != v.pier_side))
+              for k, v in enumerate(planned)]
     return PlanRead(the_site, night_api.wrap(the_night, the_site),
                     Targets(tset, priority, np.full(n, np.nan), (), plan.path), visits,
                     plan.limits)

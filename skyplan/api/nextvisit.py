@@ -102,7 +102,7 @@ def next_visit(targets: Targets, site: Site, night: Night | None = None,
     if not made.visits:
         return NextVisit(at, "over", made, None)
     res = computed.result
-    over = chosen.overheads
+    over = chosen.overheads.for_mount(site.mount)
     todo = replan.remaining(over.repeats, len(res.names), made.rest)
     wins = replan.rest_windows(res.windows, made.rest, over.spacing_s)
     exp = np.where(np.isfinite(targets.exposure_s), targets.exposure_s,

@@ -26,14 +26,16 @@ class PlanSettings:
 
 
 def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: int = 1,
-                  spacing_min: float = 0.0, slew_rate_deg_s: tuple[float, float] = (2.0, 2.0),
-                  settle_s: float = 10.0, method: str = "optimal", time_limit_s: float = 5.0,
+                  spacing_min: float = 0.0, slew_rate_deg_s: tuple[float, float] | None = None,
+                  settle_s: float | None = None, method: str = "optimal", time_limit_s: float = 5.0,
                   airmass_slack: float | None = 0.15, priority_cut: int | None = None,
                   allow_near_sun: bool = False) -> PlanSettings:
     """Check the plan's settings; an :class:`skyplan.InputError` names the bad one.
 
     ``exposure_s``: for targets without their own; ``setup_s``: per visit; ``spacing_min``:
-    between the starts of repeats of one target; ``slew_rate_deg_s``: (azimuth, altitude);
+    between the starts of repeats of one target; ``slew_rate_deg_s``: (axis 1, axis 2) —
+    (azimuth, altitude), or (hour angle, declination) for an equatorial mount; it and
+    ``settle_s`` default to the site's mount table, else (2, 2) and 10;
     ``method``: 'optimal' (integer program) or 'dispatch' (fast greedy);
     ``airmass_slack``: below the top priority, visits only within this fraction of the
     target's best air mass tonight (None turns the rule off).
@@ -44,6 +46,10 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     if method not in dispatch.METHODS:
         raise InputError(f"{method!r} is not one of: {', '.join(dispatch.METHODS)}",
                          field="method")
+    given = slew_rate_deg_s is not None, settle_s is not None
+    slew_rate_deg_s = slew_rate_deg_s or (build.Overheads.slew_az_deg_s,
+                                          build.Overheads.slew_alt_deg_s)
+    settle_s = build.Overheads.settle_s if settle_s is None else settle_s
     for value, name in ((exposure_s, "exposure_s"), (setup_s, "setup_s"),
                         (settle_s, "settle_s"), (spacing_min, "spacing_min"),
                         (time_limit_s, "time_limit_s")):
@@ -61,7 +67,7 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     overheads = build.Overheads(
         default_exposure_s=exposure_s, setup_s=setup_s, repeats=repeats,
         spacing_s=60.0 * spacing_min, slew_az_deg_s=az_rate, slew_alt_deg_s=alt_rate,
-        settle_s=settle_s)
+        settle_s=settle_s, rates_given=given[0], settle_given=given[1])
     options = dispatch.PlanOptions(
         method=method, time_limit_s=time_limit_s, priority_cut=priority_cut,
         allow_near_sun=allow_near_sun,

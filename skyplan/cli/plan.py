@@ -26,9 +26,11 @@ Setup = typer.Option(60.0, "--setup", help="Fixed setup overhead per visit, seco
 Repeats = typer.Option(1, "--repeats", help="Visits per target.")
 Spacing = typer.Option(0.0, "--spacing", help="Minimum minutes between the starts of repeats "
                        "of one target.")
-SlewRate = typer.Option("2,2", "--slew-rate", help="Slew rates AZ,ALT in degrees per second "
-                        "(or one value for both).")
-Settle = typer.Option(10.0, "--settle", help="Settle time after each slew, seconds.")
+SlewRate = typer.Option(None, "--slew-rate", help="Slew rates of the mount's two axes "
+                        "(AZ,ALT; HA,DEC for an equatorial mount) in degrees per second, or "
+                        "one value for both; default: the site's mount table, else 2,2.")
+Settle = typer.Option(None, "--settle", help="Settle time after each slew, seconds; default: "
+                      "the site's mount table, else 10.")
 TimeLimit = typer.Option(5.0, "--time-limit", help="Optimiser time limit, seconds.")
 AirmassSlack = typer.Option(
     0.15, "--airmass-slack", help="Below the top priority, place a visit only at an air mass "
@@ -146,7 +148,7 @@ def settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_
     from skyplan.planning import dispatch as scheduling
 
     method = common.check_format(method, scheduling.METHODS, "--method")
-    rates = _rates(slew_rate)
+    rates = None if slew_rate is None else _rates(slew_rate)
     with common.named_as(exposure_s="--exposure", setup_s="--setup", settle_s="--settle",
                          spacing_min="--spacing", time_limit_s="--time-limit",
                          repeats="--repeats"):

@@ -45,9 +45,10 @@ def limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                 refraction=refraction)
 
 Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equatorial or "
-                     "altaz (default: the site's [site.NAME.mount] kind). altaz takes the "
-                     "site's mount max_alt_deg as --max-alt; german-equatorial adds pier_side "
-                     "to each visit of a plan.")
+                     "altaz (default: the site's [site.NAME.mount] kind, whose other keys "
+                     "stay). Plans slew on its axes; german-equatorial keeps each visit on "
+                     "one pier side and pays for flips; altaz takes the mount's max_alt_deg "
+                     "as --max-alt and keeps to its cable wrap.")
 
 SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
                  "reported) instead of stopping.")

@@ -33,7 +33,7 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from skyplan.engine import bodies, frames, refraction
+from skyplan.engine import bodies, frames, mount, refraction
 from skyplan.engine import night as night_mod
 from skyplan.engine.scene import (
     TWILIGHT_STATES,
@@ -301,7 +301,27 @@ def sky_scene(
         planets=_planets(site, unix, limits, in_targets),
         targets=shown,
         tracks=paths,
+        keyhole_alt_deg=_keyhole(site, limits),
+        flip_limits=_flip_limits(site),
     )
+
+
+def _keyhole(site, limits: Limits) -> float | None:
+    """An alt-azimuth mount's highest altitude (the limit's, else the mount's)."""
+    m = getattr(site, "mount", None)
+    if m is None or m.kind != "altaz":
+        return None
+    return limits.max_alt_deg if limits.max_alt_deg is not None else m.max_alt_deg
+
+
+def _flip_limits(site) -> tuple[SkyLine, ...]:
+    """A German mount's flip limits: the hour circles H = +past_west and H = −past_east."""
+    m = getattr(site, "mount", None)
+    if m is None or not m.german:
+        return ()
+    east, west = m.past_meridian_rad()
+    lat = np.radians(site.lat_deg)
+    return tuple(SkyLine(*mount.hour_circle(h, lat)) for h in (west, -east))
 
 
 # --------------------------------------------------------------------------- altitude chart

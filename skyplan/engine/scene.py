@@ -163,6 +163,8 @@ class SkyScene:
 
     ``horizon`` is the site's horizon profile (altitude of the skyline against azimuth) or
     None for a flat horizon.  The meridian is implied (the north-south line of the chart).
+    ``keyhole_alt_deg``: the circle above which an alt-azimuth mount cannot follow;
+    ``flip_limits``: the hour circles where a German mount's two sides end.
     """
 
     site_name: str
@@ -179,9 +181,12 @@ class SkyScene:
     planets: SkyPoints = field(default_factory=_no_points)
     targets: SkyTargets = field(default_factory=_no_targets)
     tracks: tuple[Track, ...] = ()
+    keyhole_alt_deg: float | None = None  # an alt-azimuth mount's highest altitude
+    flip_limits: tuple[SkyLine, ...] = ()  # a German mount's flip limits (hour circles)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "tracks", tuple(self.tracks))
+        object.__setattr__(self, "flip_limits", tuple(self.flip_limits))
 
 
 @dataclass(frozen=True)
@@ -222,12 +227,13 @@ class TwilightEdges:
 @dataclass(frozen=True)
 class Visit:
     """A planned visit of one target: ``start_unix`` to ``end_unix``; ``seq`` its place in
-    the plan (1, 2, 3 ...; 0: not numbered)."""
+    the plan (1, 2, 3 ...; 0: not numbered); ``flip``: a German mount flips in its slew."""
 
     name: str
     start_unix: float
     end_unix: float
     seq: int = 0
+    flip: bool = False
 
     def __post_init__(self) -> None:
         if not self.end_unix > self.start_unix:

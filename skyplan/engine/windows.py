@@ -53,6 +53,7 @@ from skyplan.engine.limitintervals import (
     sky_half_arc,
     transit_times,
 )
+from skyplan.engine.mountwindows import az_rate_intervals, az_wrap_intervals
 from skyplan.engine.sky import SIDEREAL_RATE, Sky
 from skyplan.inputs.limits import ORDER, Limits
 from skyplan.targetdata import TargetSet
@@ -136,6 +137,14 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
         top = limits.max_alt_deg
         pieces["max_alt"] = below_altitude_intervals(sky, fixed_rows, top, span).union_rows(
             sampled(sky, moving_rows, below_margin(sky, top), span))
+    the_mount = getattr(site, "mount", None)
+    az_rate = the_mount.az_rate_max_deg_s if the_mount is not None and \
+        the_mount.kind == "altaz" else None
+    if az_rate is not None:
+        pieces["az_rate"] = az_rate_intervals(sky, rows, az_rate, span)
+    wrap = the_mount.wrap_deg() if the_mount is not None else None
+    if wrap is not None and wrap[1] - wrap[0] < 360.0:
+        pieces["az_wrap"] = az_wrap_intervals(sky, rows, wrap, span)
     threshold = limits.min_alt_deg
     if limits.max_airmass is not None:
         x_alt = am.altitude_for_airmass(limits.max_airmass, limits.airmass_model)

@@ -24,8 +24,8 @@ from skyplan.inputs.fieldvalues import decimal, number, shown
 TWILIGHTS = defaults.TWILIGHT_SUN_ALT_DEG
 NO_DARK = ("none", "off", "day")  # darkness not required (daytime work)
 # the order in which engine.windows charges each limit with the minutes it removes
-ORDER = ("dark", "between", "dec", "hour_angle", "altitude", "max_alt", "airmass", "horizon",
-         "moon", "sun")
+ORDER = ("dark", "between", "dec", "hour_angle", "altitude", "max_alt", "az_rate", "az_wrap",
+         "airmass", "horizon", "moon", "sun")
 
 
 @dataclass(frozen=True)

@@ -38,6 +38,7 @@ class PlanVisit:
     name: str
     start: float  # POSIX seconds
     end: float
+    pier_side: str = ""  # "east" or "west" (German equatorial mounts), else ""
 
 
 @dataclass(frozen=True)
@@ -125,7 +126,11 @@ def observations(plan: PlanFile, zone) -> tuple[list[PlannedTarget], list[PlanVi
         if not t1 > t0:
             raise InputError("ends before it starts", file=plan.path,
                              field=f"observations[{i}].end")
-        visits.append(PlanVisit(name, t0, t1))
+        side = rec.get("pier_side", "") if isinstance(rec, dict) else ""
+        if side not in ("", "east", "west"):
+            raise InputError(f"expected east or west, got {side!r}", file=plan.path,
+                             field=f"observations[{i}].pier_side")
+        visits.append(PlanVisit(name, t0, t1, side))
     return list(found.values()), visits
 
 

@@ -26,16 +26,66 @@ PRESSURE_RANGE_HPA = (100.0, 1100.0)
 TEMPERATURE_RANGE_C = (-90.0, 60.0)
 MOUNT_KINDS = ("equatorial", "german-equatorial", "altaz")
 MOUNT_MAX_ALT_RANGE_DEG = (0.0, 90.0)  # above 0, at most 90
+MOUNT_PAST_MERIDIAN_RANGE_MIN = (0.0, 360.0)  # how far past the meridian a German mount tracks
+MOUNT_FLIP_TIME_RANGE_S = (0.0, 3600.0)
+MOUNT_AZ_RANGE_DEG = (-720.0, 720.0)  # cable-wrap limits; the range at most 720 wide
+MOUNT_RATE_RANGE_DEG_S = (0.0, 100.0)  # slew and azimuth rates: above 0, at most 100
+MOUNT_SETTLE_RANGE_S = (0.0, 3600.0)
+FLIP_TIME_S = 60.0  # a German mount's meridian flip when the mount table does not give one
 
 
 @dataclass(frozen=True)
 class Mount:
-    """The telescope's mount: its kind (:data:`MOUNT_KINDS`) and, for an alt-azimuth mount,
-    the highest altitude it can follow (its zenith keyhole), with where that was written."""
+    """The telescope's mount: its kind (:data:`MOUNT_KINDS`) and its limits.
+
+    ``max_alt_deg``: the highest altitude an alt-azimuth mount follows (its zenith keyhole).
+    German equatorial: ``past_meridian_east_min``/``past_meridian_west_min`` (minutes of
+    hour angle; 0 when not given): with the tube on the pier's west side (the target east of
+    the meridian) the mount tracks until hour angle +past_meridian_west_min, on the east side
+    from hour angle −past_meridian_east_min; ``flip_time_s`` is added to a slew that changes
+    the side.  Alt-azimuth: ``az_min_deg``/``az_max_deg`` bound the azimuth the mount may
+    turn to (its cable wrap; a range narrower than 360° also cuts sky, charged to ``az_wrap``
+    in the lost minutes), ``az_rate_max_deg_s`` the azimuth
+    rate it can follow.  For all kinds: ``slew_rate_deg_s`` (axis 1, axis 2: azimuth and
+    altitude for altaz, hour angle and declination for the equatorial kinds) and
+    ``settle_s``, None where the plan's options decide.  ``origin``: where ``max_alt_deg`` was
+    written, for messages.
+    """
 
     kind: str
     max_alt_deg: float | None = None
     origin: Origin | None = field(default=None, compare=False, repr=False)
+    past_meridian_east_min: float | None = None
+    past_meridian_west_min: float | None = None
+    flip_time_s: float | None = None
+    az_min_deg: float | None = None
+    az_max_deg: float | None = None
+    az_rate_max_deg_s: float | None = None
+    slew_rate_deg_s: tuple[float, float] | None = None
+    settle_s: float | None = None
+
+    @property
+    def german(self) -> bool:
+        """True for a German equatorial mount (the one kind that flips)."""
+        return self.kind == "german-equatorial"
+
+    def past_meridian_rad(self) -> tuple[float, float]:
+        """(east, west) hour angles past the meridian a German mount may track, radians."""
+        east = self.past_meridian_east_min or 0.0
+        west = self.past_meridian_west_min or 0.0
+        return math.radians(east / 4.0), math.radians(west / 4.0)
+
+    def flip_s(self) -> float:
+        """The time a meridian flip adds to a slew (German mounts), seconds."""
+        if not self.german:
+            return 0.0
+        return FLIP_TIME_S if self.flip_time_s is None else self.flip_time_s
+
+    def wrap_deg(self) -> tuple[float, float] | None:
+        """(az_min, az_max) of an alt-azimuth mount's cable wrap, or None."""
+        if self.kind != "altaz" or self.az_min_deg is None or self.az_max_deg is None:
+            return None
+        return self.az_min_deg, self.az_max_deg
 
 
 @dataclass(frozen=True)

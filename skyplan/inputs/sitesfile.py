@@ -28,6 +28,10 @@ The sites file is TOML (read with the standard :mod:`tomllib`)::
     [site.ridge.mount]                # optional: the telescope's mount
     kind = "altaz"                    # equatorial, german-equatorial or altaz
     max_alt_deg = 86                  # altaz: the highest altitude it follows (default --max-alt)
+    az_min_deg = -270                 # altaz: the cable wrap (narrower than 360: sky is lost)
+    az_max_deg = 270
+    slew_rate_deg_s = [3.0, 2.0]      # axis 1 (azimuth), axis 2 (altitude), degrees per second
+    settle_s = 8
 
 Every problem becomes an :class:`~skyplan.errors.InputError` naming the file, line and field;
 the limits are checked by :func:`skyplan.inputs.limits.check_limits`, the validator the
@@ -47,13 +51,11 @@ from skyplan.inputs import limits as limits_mod
 from skyplan.inputs import readfile
 from skyplan.inputs.fieldvalues import compass_angle, in_range, number, shown
 from skyplan.inputs.horizon import horizon_from_table
+from skyplan.inputs.mounttable import MOUNT_KEYS, mount_from_table
 from skyplan.inputs.site import (
     ELEVATION_RANGE_M,
-    MOUNT_KINDS,
-    MOUNT_MAX_ALT_RANGE_DEG,
     PRESSURE_RANGE_HPA,
     TEMPERATURE_RANGE_C,
-    Mount,
     Site,
     normalise_lon,
     zone_info,
@@ -82,8 +84,6 @@ SITE_KEYS = (
     "limits",
     "mount",
 )
-MOUNT_KEYS = ("kind", "max_alt_deg")
-
 
 @dataclass(frozen=True)
 class SitesFile:
@@ -147,8 +147,10 @@ def site_to_toml(site: Site) -> str:
             lines.append(f"{name} = {toml_value(value)}")
     if site.mount is not None:
         lines += ["", f"[site.{key}.mount]", f"kind = {json.dumps(site.mount.kind)}"]
-        if site.mount.max_alt_deg is not None:
-            lines.append(f"max_alt_deg = {site.mount.max_alt_deg!r}")
+        for key in MOUNT_KEYS[1:]:
+            value = getattr(site.mount, key)
+            if value is not None:
+                lines.append(f"{key} = {toml_value(value)}")
     return "\n".join(lines) + "\n"
 
 
@@ -294,7 +296,7 @@ def _site_from_table(
             problem(f"expected a table [site.{toml_key(site_name)}.limits]", "limits")
     mount = None
     if "mount" in table:
-        mount = _mount_from_table(table["mount"], file, lines, site_name, problem)
+        mount = mount_from_table(table["mount"], file, lines, site_name, problem)
     if len(problems) > start:
         return None
     assert lat is not None and lon is not None
@@ -313,40 +315,6 @@ def _site_from_table(
         mount=mount,
         source=f"{file} [site.{toml_key(site_name)}]",
     )
-
-
-def _mount_from_table(table: object, file: str, lines: KeyLines, site_name: str,
-                      problem: Callable[..., None]) -> Mount | None:
-    """The ``[site.NAME.mount]`` table: its kind and an optional maximum altitude."""
-    if not isinstance(table, dict):
-        problem(f"expected a table [site.{toml_key(site_name)}.mount]", "mount")
-        return None
-    ok = True
-    for key in table:
-        if key not in MOUNT_KEYS:
-            problem(f"unknown key {quoted(key)}; allowed: {', '.join(MOUNT_KEYS)}", "mount", key)
-            ok = False
-    kind = table.get("kind")
-    if kind not in MOUNT_KINDS:
-        problem(f"expected one of {', '.join(MOUNT_KINDS)}, got {shown(kind)}"
-                if "kind" in table else "missing kind", "mount", "kind")
-        ok = False
-    top = None
-    if "max_alt_deg" in table:
-        lo, hi = MOUNT_MAX_ALT_RANGE_DEG
-        try:
-            top = number(table["max_alt_deg"])
-            if not lo < top <= hi:
-                raise ValueError(f"maximum altitude {top:g}° must be above {lo:g}° and at most "
-                                 f"{hi:g}°")
-        except (TypeError, ValueError) as exc:
-            problem(str(exc), "mount", "max_alt_deg")
-            ok = False
-    if not ok:
-        return None
-    path = ("site", site_name, "mount", "max_alt_deg")
-    origin = limits_mod.Origin(field=field_of(path), file=file, line=lines.of(*path))
-    return Mount(str(kind), top, origin)
 
 
 def _limits_from_table(

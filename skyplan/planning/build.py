@@ -9,6 +9,7 @@ angle, field rotation rate and distance from the Moon and the Sun at the middle.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 from dataclasses import dataclass, field
 from zoneinfo import ZoneInfo
@@ -16,10 +17,10 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from skyplan.engine import airmass as am
-from skyplan.engine import events, mount
+from skyplan.engine import events, mount, mountwindows
 from skyplan.errors import NothingObservable
 from skyplan.planning import dispatch as scheduling
-from skyplan.planning import model, reasons, replan
+from skyplan.planning import model, mountfit, reasons, replan
 
 SLOT_STEP_S = 120.0
 
@@ -30,9 +31,35 @@ class Overheads:
     setup_s: float = 60.0
     repeats: int = 1
     spacing_s: float = 0.0
-    slew_az_deg_s: float = 2.0
-    slew_alt_deg_s: float = 2.0
+    slew_az_deg_s: float = 2.0  # axis 1: azimuth, or hour angle for an equatorial mount
+    slew_alt_deg_s: float = 2.0  # axis 2: altitude, or declination
     settle_s: float = 10.0
+    # False: the value above is the built-in default, and the site's mount table decides
+    rates_given: bool = True
+    settle_given: bool = True
+
+    def for_mount(self, mount) -> Overheads:
+        """The overheads with the mount table's slew rates and settle where no option gave
+        them (the options override the table)."""
+        if mount is None:
+            return self
+        changes: dict[str, object] = {}
+        if not self.rates_given and mount.slew_rate_deg_s is not None:
+            changes.update(slew_az_deg_s=mount.slew_rate_deg_s[0],
+                           slew_alt_deg_s=mount.slew_rate_deg_s[1])
+        if not self.settle_given and mount.settle_s is not None:
+            changes["settle_s"] = mount.settle_s
+        return dataclasses.replace(self, **changes) if changes else self
+
+    def slew_model(self, mount) -> model.SlewModel:
+        """The planner's slew model for these overheads and the site's mount (None: the
+        alt-azimuth model without limits)."""
+        if mount is None:
+            return model.SlewModel(self.slew_az_deg_s, self.slew_alt_deg_s, self.settle_s)
+        return model.SlewModel(self.slew_az_deg_s, self.slew_alt_deg_s, self.settle_s,
+                               kind=mount.kind, flip_s=mount.flip_s(),
+                               past_meridian_rad=mount.past_meridian_rad(),
+                               wrap_deg=mount.wrap_deg())
 
 
 @dataclass(frozen=True)
@@ -69,6 +96,9 @@ class PlannedVisit:
     pier_side: str  # of a German equatorial mount: "east" while the target is west of the meridian
     timed: bool = False  # a time-critical visit, placed at its time (planning/fixedtime.py)
     epoch_number: int | None = None  # the event's epoch of a timed visit (None: fixed time)
+    # the azimuth axis's reading inside an alt-azimuth mount's cable wrap (NaN: no wrap)
+    mount_az_start_deg: float = float("nan")
+    mount_az_end_deg: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -93,7 +123,10 @@ def _reason(res, i: int) -> tuple[str, str]:
     key = max(lost, key=lambda k: lost[k]) if lost else "dark"
     text = {
         "altitude": "below the minimum altitude all night",
-        "max_alt": "above the maximum altitude whenever it is up", "airmass": "air mass too high",
+        "max_alt": "above the maximum altitude whenever it is up",
+        "az_rate": "faster in azimuth than the mount can follow",
+        "az_wrap": "outside the mount's azimuth range (cable wrap)",
+        "airmass": "air mass too high",
         "horizon": "behind the horizon profile", "moon": "lost to the Moon",
         "sun": "too close to the Sun", "hour_angle": "outside the mount's hour-angle range",
         "dec": "outside the mount's declination range", "between": "outside the clock range",
@@ -122,16 +155,30 @@ def slot_grid(sky, idx: np.ndarray, slots: np.ndarray,
     (some twenty arrays per pair) stay bounded whatever the catalogue's size; every pair is
     computed by the same element-wise operations, so the result equals the one-pass one.
     """
+    return _grids(sky, idx, slots, chunk, False)
+
+
+def axes_grid(sky, idx: np.ndarray, slots: np.ndarray,
+              chunk: int = GRID_CHUNK) -> tuple[np.ndarray, ...]:
+    """As :func:`slot_grid`, with the hour angle and the declination of date (degrees) too:
+    the axes of an equatorial mount."""
+    return _grids(sky, idx, slots, chunk, True)
+
+
+def _grids(sky, idx, slots, chunk, axes: bool) -> tuple[np.ndarray, ...]:
     s = len(slots)
-    alt = np.empty((len(idx), s))
-    az = np.empty((len(idx), s))
+    out = [np.empty((len(idx), s)) for _ in range(4 if axes else 2)]
     per = max(chunk // max(s, 1), 1)
     for a in range(0, len(idx), per):
         rows = idx[a:a + per]
-        al, zz, _ = sky.horizon(np.repeat(rows, s), np.tile(slots, len(rows)))
-        alt[a:a + per] = al.reshape(len(rows), s)
-        az[a:a + per] = zz.reshape(len(rows), s)
-    return alt, az
+        r, t = np.repeat(rows, s), np.tile(slots, len(rows))
+        al, zz, ha = sky.horizon(r, t)
+        got = [al, zz]
+        if axes:
+            got += [np.degrees(ha), np.degrees(sky.radec(r, t)[1])]
+        for grid, values in zip(out, got, strict=True):
+            grid[a:a + per] = values.reshape(len(rows), s)
+    return tuple(out)
 
 
 def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads: Overheads,
@@ -142,6 +189,9 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     ``rest``: plan only the rest of the night (see :mod:`skyplan.planning.replan`).
     """
     n = len(res.names)
+    the_mount = res.sky.site.mount
+    overheads = overheads.for_mount(the_mount)
+    slew = overheads.slew_model(the_mount)
     wins = replan.rest_windows(res.windows, rest, overheads.spacing_s)
     todo = replan.remaining(overheads.repeats, n, rest)
     has = np.zeros(n, bool)
@@ -154,25 +204,33 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     best = replan.best_airmass_left(res, wins)
     start, end = float(wins.start[has[wins.rows]].min()), float(wins.end[has[wins.rows]].max())
     slots = events.grid(start, end, SLOT_STEP_S)
-    alt, az = slot_grid(res.sky, idx, slots)
+    ha = dec = None
+    if slew.equatorial:
+        alt, az, ha, dec = axes_grid(res.sky, idx, slots)
+    else:
+        alt, az = slot_grid(res.sky, idx, slots)
     x = am.airmass(alt, res.limits.airmass_model)
     remap = np.full(n, -1)
     remap[idx] = np.arange(len(idx))
-    keep = has[wins.rows]
+    pieces = wins
+    if slew.german:
+        pieces = mountwindows.pier_pieces(res.sky, wins, *slew.past_meridian_rad, res.span)
+    keep = has[pieces.rows]
     exp = np.where(np.isfinite(exposure_s[idx]), exposure_s[idx], overheads.default_exposure_s)
     req = model.PlanRequest(
-        slot_unix=slots, win_target=remap[wins.rows[keep]],
-        win_start_unix=wins.start[keep], win_end_unix=wins.end[keep],
+        slot_unix=slots, win_target=remap[pieces.rows[keep]],
+        win_start_unix=pieces.start[keep], win_end_unix=pieces.end[keep],
         exposure_s=exp, repeats=todo[idx],
         spacing_s=np.full(len(idx), overheads.spacing_s), priority=priority[idx],
         best_airmass=best[idx],
         sun_flag=res.near_sun[idx] | res.daylight_window[idx],
-        airmass=x, alt_deg=alt, az_deg=az, setup_s=overheads.setup_s,
-        slew=model.SlewModel(overheads.slew_az_deg_s, overheads.slew_alt_deg_s,
-                                  overheads.settle_s),
+        airmass=x, alt_deg=alt, az_deg=az, setup_s=overheads.setup_s, slew=slew,
+        ha_deg=ha, dec_deg=dec,
     )
     plan = scheduling.make_plan(req, options)
-    visits = replan.renumbered(_describe(res, plan, idx, priority, exp, overheads), rest, best)
+    state = _mount_state(req, options, plan)
+    visits = replan.renumbered(_describe(res, plan, idx, priority, exp, overheads, state),
+                               rest, best)
     gone = replan.left_out(res, wins, todo, rest, overheads.repeats)
     missing = []
     for i in np.nonzero(~has)[0]:
@@ -226,7 +284,17 @@ def _left_out_text(req, plan, j: int, code: str, idx, names, zone) -> str:
     return text
 
 
-def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
+def _mount_state(req: model.PlanRequest, options: model.PlanOptions,
+                 plan: model.Plan) -> mountfit.MountState | None:
+    """The pier side and wrap readings of the plan's visits, when the mount has them."""
+    if not plan.visits or not (req.slew.german or req.slew.wrap_deg is not None):
+        return None
+    raw = [(v.target, v.start_unix, v.slew_s, v.exposure_start_unix, v.end_unix)
+           for v in plan.visits]
+    return mountfit.states(model.PlanNight(req, options), raw)
+
+
+def _describe(res, plan, idx, priority, exp, overheads, state=None) -> list[PlannedVisit]:
     """Exact positions of every visit at the start, middle and end of its exposure."""
     if not plan.visits:
         return []
@@ -265,7 +333,10 @@ def _describe(res, plan, idx, priority, exp, overheads) -> list[PlannedVisit]:
             parallactic_start_deg=float(q0[k]), parallactic_mid_deg=float(qm[k]),
             parallactic_end_deg=float(q1[k]), field_rotation_deg_per_min=float(rot[k]),
             sun_distance_deg=float(sun[k]),
-            pier_side="east" if np.sin(ha0[k]) > 0 else "west",
+            pier_side=(("west", "east")[int(state.side[k])] if state is not None
+                       and state.side[k] >= 0 else "east" if np.sin(ha0[k]) > 0 else "west"),
+            mount_az_start_deg=float(state.axis_az_start_deg[k]) if state else float("nan"),
+            mount_az_end_deg=float(state.axis_az_end_deg[k]) if state else float("nan"),
         ))
     return out
 

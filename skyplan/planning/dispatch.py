@@ -57,6 +57,7 @@ import numpy as np
 
 from skyplan import notices
 from skyplan.errors import InputError
+from skyplan.planning import mountfit
 from skyplan.planning.model import (
     AIRMASS_SLACK,
     EPS_S,
@@ -312,7 +313,7 @@ def _fits_in_a_gap(night: PlanNight, raw: list[tuple], targets: np.ndarray) -> n
 
 def _finish(night: PlanNight, raw: list[tuple], method: str, solve) -> Plan:
     """Number the repeats, give every unplaced target its reason, and compute the metrics."""
-    raw = sorted(raw, key=lambda v: (v[1], v[0]))
+    raw = sorted(mountfit.follow(night, raw), key=lambda v: (v[1], v[0]))
     target = np.array([v[0] for v in raw], dtype=int)
     mid = np.array([v[3] for v in raw]) + night.exposure_s[target] / 2
     am = night.airmass_at(target, mid)

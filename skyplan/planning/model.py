@@ -5,8 +5,8 @@ the request checked and turned into the arrays every planning method works on.
 The rules a plan obeys and how it is made are in :mod:`skyplan.planning.dispatch`, the
 dispatch reservations in :mod:`skyplan.planning.reservations`, the optimising method in
 :mod:`skyplan.planning.solver`.  Time is POSIX seconds UTC.
-The slew time between two pointings is ``max(|d az| / rate_az, |d alt| / rate_alt) + settle``,
-with ``|d az|`` the shorter way round.
+The slew time between two pointings is ``max(|d axis 1| / rate 1, |d axis 2| / rate 2) + settle``
+on the mount's axes (:class:`SlewModel`), axis 1 the shorter way round.
 """
 
 from __future__ import annotations
@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from skyplan.engine.mount import axes_slew_s
 from skyplan.errors import InputError, InputErrors
 
 METHODS = ("dispatch", "optimal")
@@ -26,24 +27,59 @@ EPS_S = 1e-6  # tolerance on time comparisons, seconds
 
 @dataclass(frozen=True)
 class SlewModel:
-    """Mount speeds: azimuth and altitude rates (deg/s) and a settle time after every slew."""
+    """The mount's speeds and limits as the planner sees them.
+
+    ``rate_az_deg_s``, ``rate_alt_deg_s``: the rates of axis 1 and axis 2 — azimuth and
+    altitude for an alt-azimuth mount (``kind`` "altaz", also the model when no mount is
+    named), hour angle and declination for the equatorial kinds; ``settle_s`` after every
+    slew.  ``flip_s``: added when a German mount changes pier side; ``past_meridian_rad``:
+    its (east, west) tracking past the meridian.  ``wrap_deg``: an alt-azimuth mount's
+    cable-wrap range (az_min, az_max), or None.
+    """
 
     rate_az_deg_s: float
     rate_alt_deg_s: float
     settle_s: float
+    kind: str = "altaz"
+    flip_s: float = 0.0
+    past_meridian_rad: tuple[float, float] = (0.0, 0.0)
+    wrap_deg: tuple[float, float] | None = None
+
+    @property
+    def equatorial(self) -> bool:
+        """True when the axes are hour angle and declination."""
+        return self.kind != "altaz"
+
+    @property
+    def german(self) -> bool:
+        return self.kind == "german-equatorial"
 
     def slew_s(
-        self, alt0_deg: np.ndarray, az0_deg: np.ndarray, alt1_deg: np.ndarray, az1_deg: np.ndarray
+        self, a2_0: np.ndarray, a1_0: np.ndarray, a2_1: np.ndarray, a1_1: np.ndarray
     ) -> np.ndarray:
-        """Slew time between pointings: the slower axis decides, azimuth the shorter way round."""
-        daz = np.abs(np.asarray(az1_deg) - np.asarray(az0_deg)) % 360.0
-        daz = np.minimum(daz, 360.0 - daz)
-        dalt = np.abs(np.asarray(alt1_deg) - np.asarray(alt0_deg))
-        return np.maximum(daz / self.rate_az_deg_s, dalt / self.rate_alt_deg_s) + self.settle_s
+        """Slew time between pointings given as (axis 2, axis 1) in degrees, the planner's
+        estimate: the two-axis model (:func:`skyplan.engine.mount.axes_slew_s`), axis 1 the
+        shorter way round, and for a German mount the flip when the two targets lie on
+        opposite sides of the meridian (hour angle, axis 1, of opposite signs).  The plan's
+        final slews follow the mount's state (:mod:`skyplan.planning.mountfit`).
+        """
+        a1_0, a1_1 = np.asarray(a1_0, dtype=float), np.asarray(a1_1, dtype=float)
+        d1 = np.abs(a1_1 - a1_0) % 360.0
+        d1 = np.minimum(d1, 360.0 - d1)
+        d2 = np.asarray(a2_1, dtype=float) - np.asarray(a2_0, dtype=float)
+        out = axes_slew_s(d1, d2, self.rate_az_deg_s, self.rate_alt_deg_s, self.settle_s)
+        if self.german and self.flip_s > 0:
+            out = out + self.flip_s * ((a1_0 % 360.0 >= 180.0) != (a1_1 % 360.0 >= 180.0))
+        return out
 
     def longest_s(self) -> float:
-        """Worst-case slew between two pointings above the horizon (180 deg az or 90 deg alt)."""
-        return max(180.0 / self.rate_az_deg_s, 90.0 / self.rate_alt_deg_s) + self.settle_s
+        """A slew no pointing pair above the horizon exceeds: axis 1 by 180° (the shorter way;
+        by the wrap's width for an alt-azimuth mount with a cable wrap), axis 2 by 90° of
+        altitude or 180° of declination, plus settle and a German mount's flip."""
+        axis1 = 180.0 if self.wrap_deg is None else self.wrap_deg[1] - self.wrap_deg[0]
+        axis2 = 180.0 if self.equatorial else 90.0
+        return (max(axis1 / self.rate_az_deg_s, axis2 / self.rate_alt_deg_s) + self.settle_s
+                + (self.flip_s if self.german else 0.0))
 
 
 @dataclass(frozen=True)
@@ -65,6 +101,8 @@ class PlanRequest:
     az_deg: np.ndarray  # [N, S]
     setup_s: float  # fixed overhead of every visit, after the slew
     slew: SlewModel
+    ha_deg: np.ndarray | None = None  # [N, S] hour angle; needed by the equatorial kinds
+    dec_deg: np.ndarray | None = None  # [N, S] declination of date; needed likewise
 
 
 @dataclass(frozen=True)
@@ -158,6 +196,16 @@ class PlanNight:
         self.az_unwrapped = np.degrees(np.unwrap(np.radians(_grid(req.az_deg, "az_deg", n, s))))
         if not (np.all(np.isfinite(self.alt_deg)) and np.all(np.isfinite(self.az_unwrapped))):
             raise ValueError("alt_deg and az_deg must be finite")
+        self.ha_unwrapped = self.dec_deg = None
+        if req.ha_deg is not None and req.dec_deg is not None:
+            self.ha_unwrapped = np.degrees(np.unwrap(np.radians(
+                _grid(req.ha_deg, "ha_deg", n, s))))
+            self.dec_deg = _grid(req.dec_deg, "dec_deg", n, s)
+        if req.slew.equatorial and self.ha_unwrapped is None:
+            raise ValueError("an equatorial mount needs ha_deg and dec_deg")
+        # the axes the slews are measured on: (axis 1 unwrapped, axis 2)
+        self.axis1, self.axis2 = ((self.ha_unwrapped, self.dec_deg) if req.slew.equatorial
+                                  else (self.az_unwrapped, self.alt_deg))
         self.setup_s = float(req.setup_s)
         self.slew = req.slew
         self.shortest_visit_s = req.slew.settle_s + self.setup_s + self.exposure_s
@@ -209,7 +257,9 @@ class PlanNight:
         return self._sample(self.airmass, i, t)
 
     def pointing_at(self, i: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        return self._sample(self.alt_deg, i, t), self._sample(self.az_unwrapped, i, t) % 360.0
+        """(axis 2, axis 1 in 0..360) of targets at times: (altitude, azimuth), or
+        (declination, hour angle) for an equatorial mount."""
+        return self._sample(self.axis2, i, t), self._sample(self.axis1, i, t) % 360.0
 
 
 TYPICAL_SLEW_TARGETS = 400  # at most this many targets per time in the typical slew's pairs

@@ -45,20 +45,22 @@ def slew_at(night: PlanNight, prev: int, i: int, t: float) -> float:
     """The slew model between two targets at time ``t``, in plain floats (a hot path).
 
     The same arithmetic as :meth:`SlewModel.slew_s` over :meth:`PlanNight.pointing_at`: linear
-    interpolation on the grid, azimuth unwrapped, the slower axis, the shorter way round.
+    interpolation on the grid, the mount's axes, axis 1 unwrapped and the shorter way round,
+    the slower axis, a German mount's flip between targets on opposite sides of the meridian.
     """
     u = (t - night.t0) / night.step_s
     k = min(max(int(u // 1), 0), night.slot_unix.size - 2)
     f = min(max(u - k, 0.0), 1.0)
-    alt, az = night.alt_deg, night.az_unwrapped
-    alt0 = alt[prev, k] * (1.0 - f) + alt[prev, k + 1] * f
-    alt1 = alt[i, k] * (1.0 - f) + alt[i, k + 1] * f
-    az0 = (az[prev, k] * (1.0 - f) + az[prev, k + 1] * f) % 360.0
-    az1 = (az[i, k] * (1.0 - f) + az[i, k + 1] * f) % 360.0
-    daz = abs(az1 - az0) % 360.0
-    daz = min(daz, 360.0 - daz)
+    a2, a1 = night.axis2, night.axis1
+    p0 = a2[prev, k] * (1.0 - f) + a2[prev, k + 1] * f
+    p1 = a2[i, k] * (1.0 - f) + a2[i, k + 1] * f
+    q0 = (a1[prev, k] * (1.0 - f) + a1[prev, k + 1] * f) % 360.0
+    q1 = (a1[i, k] * (1.0 - f) + a1[i, k + 1] * f) % 360.0
+    d1 = abs(q1 - q0) % 360.0
+    d1 = min(d1, 360.0 - d1)
     m = night.slew
-    return float(max(daz / m.rate_az_deg_s, abs(alt1 - alt0) / m.rate_alt_deg_s) + m.settle_s)
+    flip = m.flip_s if m.german and (q0 >= 180.0) != (q1 >= 180.0) else 0.0
+    return float(max(d1 / m.rate_az_deg_s, abs(p1 - p0) / m.rate_alt_deg_s) + m.settle_s + flip)
 
 
 def realise(

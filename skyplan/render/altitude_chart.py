@@ -162,6 +162,10 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         handles.append(Line2D([], [], color=GRID, linewidth=7.0, alpha=0.9, solid_capstyle="butt"))
         texts.append("planned visit, numbered in plan order"
                      if any(v.seq for v in scene.visits) else "planned visit")
+    if any(v.flip for v in scene.visits):
+        handles.append(Line2D([], [], linestyle="none", marker="D", markersize=7,
+                              markerfacecolor="white", markeredgecolor=INK, markeredgewidth=1.4))
+        texts.append("meridian flip (pier side changes)")
 
     hidden = place_labels(ax, renderer, peak_labels,
                           [n.get_window_extent(renderer) for n in numbers])
@@ -236,6 +240,10 @@ def _draw_visit(ax: Axes, t: np.ndarray, alt: np.ndarray, visit, colour: str,
         color=colour,
         zorder=5,
     )
+    if visit.flip:
+        ax.plot([start], [av[0]], linestyle="none", marker="D", markersize=7,
+                markerfacecolor="white", markeredgecolor=INK, markeredgewidth=1.4, zorder=6,
+                gid="flip")
     if not visit.seq:
         return []
     middle = 0.5 * (start + end)

@@ -21,10 +21,20 @@ def has_pier_side(site) -> bool:
     return site.mount is not None and site.mount.kind == "german-equatorial"
 
 
-def visit_record(v, pier_side: bool = False) -> dict:
-    """One visit as a plan observation; ``pier_side``: with the German mount's pier side."""
+def has_wrap(site) -> bool:
+    """Whether the plan's visits name the azimuth axis's readings: an alt-azimuth mount with
+    a cable wrap."""
+    return site.mount is not None and site.mount.wrap_deg() is not None
+
+
+def visit_record(v, pier_side: bool = False, wrap: bool = False) -> dict:
+    """One visit as a plan observation; ``pier_side``: with the German mount's pier side;
+    ``wrap``: with the azimuth axis's readings inside the cable wrap."""
     extra = {"identifier": v.identifier} if v.identifier else {}
     pier = {"pier_side": v.pier_side} if pier_side else {}
+    if wrap:
+        pier = {"mount_az_start_deg": round(v.mount_az_start_deg, 3),
+                "mount_az_end_deg": round(v.mount_az_end_deg, 3)}
     return {
         "seq": v.seq, "name": v.name, **extra, "repeat": v.repeat,
         "start": iso_utc(v.start), "exposure_start": iso_utc(v.exposure_start),
@@ -69,7 +79,8 @@ def plan_document(p, site, generated_at: float, rest=None) -> dict:
             "slew_az_deg_s": p.overheads.slew_az_deg_s,
             "slew_alt_deg_s": p.overheads.slew_alt_deg_s, "settle_s": p.overheads.settle_s,
         },
-        "observations": [visit_record(v, has_pier_side(site)) for v in p.visits],
+        "observations": [visit_record(v, has_pier_side(site), has_wrap(site))
+                         for v in p.visits],
         "not_placed": [{"name": str(res.names[i]), "reason": code, "explanation": text}
                        for i, code, text in p.not_placed],
         "short_repeats": [{"name": str(res.names[i]), "visits": got, "asked": asked}
@@ -133,9 +144,12 @@ def plan_table(p, site, codes=None, edges=None, *, color: bool = True):
     named = any(v.identifier and v.identifier != v.name for v in p.visits)
     if named:
         t.column("identifier", rank=11, fate="note")
-    for v in p.visits:
+    sides = [v.pier_side for v in p.visits] if has_pier_side(site) else []
+    for k, v in enumerate(p.visits):
         utc = dt.datetime.fromtimestamp(v.exposure_start, dt.UTC)
         notes = []
+        if sides and k and sides[k] != sides[k - 1]:
+            notes.append(f"flip to pier {sides[k]}")
         if v.repeat > 1:
             notes.append(f"repeat {v.repeat}")
         if v.target in short and v.repeat == short[v.target][0]:

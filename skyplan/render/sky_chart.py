@@ -81,6 +81,7 @@ def _build_sky(scene: SkyScene, size_px: int, dpi: int) -> Figure:
     clipped += _draw_horizon_profile(ax, scene)
     clipped += _draw_grid(ax, scene, base)
     clipped += _draw_sky_lines(ax, scene)
+    clipped += _draw_mount_limits(ax, scene)
     clipped += _draw_tracks(ax, scene, base)
     for artist in clipped:
         artist.set_clip_path(disk)
@@ -232,6 +233,23 @@ def _draw_sky_lines(ax: Axes, scene: SkyScene) -> list:
     return out
 
 
+_KEYHOLE_STYLE = {"color": PURPLE, "linewidth": 1.4, "linestyle": (0, (2, 2))}
+_FLIP_STYLE = {"color": PURPLE, "linewidth": 1.4, "linestyle": (0, (8, 3))}
+
+
+def _draw_mount_limits(ax: Axes, scene: SkyScene) -> list:
+    """The mount's limits: the keyhole's circle and the flip limits' hour circles."""
+    out = []
+    if scene.keyhole_alt_deg is not None:
+        az = np.linspace(0.0, 360.0, 181)
+        x, y = projection.project(np.full(az.shape, scene.keyhole_alt_deg), az, SPHERE_R)
+        out += ax.plot(x, y, zorder=3, gid="keyhole", **_KEYHOLE_STYLE)
+    for line in scene.flip_limits:
+        x, y = _project_above(line.alt_deg, line.az_deg)
+        out += ax.plot(x, y, zorder=3, gid="flip-limit", **_FLIP_STYLE)
+    return out
+
+
 def _draw_tracks(ax: Axes, scene: SkyScene, base: float) -> list:
     out = []
     for track in scene.tracks:
@@ -339,6 +357,11 @@ def _sky_key(fig: Figure, scene: SkyScene, base: float) -> None:
     if scene.ecliptic is not None:
         entries.append((Line2D([], [], color=ORANGE, linestyle=(0, (6, 2, 1, 2))), "ecliptic"))
     entries.append((Line2D([], [], color="#5F6B7A", linestyle=(0, (1, 2))), "meridian"))
+    if scene.keyhole_alt_deg is not None:
+        entries.append((Line2D([], [], **_KEYHOLE_STYLE),
+                        f"mount's keyhole ({scene.keyhole_alt_deg:g}°)"))
+    if scene.flip_limits:
+        entries.append((Line2D([], [], **_FLIP_STYLE), "mount's flip limits"))
     if scene.horizon is not None:
         entries.append((Patch(facecolor=GROUND, alpha=0.55), "horizon profile"))
     handles, texts = zip(*entries, strict=True)
