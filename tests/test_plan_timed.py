@@ -139,3 +139,53 @@ def test_replan_after_a_timed_visit_began(made):
     v = p.result.visits
     assert all(x.start >= start - 1e-6 for x in v)
     assert all(v[k].end <= v[k + 1].start + 1e-6 for k in range(len(v) - 1))
+
+
+def test_timed_visits_on_a_german_mount_keep_the_pier_side_and_its_slews():
+    """The demo's timed programme with a German mount (limits 20 and 30 min past the
+    meridian, a 90 s flip): every visit, time-critical or not, lies within its pier side's
+    hour-angle range by astropy's apparent sidereal time, and the time between two visits
+    holds the setup and the slew on the mount's axes, plus the flip when the side changes
+    (places from astropy; the two-axis model recomputed here)."""
+    import dataclasses
+
+    import astropy.units as u
+    from astropy.coordinates import TETE, SkyCoord
+    from astropy.time import Time
+
+    from skyplan.inputs.site import Mount
+
+    german = Mount("german-equatorial", past_meridian_east_min=20.0,
+                   past_meridian_west_min=30.0, flip_time_s=90.0, slew_rate_deg_s=(3.0, 2.0),
+                   settle_s=8.0)
+    site = dataclasses.replace(get_site(None, demo=True), mount=german)
+    targets = read_targets(str(scenario.demo_path("timed.csv")))
+    v = plan(targets, site, night(site, scenario.DEMO_DATE), setup_s=60.0).result.visits
+    assert any(x.timed for x in v)
+    names = targets.names.tolist()
+    where = _astropy(site)
+
+    def place(i, t):
+        when = Time(np.atleast_1d(t), format="unix", scale="utc")
+        c = SkyCoord(targets.ra_deg[i] * u.deg, targets.dec_deg[i] * u.deg).transform_to(
+            TETE(obstime=when, location=where))
+        lst = when.sidereal_time("apparent", longitude=site.lon_deg * u.deg).deg
+        ha = (lst - c.ra.deg + 180.0) % 360.0 - 180.0
+        return ha / 15.0, c.dec.deg
+
+    for x in v:
+        i = names.index(x.name)
+        h0, h1 = place(i, x.exposure_start)[0][0], place(i, x.end)[0][0]
+        assert h1 > h0, x.name  # no crossing of 12 h
+        if x.pier_side == "west":
+            assert h1 <= 30.0 / 60.0 + 0.003, (x.name, h1)
+        else:
+            assert h0 >= -20.0 / 60.0 - 0.003, (x.name, h0)
+    for p, q in zip(v, v[1:], strict=False):
+        hp, dp = place(names.index(p.name), p.end)
+        hq, dq = place(names.index(q.name), p.end)
+        want = max(abs(hq[0] - hp[0]) * 15.0 / 3.0, abs(dq[0] - dp[0]) / 2.0) + 8.0 + 60.0
+        if p.pier_side != q.pier_side:
+            want += 90.0
+        # the slew is reckoned at its start (no earlier than p.end); pointings move slowly
+        assert q.exposure_start - p.end >= want - 1.0, (p.name, q.name)

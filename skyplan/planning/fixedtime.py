@@ -11,7 +11,8 @@ night's occurrences come from :mod:`skyplan.engine.timedevents`, and each become
   placed where the target stands highest (a window's edge, or its transit).
 
 Overlapping time-critical visits go by priority (then the earlier).  The visits taken block
-their time, with the setup and a slew's allowance before them, and the night's other targets
+their time, with the setup and the longest slew the mount can make (a flip included) before
+them and the longest slew after them, and the night's other targets
 are planned in what is left by the usual objective (:func:`skyplan.planning.build.make_night_plan`);
 the time-critical targets are not planned again there.  Every time-critical target that got
 no visit is listed with why.  Loops run over tonight's few occurrences, never the catalogue.
@@ -27,7 +28,7 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from skyplan.defaults import TIMED_BASELINE_MIN
-from skyplan.engine import timedevents
+from skyplan.engine import mountwindows, timedevents
 from skyplan.engine.catch import within
 from skyplan.engine.intervals import Intervals, complement, intersect
 from skyplan.errors import NothingObservable
@@ -62,9 +63,12 @@ def _best_placement(res, rows, s, e, need):
 
 
 def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.ndarray,
-                 lead_s: float, baseline_s: float, after: float = -np.inf) -> TimedVisits:
+                 lead_s: float, baseline_s: float, after: float = -np.inf,
+                 windows: Intervals | None = None) -> TimedVisits:
     """Tonight's time-critical visits (see the module docstring); ``lead_s`` is kept free
-    before each (setup and slew); nothing starts before ``after`` (a re-plan's start)."""
+    before each (setup and slew); nothing starts before ``after`` (a re-plan's start).
+    ``windows``: where a visit may lie (default the targets' windows; for a German mount its
+    pier-side pieces, so that no visit meets the flip)."""
     night = res.night
     occ = timedevents.occurrences(timed, res.ra_deg, res.dec_deg, res.sky.site,
                                   night.span_start, night.span_end, exposure_s)
@@ -75,7 +79,8 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
     exact = event | ((occ.kind == "fixed") & ~np.isfinite(timed.fixed_end[occ.rows]))
     lo = np.where(event, occ.start - baseline_s, occ.start)
     hi = np.where(event, occ.end + baseline_s, occ.end)
-    parts = within(res.windows.clip(after, np.inf), occ.rows, lo, hi)
+    wins = res.windows if windows is None else windows
+    parts = within(wins.clip(after, np.inf), occ.rows, lo, hi)
     p = parts.rows
     core_a = np.where(exact[p], occ.start[p], parts.start)
     core_b = np.where(exact[p], occ.end[p], parts.end)
@@ -152,12 +157,17 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
 
 
 def _free(a: np.ndarray, b: np.ndarray, busy_a: np.ndarray, busy_b: np.ndarray) -> np.ndarray:
-    """The parts of the spans [a, b] outside every busy span, as (k, 2) rows."""
-    spans = Intervals.build(np.zeros(len(a), np.int64), a, b)
+    """The parts of the spans [a, b] outside every busy span, as (k, 2) rows.  Each span is
+    cut on its own: spans may overlap (a German mount's two pier-side pieces), and a part
+    must stay inside one of them."""
+    k = len(a)
+    spans = Intervals.build(np.arange(k), a, b)
     if len(busy_a):
         lo, hi = float(min(a.min(), busy_a.min())) - 1.0, float(max(b.max(), busy_b.max())) + 1.0
-        spans = intersect(spans, complement(Intervals.build(
-            np.zeros(len(busy_a), np.int64), busy_a, busy_b), np.zeros(1), lo, hi))
+        gaps = complement(Intervals.build(np.zeros(len(busy_a), np.int64), busy_a, busy_b),
+                          np.zeros(1), lo, hi)
+        spans = intersect(spans, Intervals.build(
+            np.repeat(np.arange(k), len(gaps)), np.tile(gaps.start, k), np.tile(gaps.end, k)))
     return np.stack([spans.start, spans.end], axis=1)
 
 
@@ -190,11 +200,17 @@ def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
     if timed is None or not timed.timed.any():
         return build.make_night_plan(res, priority, exposure_s, overheads, options, rest=rest)
     exp = np.where(np.isfinite(exposure_s), exposure_s, overheads.default_exposure_s)
-    slew = 180.0 / min(overheads.slew_az_deg_s, overheads.slew_alt_deg_s)
-    lead = overheads.setup_s + overheads.settle_s + slew
+    mount = res.sky.site.mount
+    slew = overheads.for_mount(mount).slew_model(mount)
+    lead = overheads.for_mount(mount).setup_s + slew.longest_s()  # flip time included
+    wins = None
+    if slew.german:  # a visit lies wholly on one side of the pier
+        p = mountwindows.pier_pieces(res.sky, res.windows, *slew.past_meridian_rad, res.span)
+        wins = Intervals.build(p.rows, p.start, p.end)
     after = -np.inf if rest is None or rest.start_unix is None else \
         rest.start_unix + overheads.setup_s
-    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN, after)
+    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN, after,
+                      wins)
     if rest is not None:  # re-planning: nothing before the start, nothing done again
         start = -np.inf if rest.start_unix is None else rest.start_unix
         live = (tv.start - overheads.setup_s >= start) & (rest.done[tv.rows] == 0)
@@ -204,7 +220,7 @@ def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
                           ("passed", "its time-critical visit begins before the start"))
         tv = TimedVisits(tv.rows[live], tv.start[live], tv.end[live], tv.epoch[live], refused)
     trimmed = dataclasses.replace(res, windows=_without(res.windows, np.flatnonzero(
-        timed.timed), tv.start - lead, tv.end))
+        timed.timed), tv.start - lead, tv.end + slew.longest_s()))
     try:
         made = build.make_night_plan(trimmed, priority, exposure_s, overheads, options,
                                      rest=rest)
@@ -247,7 +263,33 @@ def _describe(res, tv: TimedVisits, priority, overheads) -> list:
                           overheads.setup_s, float(tv.start[k]), float(tv.end[k]), np.nan)
               for k in range(len(tv.rows))]
     plan = SimpleNamespace(visits=visits)  # what build._describe reads of a plan
-    described = build._describe(res, plan, tv.rows, priority, tv.end - tv.start, overheads)
+    described = build._describe(res, plan, tv.rows, priority, tv.end - tv.start, overheads,
+                                _pier_sides(res, tv, overheads))
     return [dataclasses.replace(v, timed=True, epoch_number=None if not np.isfinite(e)
                                 else int(e)) for v, e in zip(described, tv.epoch, strict=True)]
 
+
+
+def _pier_sides(res, tv: TimedVisits, overheads) -> SimpleNamespace | None:
+    """For a German mount, the pier side of each time-critical visit: the side whose
+    hour-angle range holds the whole exposure (the visits were placed inside one), the usual
+    side (west while the target is east of the meridian) when both do."""
+    mount = res.sky.site.mount
+    slew = overheads.for_mount(mount).slew_model(mount)
+    if not slew.german or len(tv.rows) == 0:
+        return None
+    past_east, past_west = slew.past_meridian_rad
+    ha0 = _wrapped(res.sky.horizon(tv.rows, tv.start)[2])
+    ha1 = _wrapped(res.sky.horizon(tv.rows, tv.end)[2])
+    west_ok = (ha1 >= ha0) & (ha1 <= past_west + 1e-6)
+    east_ok = (ha1 >= ha0) & (ha0 >= -past_east - 1e-6)
+    usual_east = ha0 > 0
+    east = east_ok & (usual_east | ~west_ok)
+    side = np.where(east, 1, np.where(west_ok, 0, -1)).astype(np.int8)
+    nan = np.full(len(tv.rows), np.nan)
+    return SimpleNamespace(side=side, axis_az_start_deg=nan, axis_az_end_deg=nan)
+
+
+def _wrapped(ha: np.ndarray) -> np.ndarray:
+    """Hour angle in [−π, π)."""
+    return (np.asarray(ha) + np.pi) % (2.0 * np.pi) - np.pi
