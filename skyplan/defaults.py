@@ -19,6 +19,10 @@ RISE_SET_ALT_DEG = -34.0 / 60.0
 # The observer's limits when neither the command line nor the site sets them.
 MIN_ALT_DEG = 20.0  # minimum altitude: common practice for small telescopes
 MAX_ALT_DEG = None  # no maximum altitude (an alt-azimuth mount may want ~85°: its zenith keyhole)
+# an alt-azimuth mount whose table gives no max_alt_deg: its zenith keyhole, where the azimuth
+# axis would have to turn too fast to follow (common practice for small alt-az telescopes,
+# not a standard; the mount's own figure belongs in [site.NAME.mount])
+ALTAZ_KEYHOLE_DEG = 85.0
 MAX_AIRMASS = None  # no air-mass cap
 DARK = "astronomical"  # a name of TWILIGHT_SUN_ALT_DEG, "none", or a Sun altitude
 MOON_GAP_DEG = 0.0  # no distance from the Moon

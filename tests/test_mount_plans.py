@@ -514,3 +514,40 @@ def load_mount(path) -> Mount:
     from skyplan.inputs.sitesfile import load_sites
 
     return load_sites(path)["hill"].mount
+
+
+def test_an_altaz_mount_without_a_table_keeps_out_of_the_usual_keyhole(tmp_path) -> None:
+    """``plan --demo --mount altaz`` with no mount table: the maximum altitude is the usual
+    keyhole (skyplan.defaults.ALTAZ_KEYHOLE_DEG, 85°, common practice) and no exposure goes
+    above it at its start, middle or end (astropy's altitude of the written apparent place)."""
+    import json
+
+    import astropy.units as u
+    from astropy.coordinates import TETE, AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    from skyplan.cli.app import main
+    from skyplan.defaults import ALTAZ_KEYHOLE_DEG
+
+    ephemeris.configure_astropy_offline()
+    out = tmp_path / "plan.json"
+    with pytest.raises(SystemExit) as exc:
+        main(["plan", "--demo", "--mount", "altaz", "--format", "json", "--out", str(out),
+              "--quiet"])
+    assert exc.value.code == 0
+    doc = json.loads(out.read_text())
+    assert doc["limits"]["max_alt_deg"] == ALTAZ_KEYHOLE_DEG == 85.0
+    site = doc["site"]
+    loc = EarthLocation.from_geodetic(site["lon_deg"] * u.deg, site["lat_deg"] * u.deg,
+                                      site["elevation_m"] * u.m)
+    midnight = Time(doc["night"]["local_midnight"].replace("Z", ""), scale="utc")
+    obs = doc["observations"]
+    assert len(obs) >= 10
+    for o in obs:
+        t0 = Time(o["exposure_start"].replace("Z", ""), scale="utc")
+        t1 = Time(o["end"].replace("Z", ""), scale="utc")
+        when = t0 + (t1 - t0) * np.linspace(0.0, 1.0, 3)
+        star = SkyCoord(o["ra_apparent_deg"] * u.deg, o["dec_apparent_deg"] * u.deg,
+                        frame=TETE(obstime=midnight))
+        alt = star.transform_to(AltAz(obstime=when, location=loc, pressure=0 * u.hPa)).alt.deg
+        assert np.all(alt <= 85.0 + 0.02), (o["name"], alt)

@@ -48,7 +48,7 @@ Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equato
                      "altaz (default: the site's [site.NAME.mount] kind, whose other keys "
                      "stay). Plans slew on its axes; german-equatorial keeps each visit on "
                      "one pier side and pays for flips; altaz takes the mount's max_alt_deg "
-                     "as --max-alt and keeps to its cable wrap.")
+                     "(else 85) as --max-alt and keeps to its cable wrap.")
 
 SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
                  "reported) instead of stopping.")

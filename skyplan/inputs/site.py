@@ -15,6 +15,7 @@ import zoneinfo
 from dataclasses import dataclass, field
 
 from skyplan import notices
+from skyplan.defaults import ALTAZ_KEYHOLE_DEG
 from skyplan.errors import InputError
 from skyplan.inputs.atmosphere import isa_pressure_hpa, isa_temperature_c
 from skyplan.inputs.horizon import HorizonProfile
@@ -302,11 +303,14 @@ def with_mount(site: Site, kind: str | None) -> Site:
 
 def mount_limits(site: Site) -> tuple[dict[str, object], dict[str, Origin]]:
     """The site's limits with an alt-azimuth mount's ``max_alt_deg`` as the default maximum
-    altitude (a ``max_alt_deg`` among the site's limits comes first), and their origins."""
+    altitude (a ``max_alt_deg`` among the site's limits comes first; a mount table without
+    one: :data:`skyplan.defaults.ALTAZ_KEYHOLE_DEG`), and their origins."""
     m = site.mount
-    if m is None or m.kind != "altaz" or m.max_alt_deg is None or "max_alt_deg" in site.limits:
+    if m is None or m.kind != "altaz" or "max_alt_deg" in site.limits:
         return dict(site.limits), dict(site.limit_origins)
     origins = dict(site.limit_origins)
+    if m.max_alt_deg is None:  # no figure of the mount's own: the usual keyhole
+        return {**site.limits, "max_alt_deg": ALTAZ_KEYHOLE_DEG}, origins
     if m.origin is not None:
         origins["max_alt_deg"] = m.origin
     return {**site.limits, "max_alt_deg": m.max_alt_deg}, origins
