@@ -189,3 +189,24 @@ def test_timed_visits_on_a_german_mount_keep_the_pier_side_and_its_slews():
             want += 90.0
         # the slew is reckoned at its start (no earlier than p.end); pointings move slowly
         assert q.exposure_start - p.end >= want - 1.0, (p.name, q.name)
+
+
+def test_the_baseline_option_sets_the_out_of_event_time(made):
+    """``baseline_min=10`` (``--baseline 10``): the transit visit runs from ingress − 10 min
+    to egress + 10 min, ingress and egress from T0, P and the duration by plain arithmetic
+    and astropy's light travel time, as in the test above."""
+    import astropy.units as u
+    from astropy.coordinates import SkyCoord
+    from astropy.time import Time
+
+    site, targets, _ = made
+    p = plan(targets, site, night(site, scenario.DEMO_DATE), baseline_min=10.0)
+    x = next(v for v in p.result.visits if v.name == "Corriemoor b")
+    t0, period, dur = CORRIEMOOR
+    i = targets.names.tolist().index("Corriemoor b")
+    t = Time([x.exposure_start + 600.0, x.end - 600.0], format="unix", scale="utc",
+             location=_astropy(site))
+    bjd = t.tdb + t.light_travel_time(SkyCoord(targets.ra_deg[i] * u.deg,
+                                               targets.dec_deg[i] * u.deg), ephemeris="builtin")
+    expected = t0 + x.epoch_number * period + np.array([-1.0, 1.0]) * dur / 48.0
+    assert np.max(np.abs((bjd.jd1 - expected) + bjd.jd2)) * 86400.0 < 0.5

@@ -12,6 +12,7 @@ import numpy as np
 from skyplan.api.night import Night
 from skyplan.api.targets import Targets
 from skyplan.api.windows import Windows, windows
+from skyplan.defaults import TIMED_BASELINE_MIN
 from skyplan.inputs.limits import Limits
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
@@ -29,7 +30,8 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
                   spacing_min: float = 0.0, slew_rate_deg_s: tuple[float, float] | None = None,
                   settle_s: float | None = None, method: str = "optimal", time_limit_s: float = 5.0,
                   airmass_slack: float | None = 0.15, priority_cut: int | None = None,
-                  allow_near_sun: bool = False) -> PlanSettings:
+                  allow_near_sun: bool = False,
+                  baseline_min: float = TIMED_BASELINE_MIN) -> PlanSettings:
     """Check the plan's settings; an :class:`skyplan.InputError` names the bad one.
 
     ``exposure_s``: for targets without their own; ``setup_s``: per visit; ``spacing_min``:
@@ -38,7 +40,8 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     ``settle_s`` default to the site's mount table, else (2, 2) and 10;
     ``method``: 'optimal' (integer program) or 'dispatch' (fast greedy);
     ``airmass_slack``: below the top priority, visits only within this fraction of the
-    target's best air mass tonight (None turns the rule off).
+    target's best air mass tonight (None turns the rule off); ``baseline_min``: the
+    out-of-event time wanted before and after a time-critical event (transit, eclipse).
     """
     from skyplan.errors import InputError
     from skyplan.planning import build, dispatch
@@ -52,7 +55,7 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     settle_s = build.Overheads.settle_s if settle_s is None else settle_s
     for value, name in ((exposure_s, "exposure_s"), (setup_s, "setup_s"),
                         (settle_s, "settle_s"), (spacing_min, "spacing_min"),
-                        (time_limit_s, "time_limit_s")):
+                        (time_limit_s, "time_limit_s"), (baseline_min, "baseline_min")):
         if not (value >= 0 and value < 1e7):
             raise InputError(f"{value:g} must be a non-negative number of reasonable size",
                              field=name)
@@ -67,7 +70,8 @@ def plan_settings(*, exposure_s: float = 300.0, setup_s: float = 60.0, repeats: 
     overheads = build.Overheads(
         default_exposure_s=exposure_s, setup_s=setup_s, repeats=repeats,
         spacing_s=60.0 * spacing_min, slew_az_deg_s=az_rate, slew_alt_deg_s=alt_rate,
-        settle_s=settle_s, rates_given=given[0], settle_given=given[1])
+        settle_s=settle_s, rates_given=given[0], settle_given=given[1],
+        timed_baseline_s=60.0 * baseline_min)
     options = dispatch.PlanOptions(
         method=method, time_limit_s=time_limit_s, priority_cut=priority_cut,
         allow_near_sun=allow_near_sun,

@@ -11,7 +11,6 @@ from skyplan.defaults import TIMED_BASELINE_MIN, TIMED_MIN_COVERAGE
 FROM_HELP = ("First night (local date of the evening, YYYY-MM-DD, 'today', 'tomorrow'); "
              "default today (with --demo, the demo date).")
 TO_HELP = "Last night, inclusive; default: 29 nights after the first."
-BASELINE_HELP = "Out-of-event minutes wanted before ingress and after egress."
 COVERAGE_HELP = ("The part of an event that must be observable to list it (0 to 1; 0: every "
                  "event).")
 
@@ -26,7 +25,7 @@ def catch_cmd(
     site: str = common.SiteOpt,
     start: str = typer.Option(None, "--from", help=FROM_HELP),
     end: str = typer.Option(None, "--to", help=TO_HELP),
-    baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=BASELINE_HELP),
+    baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=sky.BASELINE_HELP),
     min_coverage: float = typer.Option(TIMED_MIN_COVERAGE, "--min-coverage",
                                        help=COVERAGE_HELP),
     min_alt: float = sky.MinAlt,

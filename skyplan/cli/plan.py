@@ -8,6 +8,7 @@ import typer
 
 from skyplan.cli import options as common
 from skyplan.cli import skyoptions as sky
+from skyplan.defaults import TIMED_BASELINE_MIN
 
 START_HELP = ("Plan only the rest of the night from this time: 'now', HH:MM on the night's "
               "local clock (after noon the evening, before noon the next morning) or ISO 8601 "
@@ -80,6 +81,7 @@ def plan_cmd(
     airmass_slack: float = AirmassSlack,
     priority_cut: int = PriorityCut,
     allow_near_sun: bool = AllowNearSun,
+    baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=sky.BASELINE_HELP),
     elements: str = Elements,
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
@@ -102,7 +104,7 @@ def plan_cmd(
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     chosen = settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
-                      airmass_slack, priority_cut, allow_near_sun)
+                      airmass_slack, priority_cut, allow_near_sun, baseline)
     limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
                                dec_range, between, no_horizon_profile, airmass_model, refraction)
     with _progress(quiet) as step:
@@ -142,7 +144,7 @@ def emit_plan(made, fmt: str, out: str | None, wide: bool = False) -> None:
 
 
 def settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
-             airmass_slack, priority_cut, allow_near_sun):
+             airmass_slack, priority_cut, allow_near_sun, baseline=TIMED_BASELINE_MIN):
     """The checked plan settings of a command's options (errors name the options)."""
     from skyplan.api import plan as planning
     from skyplan.planning import dispatch as scheduling
@@ -151,12 +153,12 @@ def settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_
     rates = None if slew_rate is None else _rates(slew_rate)
     with common.named_as(exposure_s="--exposure", setup_s="--setup", settle_s="--settle",
                          spacing_min="--spacing", time_limit_s="--time-limit",
-                         repeats="--repeats"):
+                         repeats="--repeats", baseline_min="--baseline"):
         return planning.plan_settings(
             exposure_s=exposure, setup_s=setup, repeats=repeats, spacing_min=spacing,
             slew_rate_deg_s=rates, settle_s=settle, method=method, time_limit_s=time_limit,
             airmass_slack=airmass_slack, priority_cut=priority_cut,
-            allow_near_sun=allow_near_sun)
+            allow_near_sun=allow_near_sun, baseline_min=baseline)
 
 
 @dataclass(frozen=True)

@@ -50,6 +50,8 @@ Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equato
                      "one pier side and pays for flips; altaz takes the mount's max_alt_deg "
                      "(else 85) as --max-alt and keeps to its cable wrap.")
 
+BASELINE_HELP = ("Out-of-event minutes wanted before ingress and after egress (time-critical "
+                 "targets with event_t0, period_d, duration_h).")
 SKIP_BAD_HELP = ("Skip malformed catalogue rows and rows whose name does not resolve (each "
                  "reported) instead of stopping.")
 SkipBad = typer.Option(False, "--skip-bad-rows", help=SKIP_BAD_HELP)

@@ -16,6 +16,7 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
+from skyplan.defaults import TIMED_BASELINE_MIN
 from skyplan.engine import airmass as am
 from skyplan.engine import events, mount, mountwindows
 from skyplan.errors import NothingObservable
@@ -37,6 +38,7 @@ class Overheads:
     # False: the value above is the built-in default, and the site's mount table decides
     rates_given: bool = True
     settle_given: bool = True
+    timed_baseline_s: float = 60.0 * TIMED_BASELINE_MIN  # before and after a timed event
 
     def for_mount(self, mount) -> Overheads:
         """The overheads with the mount table's slew rates and settle where no option gave

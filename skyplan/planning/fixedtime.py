@@ -4,8 +4,9 @@ For each time-critical target of the catalogue (:mod:`skyplan.inputs.ephemerides
 night's occurrences come from :mod:`skyplan.engine.timedevents`, and each becomes one visit:
 
 * an event (transit, eclipse): ingress − B .. egress + B, B the baseline
-  (:data:`skyplan.defaults.TIMED_BASELINE_MIN`); ingress..egress must lie in one window of
-  the target (every limit holds), and the baselines are cut to that window;
+  (`--baseline`, default :data:`skyplan.defaults.TIMED_BASELINE_MIN`); ingress..egress
+  must lie in one window of the target (every limit holds), and the baselines are cut to
+  that window;
 * a ``fixed_start`` request: its start and its exposure, which must lie in one window;
 * a ``fixed_window`` request or a phase span: one exposure inside it and inside a window,
   placed where the target stands highest (a window's edge, or its transit).
@@ -27,7 +28,6 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from skyplan.defaults import TIMED_BASELINE_MIN
 from skyplan.engine import mountwindows, timedevents
 from skyplan.engine.catch import within
 from skyplan.engine.intervals import Intervals, complement, intersect
@@ -209,7 +209,7 @@ def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
         wins = Intervals.build(p.rows, p.start, p.end)
     after = -np.inf if rest is None or rest.start_unix is None else \
         rest.start_unix + overheads.setup_s
-    tv = timed_visits(res, timed, priority, exp, lead, 60.0 * TIMED_BASELINE_MIN, after,
+    tv = timed_visits(res, timed, priority, exp, lead, overheads.timed_baseline_s, after,
                       wins)
     if rest is not None:  # re-planning: nothing before the start, nothing done again
         start = -np.inf if rest.start_unix is None else rest.start_unix
