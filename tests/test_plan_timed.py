@@ -160,8 +160,13 @@ def test_timed_visits_on_a_german_mount_keep_the_pier_side_and_its_slews():
                    settle_s=8.0)
     site = dataclasses.replace(get_site(None, demo=True), mount=german)
     targets = read_targets(str(scenario.demo_path("timed.csv")))
-    v = plan(targets, site, night(site, scenario.DEMO_DATE), setup_s=60.0).result.visits
+    made_here = plan(targets, site, night(site, scenario.DEMO_DATE), setup_s=60.0).result
+    v = made_here.visits
     assert any(x.timed for x in v)
+    # the transit of Corriemoor b spans the meridian (HA about -2 h to +2.4 h): not taken
+    why = {targets.names[i]: (code, text) for i, code, text in made_here.not_placed}
+    assert why["Corriemoor b"][0] == "timed_not_observable"
+    assert "meridian flip" in why["Corriemoor b"][1]
     names = targets.names.tolist()
     where = _astropy(site)
 

@@ -80,14 +80,12 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
     lo = np.where(event, occ.start - baseline_s, occ.start)
     hi = np.where(event, occ.end + baseline_s, occ.end)
     wins = res.windows if windows is None else windows
-    parts = within(wins.clip(after, np.inf), occ.rows, lo, hi)
-    p = parts.rows
-    core_a = np.where(exact[p], occ.start[p], parts.start)
-    core_b = np.where(exact[p], occ.end[p], parts.end)
-    holds = np.where(exact[p], (parts.start <= core_a + FIT_TOL_S)
-                     & (parts.end >= core_b - FIT_TOL_S),
-                     parts.end - parts.start >= occ.need_s[p] - FIT_TOL_S)
-    p, a, b = p[holds], parts.start[holds], parts.end[holds]
+    p, a, b = _holding(wins.clip(after, np.inf), occ, exact, lo, hi)
+    # which would hold but for the mount's pier sides (to say why they were not taken)
+    flip_only = np.zeros(len(occ.rows), dtype=bool)
+    if windows is not None:
+        flip_only[_holding(res.windows.clip(after, np.inf), occ, exact, lo, hi)[0]] = True
+        flip_only[p] = False
     fixed_start = exact[p] & ~event[p]
     a = np.where(fixed_start, np.maximum(a, occ.start[p]), a)
     b = np.where(fixed_start, np.minimum(b, occ.end[p]), b)
@@ -152,8 +150,26 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
                 "inside a window", "phase": f"its phase span {span} holds no window long "
                 "enough for one exposure"}.get(occ.kind[j], f"its time {span} is not "
                                                "observable under the limits")
+        if flip_only[mine].any():
+            which = (f"event {span} (epoch {int(occ.epoch[j])})" if occ.kind[j] == "event"
+                     else f"time {span}")
+            what = (f"its {which} would need a meridian flip in the middle (see the mount's "
+                    "past_meridian limits)")
         refused[i] = ("timed_not_observable", what)
     return TimedVisits(rows, a, b, occ.epoch[q_taken], refused)
+
+
+def _holding(wins: Intervals, occ, exact: np.ndarray, lo: np.ndarray, hi: np.ndarray):
+    """(occurrence, start, end) of each part of a window that can hold an occurrence: the
+    whole of an exact one (event, fixed start), or one exposure of the others."""
+    parts = within(wins, occ.rows, lo, hi)
+    p = parts.rows
+    core_a = np.where(exact[p], occ.start[p], parts.start)
+    core_b = np.where(exact[p], occ.end[p], parts.end)
+    holds = np.where(exact[p], (parts.start <= core_a + FIT_TOL_S)
+                     & (parts.end >= core_b - FIT_TOL_S),
+                     parts.end - parts.start >= occ.need_s[p] - FIT_TOL_S)
+    return p[holds], parts.start[holds], parts.end[holds]
 
 
 def _free(a: np.ndarray, b: np.ndarray, busy_a: np.ndarray, busy_b: np.ndarray) -> np.ndarray:
