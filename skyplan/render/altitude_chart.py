@@ -99,14 +99,18 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         handles.append(Patch(facecolor=BAND[state], edgecolor=GRID, linewidth=0.5))
         texts.append(TWILIGHT_STATES[state])
 
-    for k, (a, b, label) in enumerate(scene.event_spans):  # time-critical: hatched bands
-        ax.axvspan(a, b, facecolor="none", edgecolor=INK, hatch="//", linewidth=0.0,
-                   alpha=0.3, zorder=2, gid=f"event-{k}")
-        ax.text(0.5 * (a + b), 89.0 - 3.5 * (k % 3), _shorten(label, 18), ha="center",
-                va="top", fontsize=0.7 * base, color=INK, zorder=6)
+    # time-critical spans of targets without a curve: a hatched strip along the bottom
+    curves = set(scene.names)
+    loose = [(a, b, label) for a, b, label in scene.event_spans if label not in curves]
+    for k, (a, b, label) in enumerate(loose):
+        ax.axvspan(a, b, ymin=0.0, ymax=0.04, facecolor="none", edgecolor=INK, hatch="//",
+                   linewidth=0.0, alpha=0.5, zorder=2, gid=f"event-loose-{k}")
+        ax.text(0.5 * (a + b), 4.0, _shorten(label, 18), ha="center", va="bottom",
+                fontsize=0.7 * base, color=INK, zorder=6)
     if scene.event_spans:
-        handles.append(Patch(facecolor="none", edgecolor=INK, hatch="//", linewidth=0.5))
-        texts.append("event (ingress to egress)")
+        handles.append(Patch(facecolor=GRID, edgecolor=INK, hatch="//", linewidth=0.5,
+                             alpha=0.6))
+        texts.append("event, ingress–egress")
 
     ax2 = ax.secondary_yaxis("right", functions=(_airmass_of_alt, _alt_of_airmass))
     ax2.set_yticks([1.0, 1.1, 1.2, 1.5, 2.0, 3.0, 5.0])
@@ -142,6 +146,15 @@ def _build_altitude(scene: AltitudeScene, width_px: int, height_px: int, dpi: in
         )
         handles.append(line)
         texts.append(_shorten(name))
+        for j, (a, b, label) in enumerate(scene.event_spans):
+            if label == name:  # the event under its target's curve, edged at both contacts
+                inside = (t >= a) & (t <= b)
+                ax.fill_between(t, 0.0, alt, where=inside, facecolor=colour, alpha=0.18,
+                                edgecolor=colour, hatch="//", linewidth=0.0, zorder=2,
+                                gid=f"event-{j}")
+                for edge in (a, b):
+                    ax.plot([edge, edge], [0.0, float(np.interp(edge, t, alt))],
+                            color=colour, linewidth=1.0, linestyle=(0, (2, 2)), zorder=4)
         for v in scene.visits:
             if v.name == name:
                 numbers += _draw_visit(ax, t, alt, v, colour, 0.75 * base)
