@@ -72,16 +72,21 @@ def ramp(count: np.ndarray) -> np.ndarray:
 
 
 def padded_model(
-    night: PlanNight, step_s: float, weight: np.ndarray, pad_s: float | None = None
+    night: PlanNight, step_s: float, weight: np.ndarray, pad_s: float | None = None,
+    only: np.ndarray | None = None,
 ) -> TimeModel:
     """The model plans are made from (see the module docstring).
 
     ``pad_s``: the slew allowance, the longest slew by default (the proven case); a shorter
-    one gives a denser model whose realisation may have to push or drop visits.
+    one gives a denser model whose realisation may have to push or drop visits.  ``only``:
+    a mask of the targets to model (default every target).
     """
     pad = night.slew.longest_s() if pad_s is None else float(pad_s)
     t0, g = night.t0, step_s
     wt, ws, we = night.win_target, night.win_start, night.win_end
+    if only is not None:
+        keep = np.asarray(only, bool)[wt]
+        wt, ws, we = wt[keep], ws[keep], we[keep]
     span = pad + night.setup_s + night.exposure_s
     lo = np.ceil((ws - t0) / g - _TOL).astype(int)
     hi = np.floor((we - span[wt] - t0) / g + _TOL).astype(int)
