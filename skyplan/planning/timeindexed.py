@@ -275,11 +275,13 @@ class Solution:
 MIP_GAP = 1e-4
 
 
-def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
+def solve(model: TimeModel, time_limit_s: float, integer: bool, floors=()) -> Solution:
     """Maximise the summed merit with HiGHS (``highspy``): a MIP, or its LP relaxation.
 
     Options are fixed (one thread, HiGHS's fixed random seed, relative gap ``MIP_GAP``), so a
-    solve that ends inside its time limit is reproducible.
+    solve that ends inside its time limit is reproducible.  ``floors``: pairs (mask of the
+    variables, least count): rows asking at least that many of those variables, after the
+    model's own rows.
     """
     m = model.size
     if m == 0:
@@ -309,6 +311,9 @@ def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
     ):
         h.setOptionValue(key, value)
     h.passModel(lp)
+    for mask, least in floors:
+        cols = np.flatnonzero(mask).astype(np.int32)
+        h.addRow(float(least), highs.kHighsInf, cols.size, cols, np.ones(cols.size))
     h.run()
     info = h.getInfo()
     optimal = h.getModelStatus() == highs.HighsModelStatus.kOptimal
