@@ -37,6 +37,7 @@ STARTS = 5  # segments tried per window: those starting where the visit's airmas
 MAX_DROPS = 2  # lower-priority visits a single insertion may drop
 EJECTED = 3  # visits of the same priority or above tried for moving elsewhere
 RELOCATED = 8  # visits of the level, the furthest from their best airmass, tried again
+RELOCATE_ABOVE = 0.05  # ... when their airmass is more than this above their best
 _EPS_S = 1e-6
 
 
@@ -132,11 +133,11 @@ def _orders(seg_items: list[tuple], new: tuple) -> list[list[tuple]]:
 
 
 def insert(night: PlanNight, visits: list[tuple], i: int, ws: float, we: float,
-           weight: np.ndarray) -> list[tuple] | None:
+           weight: np.ndarray, deadline: float = np.inf) -> list[tuple] | None:
     """The best plan with one more visit of ``i`` inside window [ws, we] (see above), or None.
 
     ``visits`` in time order; a returned plan keeps every rule but is not compared with
-    ``visits`` (the caller compares values).
+    ``visits`` (the caller compares values).  Tries no new segment after ``deadline``.
     """
     n = len(visits)
     starts = np.array([v[1] for v in visits])
@@ -153,6 +154,8 @@ def insert(night: PlanNight, visits: list[tuple], i: int, ws: float, we: float,
     new = (i, ws, we)
     best, best_value = None, -np.inf
     for a in (int(a) for a in first):
+        if time.monotonic() > deadline:
+            break
         for b in range(a, min(a + SEGMENT, n) + 1):  # the shortest segment that takes it
             got = _insert_run(night, visits, a, b, new, weight)
             if got is not None:
@@ -208,9 +211,9 @@ def insert_missing(night: PlanNight, visits: list[tuple], weight: np.ndarray,
         for ws, we in _windows(night, int(i)):
             if count[i] >= night.repeats[i] or time.monotonic() > deadline:
                 break
-            got = insert(night, visits, int(i), ws, we, weight)
+            got = insert(night, visits, int(i), ws, we, weight, deadline)
             if got is None:
-                got = _insert_ejecting(night, visits, int(i), ws, we, weight)
+                got = _insert_ejecting(night, visits, int(i), ws, we, weight, deadline)
             if got is None:
                 continue
             got_value = plan_value(night, got, weight)
@@ -226,11 +229,12 @@ def _without(night: PlanNight, visits: list[tuple], k: int) -> list[tuple] | Non
     return _join(night, visits[:k] + visits[k + 1:], k, k, [])
 
 
-def _best_insert(night: PlanNight, visits: list[tuple], i: int, weight) -> list[tuple] | None:
+def _best_insert(night: PlanNight, visits: list[tuple], i: int, weight,
+                 deadline: float = np.inf) -> list[tuple] | None:
     """The best plan with one more visit of ``i`` in any of its windows, or None."""
     best, best_value = None, -np.inf
     for ws, we in _windows(night, i):
-        got = insert(night, visits, i, ws, we, weight)
+        got = insert(night, visits, i, ws, we, weight, deadline)
         got_value = -np.inf if got is None else plan_value(night, got, weight)
         if got_value > best_value:
             best, best_value = got, got_value
@@ -238,7 +242,7 @@ def _best_insert(night: PlanNight, visits: list[tuple], i: int, weight) -> list[
 
 
 def _insert_ejecting(night: PlanNight, visits: list[tuple], i: int, ws: float, we: float,
-                     weight) -> list[tuple] | None:
+                     weight, deadline: float = np.inf) -> list[tuple] | None:
     """One more visit of ``i`` in [ws, we] by moving one visit of its priority or above out
     of that window to another time (an ejection chain of length one; Glover 1996): the
     ``EJECTED`` visits overlapping the window with the most room elsewhere are tried."""
@@ -249,10 +253,10 @@ def _insert_ejecting(night: PlanNight, visits: list[tuple], i: int, ws: float, w
     best, best_value = None, -np.inf
     for k in np.argsort(room, kind="stable")[::-1][:EJECTED]:
         rest = _without(night, visits, visits.index(touch[k]))
-        got = None if rest is None else insert(night, rest, i, ws, we, weight)
+        got = None if rest is None else insert(night, rest, i, ws, we, weight, deadline)
         if got is None:
             continue
-        got = _best_insert(night, got, touch[k][0], weight)
+        got = _best_insert(night, got, touch[k][0], weight, deadline)
         got_value = -np.inf if got is None else plan_value(night, got, weight)
         if got_value > best_value:
             best, best_value = got, got_value
@@ -262,7 +266,8 @@ def _insert_ejecting(night: PlanNight, visits: list[tuple], i: int, ws: float, w
 def relocate(night: PlanNight, visits: list[tuple], weight: np.ndarray,
              level: np.ndarray, deadline: float = np.inf) -> list[tuple]:
     """Take out each of the ``RELOCATED`` visits of ``level`` furthest from their best airmass
-    and insert it again where it is worth the most; keep each move that raises the value.
+    (more than ``RELOCATE_ABOVE`` above it) and insert it again where it is worth the most;
+    keep each move that raises the value.
     Stops at ``deadline`` (``time.monotonic``)."""
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
     if not visits:
@@ -273,11 +278,11 @@ def relocate(night: PlanNight, visits: list[tuple], weight: np.ndarray,
     excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
     picked = np.flatnonzero(level[tgt])
     picked = picked[np.argsort(-excess[picked], kind="stable")][:RELOCATED]
-    for v in [visits[k] for k in picked if excess[k] > 1e-3]:
+    for v in [visits[k] for k in picked if excess[k] > RELOCATE_ABOVE]:
         if v not in visits or time.monotonic() > deadline:
             continue
         rest = _without(night, visits, visits.index(v))
-        got = None if rest is None else _best_insert(night, rest, v[0], weight)
+        got = None if rest is None else _best_insert(night, rest, v[0], weight, deadline)
         got_value = -np.inf if got is None else plan_value(night, got, weight)
         if got_value > value + 1e-9:
             visits, value = got, got_value

@@ -80,6 +80,12 @@ def top_level(night: PlanNight) -> np.ndarray | None:
     return None if top.sum() == night.active.sum() else top
 
 
+def _short(night: PlanNight, visits: list[tuple], level: np.ndarray) -> bool:
+    """Some target of ``level`` has fewer visits in ``visits`` than its repeats."""
+    count = np.bincount([v[0] for v in visits], minlength=night.n)
+    return bool(np.any(level & (count < night.repeats)))
+
+
 def _top_first(night, weight, top, time_limit_s, pad_s) -> list[tuple] | None:
     """The top priority alone, on a grid as fine as its own budget allows: the padded model
     of its targets (by the integer program when small), realised with slew allowance
@@ -158,7 +164,7 @@ def optimise(
         best, method, value = _better(night, weight, improve, raw, best, method, value)
     top = top_level(night)
     left = deadline - time.monotonic()
-    if top is not None and left > 0 and not _close(bound, value):
+    if top is not None and left > 0 and not _close(bound, value) and _short(night, best, top):
         raw = _top_first(night, weight, top, left, dense_pad_s)
         if raw is not None:
             best, method, value = _better(night, weight, improve, raw, best, method, value)
@@ -177,7 +183,8 @@ def optimise(
     if deadline - time.monotonic() > 0:
         raw = repair.insert_missing(night, best, weight, level, deadline)
         raw = repair.relocate(night, raw, weight, level, deadline)
-        best, method, value = _better(night, weight, improve, raw, best, method, value)
+        if raw != sorted(best, key=lambda v: (v[1], v[0])):
+            best, method, value = _better(night, weight, improve, raw, best, method, value)
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))
