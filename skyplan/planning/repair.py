@@ -36,6 +36,7 @@ SEGMENT = 5  # visits re-timed around an inserted one
 STARTS = 5  # segments tried per window: those starting where the visit's airmass is lowest
 MAX_DROPS = 2  # lower-priority visits a single insertion may drop
 EJECTED = 3  # visits of the same priority or above tried for moving elsewhere
+TRIED = 10  # targets short of their repeats tried (on a busy night most cannot be placed)
 RELOCATED = 8  # visits of the level, the furthest from their best airmass, tried again
 RELOCATE_ABOVE = 0.05  # ... when their airmass is more than this above their best
 _EPS_S = 1e-6
@@ -200,19 +201,21 @@ def _windows(night: PlanNight, i: int) -> list[tuple[float, float]]:
 
 def insert_missing(night: PlanNight, visits: list[tuple], weight: np.ndarray,
                    level: np.ndarray, deadline: float = np.inf) -> list[tuple]:
-    """Try one more visit for every target of ``level`` (a mask) still short of its repeats,
-    those with none first; keep each insertion that raises the plan's value.  Stops at
-    ``deadline`` (``time.monotonic``)."""
+    """Try one more visit for the ``TRIED`` targets of ``level`` (a mask) still short of
+    their repeats, those with the fewest visits and then the least time in their windows
+    first; keep each insertion that raises the plan's value.  Stops at ``deadline``
+    (``time.monotonic``)."""
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
     value = plan_value(night, visits, weight)
     count = np.bincount([v[0] for v in visits], minlength=night.n)
     need = np.flatnonzero(level & night.active & (count < night.repeats))
-    for i in need[np.lexsort((need, count[need]))]:
+    room = np.bincount(night.win_target, night.win_end - night.win_start, minlength=night.n)
+    for i in need[np.lexsort((need, room[need], count[need]))][:TRIED]:
         for ws, we in _windows(night, int(i)):
             if count[i] >= night.repeats[i] or time.monotonic() > deadline:
                 break
             got = insert(night, visits, int(i), ws, we, weight, deadline)
-            if got is None:
+            if got is None and count[i] == 0:
                 got = _insert_ejecting(night, visits, int(i), ws, we, weight, deadline)
             if got is None:
                 continue

@@ -46,6 +46,7 @@ LAGRANGIAN_STEPS = 30
 # 444,000 kept, about 90 MiB while built), a coarser grid dividing the bound's above it.
 LAGRANGIAN_VARIABLE_BUDGET = 800_000
 GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
+REPAIR_SHARE = 0.15  # of the time limit, at most, for the local repair (measured)
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
 
@@ -181,8 +182,9 @@ def optimise(
         best, method, value = _better(night, weight, improve, packed, best, method, value, True)
     level = top if top is not None else night.active
     if deadline - time.monotonic() > 0:
-        raw = repair.insert_missing(night, best, weight, level, deadline)
-        raw = repair.relocate(night, raw, weight, level, deadline)
+        until = min(deadline, time.monotonic() + REPAIR_SHARE * time_limit_s)
+        raw = repair.insert_missing(night, best, weight, level, until)
+        raw = repair.relocate(night, raw, weight, level, until)
         if raw != sorted(best, key=lambda v: (v[1], v[0])):
             best, method, value = _better(night, weight, improve, raw, best, method, value)
     left = deadline - time.monotonic()
