@@ -254,6 +254,19 @@ def test_taken_by_names_the_visits_over_its_windows_and_the_free_room():
     assert taken.windows == [(0.0, 100.0), (200.0, 300.0)]
     assert taken.blockers == [2, 1]
     assert taken.longest_free_s == pytest.approx(40.0)
+    assert taken.free == [(0.0, 10.0), (260.0, 300.0)]
+
+
+def test_the_lowest_airmass_left_in_the_free_time():
+    # Air mass falling linearly from 2.0 at t = 0 to 1.0 at t = 1000 s (samples every 100 s).
+    # A visit leads 70 s (settle + setup) and exposes 60 s, so its middle is 100 s after the
+    # start of a stretch and 30 s before its end: in 0-50 none fits; in 200-500 the middle
+    # reaches 470 s at the latest, where the air mass is 2.0 - 0.47 = 1.53.
+    slots = np.arange(0.0, 1001.0, 100.0)
+    x = 2.0 - slots / 1000.0
+    got = reasons.lowest_airmass_free([(0.0, 50.0), (200.0, 500.0)], slots, x, 70.0, 60.0)
+    assert got == pytest.approx(1.53)
+    assert reasons.lowest_airmass_free([(0.0, 50.0)], slots, x, 70.0, 60.0) == np.inf
 
 
 def test_the_command_says_who_took_the_time_and_counts_short_repeats(tmp_path):
@@ -380,3 +393,75 @@ def test_the_bound_stays_above_every_plan_with_the_lagrangian_grid_capped(
     if best > 0:
         value = plan_worth(req, plan.visits)
         assert plan.metrics.gap >= 1.0 - value / best - 1e-9
+
+
+def count_vectors_by_enumeration(req, step_s=60.0) -> set[tuple[int, ...]]:
+    """The visits per priority level (lowest level first) of every plan whose starts lie on
+    a ``step_s`` grid: every order, start, slew, window and spacing as in
+    :func:`best_plan_by_enumeration`."""
+    night = PlanNight(req, PlanOptions(airmass_slack=None))
+    levels = sorted(set(night.priority[night.active].tolist()))
+    n = night.n
+    starts = np.arange(night.t0, night.t1, step_s)
+    seen: set[tuple[int, ...]] = set()
+
+    def grow(prev, t, done, last):
+        seen.add(tuple(int(done[night.priority == q].sum()) for q in levels))
+        for i in range(n):
+            if not night.active[i] or done[i] >= night.repeats[i]:
+                continue
+            for s in starts[starts >= t - 1e-9]:
+                if s - last[i] < night.spacing_s[i] - 1e-6:
+                    continue
+                slew = night.slew.settle_s if prev < 0 else realise.slew_at(night, prev, i, s)
+                end = s + slew + night.setup_s + night.exposure_s[i]
+                own = night.win_target == i
+                if not np.any((night.win_start[own] <= s + 1e-6)
+                              & (night.win_end[own] >= end - 1e-6)):
+                    continue
+                done[i] += 1
+                saved, last[i] = last[i], s
+                grow(i, end, done, last)
+                done[i] -= 1
+                last[i] = saved
+                break  # a later start ends later (slews change slower than the clock)
+
+    grow(-1, night.t0, np.zeros(n, int), np.full(n, -np.inf))
+    return seen
+
+
+def count_bound_cases():
+    for seed in range(6):
+        yield tiny_request(60 + seed, n=5, hours=0.4)
+    # One top-priority target with a 10-minute exposure and three lower ones of 1 minute,
+    # all in the same 12 minutes (setup 60 s, settle 10 s): three short visits fit, or the
+    # long one alone.
+    curves = [lambda h: 1.2 + 0.1 * h] * 4
+    yield curve_request(curves, [(i, 0.0, 0.2) for i in range(4)], [600.0] + [60.0] * 3,
+                        [2, 1, 1, 1], [10.0, 20.0, 30.0, 40.0], 0.25)
+
+
+@pytest.mark.parametrize("case", range(7))
+def test_the_count_bound_is_above_every_plan_level_by_level(case):
+    from skyplan.planning.bound import count_bound
+
+    req = list(count_bound_cases())[case]
+    night = PlanNight(req, PlanOptions(airmass_slack=None))
+    levels = sorted(set(night.priority[night.active].tolist()))
+    vectors = count_vectors_by_enumeration(req)
+    assert len(vectors) > 1
+    for step in (night.step_s, 2 * night.step_s):
+        for k, p in enumerate(levels):
+            free = count_bound(night, p, {}, step)
+            for floor in {v[k + 1:] for v in vectors}:  # counts kept at the higher levels
+                keep = [v for v in vectors if all(a >= b for a, b in zip(v[k + 1:], floor))]
+                most = max(sum(v[k:]) for v in keep)
+                floors = dict(zip(levels[k + 1:], floor, strict=True))
+                bound = count_bound(night, p, floors, step)
+                assert most - 1e-6 <= bound <= free + 1e-6, (p, floor)
+    if case == 6:  # three short visits, or the long one: keeping it leaves room for none
+        assert vectors == {(0, 0), (1, 0), (2, 0), (3, 0), (0, 1)}
+        assert count_bound(night, 1, {}, night.step_s) >= 3.0
+        # the relaxation rounds the long visit down to 5 two-minute slots, so one short
+        # visit (rounded down to 1 slot) still fits beside it: 2 instead of 3
+        assert count_bound(night, 1, {2: 1}, night.step_s) == pytest.approx(2.0)

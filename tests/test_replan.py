@@ -346,3 +346,66 @@ def test_rest_windows_match_a_brute_force_check() -> None:
                 & (t[:, None] < got.end[got.rows == r])).any(axis=1)
         assert (have == want).all(), r
     assert replan.rest_windows(windows, None, 100.0) is windows
+
+
+LAMPS = ("name,ra,dec,priority,exposure_s\n"
+         "Early Lamp,02:00:00,+40:00:00,3,600\n"
+         "Late Lamp,08:00:00,+30:00:00,3,600\n")
+LAMP_SITE = ["--site", "40,-3,600", "--date", "2026-12-18"]
+
+
+def test_next_says_when_a_later_visit_starts(tmp_path, capsys) -> None:
+    # Two targets: at 20:00 Madrid (19:00Z) Early Lamp is up but the plan takes it at its
+    # transit, about 21:17; an answer of "observe now" was given for such a visit.
+    cat = tmp_path / "two.csv"
+    cat.write_text(LAMPS)
+    code, out, _ = run(["next", str(cat), *LAMP_SITE, "--at", "20:00", "-f", "json"], capsys)
+    answer = json.loads(out)
+    start = dt.datetime.fromisoformat(answer["visit"]["start"])
+    at = dt.datetime(2026, 12, 18, 19, 0, tzinfo=dt.UTC)
+    assert (start - at).total_seconds() > 3600  # the plan waits for the transit
+    assert code == EXIT_NOTHING_OBSERVABLE and answer["status"] == "wait"
+    assert answer["wait_s"] == pytest.approx((start - at).total_seconds(), abs=1.0)
+    assert answer["summary"].startswith("the best next visit starts at 21:1")
+    assert "observe now" not in answer["summary"]
+    # Early Lamp itself is up now, but nothing else can be observed before its visit
+    assert "nothing else can be observed and end before it" in answer["summary"]
+    assert answer["meanwhile"] == []
+    code, out, _ = run(["next", str(cat), *LAMP_SITE, "--at", "20:00"], capsys)
+    text = " ".join(out.split())
+    assert code == EXIT_NOTHING_OBSERVABLE and "observe now" not in text and "in 78 min" in text
+    code, out, _ = run(["next", str(cat), *LAMP_SITE, "--at", "23:00", "-f", "json"], capsys)
+    answer = json.loads(out)
+    assert code == EXIT_OK and answer["status"] == "observe"
+    assert answer["visit"]["start"] == "2026-12-18T22:00:00Z" and answer["wait_s"] == 0.0
+
+
+def test_next_lists_what_could_be_observed_before_a_later_visit(tmp_path, capsys) -> None:
+    import astropy.units as u
+    import numpy as np
+    from astropy.coordinates import AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    cat = tmp_path / "three.csv"
+    cat.write_text(LAMPS + "Side Lamp,04:00:00,+30:00:00,2,600\n")
+    code, out, _ = run(["next", str(cat), *LAMP_SITE, "--at", "20:00", "-f", "json"], capsys)
+    answer = json.loads(out)
+    assert code == EXIT_NOTHING_OBSERVABLE and answer["status"] == "wait"
+    assert answer["visit"]["name"] == "Early Lamp"
+    assert "1 other visit could be observed before it" in answer["summary"]
+    (early,) = answer["meanwhile"]
+    later = next(t for t in answer["then"] if t["name"] == "Side Lamp")
+    assert early["name"] == "Side Lamp" and early["planned_start"] == later["start"]
+    end = dt.datetime.fromisoformat(early["end"])
+    # settle 10 s + setup 60 s + exposure 600 s from 19:00Z, ending before Early Lamp's start
+    assert end == dt.datetime(2026, 12, 18, 19, 11, 10, tzinfo=dt.UTC)
+    assert end < dt.datetime.fromisoformat(answer["visit"]["start"])
+    assert early["planned_airmass_mid"] < early["airmass_mid"]
+    # the air mass at mid-exposure (19:06:10Z) against astropy's altitude (no refraction)
+    # and the plane-parallel sec z: the site's default model may differ by 1 %
+    frame = AltAz(obstime=Time("2026-12-18T19:06:10", scale="utc"),
+                  location=EarthLocation.from_geodetic(-3 * u.deg, 40 * u.deg, 600 * u.m))
+    alt = SkyCoord(ra=60 * u.deg, dec=30 * u.deg).transform_to(frame).alt.deg
+    assert early["airmass_mid"] == pytest.approx(1 / np.sin(np.radians(alt)), rel=0.01)
+    code, out, _ = run(["next", str(cat), *LAMP_SITE, "--at", "20:00"], capsys)
+    assert "before it Side Lamp, ending 20:11" in " ".join(out.split())

@@ -27,9 +27,10 @@ STATUSES = ("observe", "wait", "over")
 class NextVisit:
     """The answer to "what now?" at ``at`` (an aware datetime).
 
-    ``status``: 'observe' (a target can be observed now; ``visit`` starts at or soon after
-    ``at``), 'wait' (nothing can be observed now; ``visit`` is the next possible, at
-    ``next_possible``) or 'over' (nothing left tonight; ``visit`` is None).  ``plan``: the
+    ``status``: 'observe' (``visit``, the first of the plan from ``at``, starts within a
+    minute of ``at``), 'wait' (the plan's first visit starts later, at ``next_possible``; the
+    choice's ``meanwhile`` lists visits that could be made before it, which the plan does not
+    make then) or 'over' (nothing left tonight; ``visit`` is None).  ``plan``: the
     plan of the rest of the night from ``at`` (without visits when 'over').
     """
 
@@ -54,16 +55,16 @@ class NextVisit:
         """The document ``skyplan next --format json`` writes."""
         import time
 
-        from skyplan.render import planview
+        from skyplan.render import nextview
 
-        return planview.next_record(self.status, self.at.timestamp(), self.plan.result,
+        return nextview.next_record(self.status, self.at.timestamp(), self.plan.result,
                                     self.choice, self.plan.site, time.time())
 
     def to_table(self):
         """The few lines ``skyplan next`` prints for a person (a ``render.tables.Sheet``)."""
-        from skyplan.render import planview
+        from skyplan.render import nextview
 
-        return planview.next_table(self.status, self.at.timestamp(), self.plan.result,
+        return nextview.next_table(self.status, self.at.timestamp(), self.plan.result,
                                    self.choice, self.plan.site)
 
 
@@ -83,6 +84,7 @@ def next_visit(targets: Targets, site: Site, night: Night | None = None,
     from skyplan.errors import InputError, NothingObservable
     from skyplan.inputs import progress
     from skyplan.planning import replan
+    from skyplan.planning.model import SlewModel
 
     if at is None:
         at = dt.datetime.now(dt.UTC)
@@ -107,7 +109,10 @@ def next_visit(targets: Targets, site: Site, night: Night | None = None,
     wins = replan.rest_windows(res.windows, made.rest, over.spacing_s)
     exp = np.where(np.isfinite(targets.exposure_s), targets.exposure_s,
                    over.default_exposure_s)
+    slew = SlewModel(over.slew_az_deg_s, over.slew_alt_deg_s, over.settle_s)
     choice = replan.first_choice(res, wins, todo, targets.priority,
                                  exp + over.setup_s + over.settle_s, made.visits[0],
-                                 at.timestamp())
-    return NextVisit(at, "observe" if choice.observable_now else "wait", made, choice)
+                                 at.timestamp(), exposure_s=exp,
+                                 longest_slew_s=slew.longest_s() - over.settle_s,
+                                 best_airmass=replan.best_airmass_left(res, wins))
+    return NextVisit(at, "observe" if choice.starts_now else "wait", made, choice)

@@ -61,7 +61,8 @@ def next_cmd(
 
     It is the first observation of 'plan --start AT --done FILE' with the same options.
 
-    Exit status 0: observe now; 3: nothing now (the answer gives the next possible visit).
+    Exit status 0: observe now; 3: not now (the answer says when the best next visit starts
+    and what could be observed before it), or nothing left tonight.
     """
     from skyplan.api import nextvisit
     from skyplan.errors import EXIT_NOTHING_OBSERVABLE, EXIT_OK

@@ -1,4 +1,7 @@
-"""An upper bound on the value of any plan by Lagrangian relaxation of the slot capacities.
+"""Upper bounds: on the value of any plan (Lagrangian), and on the visits per priority.
+
+**Value.**  An upper bound on the value of any plan by Lagrangian relaxation of the slot
+capacities.
 
 For the relaxed time-indexed model (:func:`skyplan.planning.timeindexed.relaxed_model`) and
 any prices ``lambda_s >= 0`` on its slots,
@@ -13,13 +16,32 @@ reduced merits, so ``L`` costs one pass over the variables.  Prices start from t
 of a coarser model and improve by subgradient steps with Polyak's step length (Held, Wolfe &
 Crowder 1974, "Validation of subgradient optimization", Math. Programming 6); every
 iterate's ``L`` is a valid bound, the lowest is kept.
+
+**Visits per priority, level by level** (:func:`count_bound`).  The relaxed model maps
+every plan onto a solution with the same visits (see :mod:`skyplan.planning.timeindexed`),
+so the optimum of its linear-programming relaxation with the count of the visits at
+priority ``p`` or above as objective bounds that count for every plan.  That alone is loose:
+the plans worth the most keep their higher priorities first, and the most visits at ``p``
+or above come from giving up higher ones for short lower ones.  So rows ask, for every
+level ``q`` above ``p``, at least ``c_q`` visits at priority ``q`` (the counts of the plan
+being judged): the optimum then bounds the visits at ``p`` or above of every plan that keeps
+at least as many visits at each higher level, the plans a lexicographic order of the
+priorities prefers.  Still a relaxation (no slew beyond the settle time), so not reachable
+when visits are short.
 """
 
 from __future__ import annotations
 
+from dataclasses import replace
+from typing import TYPE_CHECKING
+
 import numpy as np
 
+from skyplan.planning import timeindexed
 from skyplan.planning.timeindexed import TimeModel, ramp
+
+if TYPE_CHECKING:
+    from skyplan.planning.model import PlanNight
 
 
 def lagrangian_bound(model: TimeModel, price: np.ndarray, lower: float, steps: int) -> float:
@@ -63,3 +85,15 @@ def lagrangian_bound(model: TimeModel, price: np.ndarray, lower: float, steps: i
             break
         lam = np.maximum(lam - scale * (value - lower) / norm * grad, 0.0)
     return best
+
+
+def count_bound(night: PlanNight, level: int, floors: dict[int, int], step_s: float,
+                time_limit_s: float = 120.0) -> float:
+    """The most visits at priority ``level`` or above of any plan with at least
+    ``floors[q]`` visits at each priority ``q`` (see above); ``inf`` if the solve fails."""
+    model = timeindexed.relaxed_model(night, step_s, np.ones(night.n))
+    priority = night.priority[model.var_target]
+    counted = replace(model, var_merit=(priority >= level).astype(float))
+    rows = [(priority == q, c) for q, c in sorted(floors.items()) if c > 0]
+    got = timeindexed.solve(counted, time_limit_s, integer=False, floors=rows)
+    return got.bound if got.found else float("inf")

@@ -265,18 +265,26 @@ def _left_out_text(req, plan, j: int, code: str, idx, names, zone) -> str:
     when = ", ".join(spans[:3]) + (f" and {len(spans) - 3} more" if len(spans) > 3 else "")
     who = [str(names[idx[t]]) for t in taken.blockers[:2]]
     if len(taken.blockers) > 2:
-        who.append(f"{len(taken.blockers) - 2} other targets")
+        more = len(taken.blockers) - 2
+        who.append(f"{more} other target{'s' if more > 1 else ''}")
     p = req.priority[j]
     rank = {int(np.sign(req.priority[t] - p)) for t in taken.blockers}
     kind = {frozenset({1}): "higher-priority ", frozenset({0}): "equal-priority "}.get(
         frozenset(rank), "")
     names_text = " and ".join(who) if len(who) < 3 else f"{who[0]}, {who[1]} and {who[2]}"
-    text = f"its usable time {when} was taken by {kind}{names_text}" if who else (
+    most = "most of " if code == "poor_airmass" and taken.free else ""
+    text = f"{most}its usable time {when} was taken by {kind}{names_text}" if who else (
         f"no visit fits in its usable time {when}")
     visit_min = (req.slew.settle_s + req.setup_s + req.exposure_s[j]) / 60.0
     free_min = taken.longest_free_s / 60.0
     if code == "poor_airmass":
-        text += "; the free time left is only at poor airmass (see --airmass-slack)"
+        lead = req.slew.settle_s + req.setup_s
+        low = reasons.lowest_airmass_free(taken.free, req.slot_unix, req.airmass[j], lead,
+                                          float(req.exposure_s[j]))
+        text += (f"; the free time left there is at air mass {low:.2f} or more, against "
+                 f"{req.best_airmass[j]:.2f} at its best: more than the slack allows below "
+                 "the top priority (see --airmass-slack)" if np.isfinite(low) else
+                 "; the free time left is only at poor airmass (see --airmass-slack)")
     elif who and free_min >= 1.0 and free_min < visit_min:
         text += (f"; the longest free stretch left, {free_min:.0f} min, is shorter than a visit "
                  f"with its slew ({visit_min:.0f} min or more)")

@@ -175,6 +175,9 @@ def observable_at(windows: Intervals, todo: np.ndarray, shortest_s: np.ndarray,
     return now & (todo > 0)
 
 
+NOW_S = 60.0  # a visit whose slew begins within this of the moment asked starts "now"
+
+
 @dataclass(frozen=True)
 class Choice:
     """Why a visit comes first: what the planner weighed, for the person and the script."""
@@ -183,11 +186,25 @@ class Choice:
     window_end_unix: float  # end of the window that holds the visit (NaN: none found)
     left: int  # visits the target still needs, this one included
     observable_now: int  # targets that could start a visit at the moment asked
+    starts_now: bool  # the visit's slew begins within NOW_S of the moment asked
+    # Visits that could be made from the moment asked and end before the first visit, which
+    # the plan does not make then: (target, end POSIX s, air mass at mid-exposure), the
+    # highest priority first, then the lowest air mass relative to the target's best.
+    meanwhile: tuple[tuple[int, float, float], ...] = ()
 
 
 def first_choice(res, windows: Intervals, todo: np.ndarray, priority: np.ndarray,
-                 shortest_s: np.ndarray, visit, at_unix: float) -> Choice:
-    """The facts behind the first visit of a plan made from ``at_unix``."""
+                 shortest_s: np.ndarray, visit, at_unix: float, *,
+                 exposure_s: np.ndarray | None = None, longest_slew_s: float = 0.0,
+                 best_airmass: np.ndarray | None = None, listed: int = 3) -> Choice:
+    """The facts behind the first visit of a plan made from ``at_unix``.
+
+    ``shortest_s``: each target's visit with no slew beyond the settle time (settle, setup,
+    exposure ``exposure_s``).  A visit made meanwhile starts at ``at_unix`` and must end
+    ``longest_slew_s`` (the longest slew less the settle time) before the first visit
+    begins, so that the first visit keeps its exposure start whatever the slew from there;
+    at most ``listed`` are kept, judged against ``best_airmass`` (default the engine's).
+    """
     has = np.zeros(len(todo), bool)
     has[windows.rows] = True
     live = has & (todo > 0)
@@ -195,5 +212,19 @@ def first_choice(res, windows: Intervals, todo: np.ndarray, priority: np.ndarray
         windows.end >= visit.end - 1e-6)
     end = float(windows.end[mine].max()) if mine.any() else float("nan")
     top = int(np.max(priority[live])) if live.any() else int(visit.priority)
-    now = int(observable_at(windows, todo, shortest_s, at_unix).sum())
-    return Choice(top, end, int(todo[visit.target]), now)
+    now = observable_at(windows, todo, shortest_s, at_unix)
+    starts_now = bool(visit.start - at_unix <= NOW_S)
+    spare = todo - (np.arange(len(todo)) == visit.target)
+    fits = now & (spare > 0) & (at_unix + shortest_s + longest_slew_s <= visit.start + 1e-6)
+    meanwhile: tuple[tuple[int, float, float], ...] = ()
+    if fits.any() and not starts_now:
+        rows = np.flatnonzero(fits)
+        ends = at_unix + shortest_s[rows]
+        exp = shortest_s[rows] if exposure_s is None else exposure_s[rows]
+        alt, _, _ = res.sky.horizon(rows, ends - exp / 2)
+        x = am.airmass(alt, res.limits.airmass_model)
+        best = res.best_airmass if best_airmass is None else best_airmass
+        order = np.lexsort((rows, x / np.asarray(best)[rows], -np.asarray(priority)[rows]))
+        meanwhile = tuple((int(rows[k]), float(ends[k]), float(x[k]))
+                          for k in order[:listed])
+    return Choice(top, end, int(todo[visit.target]), int(now.sum()), starts_now, meanwhile)

@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan.planning import realise, timeindexed
+from skyplan.planning import realise, repair, timeindexed
 from skyplan.planning.bound import lagrangian_bound
 from skyplan.planning.merit import priority_weights
 
@@ -46,6 +46,7 @@ LAGRANGIAN_STEPS = 30
 # 444,000 kept, about 90 MiB while built), a coarser grid dividing the bound's above it.
 LAGRANGIAN_VARIABLE_BUDGET = 800_000
 GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
+REPAIR_SHARE = 0.15  # of the time limit, at most, for the local repair (measured)
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
 
@@ -71,14 +72,53 @@ def _better(night, weight, improve, raw, best, method, value, swap=False):
     return best, method, value
 
 
+def top_level(night: PlanNight) -> np.ndarray | None:
+    """The targets that can be placed at the highest priority among them; None when every
+    target that can be placed has that priority (the whole model is then the top level's)."""
+    if not night.active.any():
+        return None
+    top = night.active & (night.priority == night.priority[night.active].max())
+    return None if top.sum() == night.active.sum() else top
+
+
+def _short(night: PlanNight, visits: list[tuple], level: np.ndarray) -> bool:
+    """Some target of ``level`` has fewer visits in ``visits`` than its repeats."""
+    count = np.bincount([v[0] for v in visits], minlength=night.n)
+    return bool(np.any(level & (count < night.repeats)))
+
+
+def _top_first(night, weight, top, time_limit_s, pad_s) -> list[tuple] | None:
+    """The top priority alone, on a grid as fine as its own budget allows: the padded model
+    of its targets (by the integer program when small), realised with slew allowance
+    ``pad_s``; lower priorities then fill the idle gaps (:func:`_better`)."""
+    deadline = time.monotonic() + time_limit_s
+    g = night.step_s * stride_for(night, VARIABLE_BUDGET, top)
+    model = timeindexed.padded_model(night, g, weight, pad_s, only=top)
+    if model.size == 0:
+        return None
+    lp = timeindexed.solve(model, max(deadline - time.monotonic(), 0.0), integer=False)
+    if not lp.found:
+        return None
+    chosen = timeindexed.round_down(model, lp.x)
+    left = deadline - time.monotonic()
+    rounded = float(model.var_merit[chosen].sum())
+    if model.size <= MIP_VARIABLES and left > 0 and rounded < lp.bound * (1 - PROVEN_GAP):
+        mip = timeindexed.solve(model, MIP_SHARE * left, integer=True)
+        if mip.found and mip.objective > rounded:
+            chosen = mip.chosen
+    return realise.realise(night, model, chosen, pad_s)
+
+
 def _close(bound: float | None, value: float) -> bool:
     """The plan is within ``GOOD_ENOUGH`` of the bound: further work would gain little."""
     return bound is not None and value >= bound * (1.0 - GOOD_ENOUGH)
 
 
-def stride_for(night: PlanNight, budget: int) -> int:
-    """The smallest stride of the night's grid keeping the variables within ``budget``."""
-    length = float(np.sum(night.win_end - night.win_start))
+def stride_for(night: PlanNight, budget: int, only: np.ndarray | None = None) -> int:
+    """The smallest stride of the night's grid keeping the variables within ``budget``
+    (counting the windows of the ``only`` targets when given)."""
+    span = night.win_end - night.win_start
+    length = float(np.sum(span if only is None else span[np.asarray(only, bool)[night.win_target]]))
     need = length / night.step_s / max(budget, 1)
     return max(1, int(math.ceil(need)))
 
@@ -123,6 +163,12 @@ def optimise(
                 chosen = mip.chosen
         raw = realise.realise(night, padded, chosen)
         best, method, value = _better(night, weight, improve, raw, best, method, value)
+    top = top_level(night)
+    left = deadline - time.monotonic()
+    if top is not None and left > 0 and not _close(bound, value) and _short(night, best, top):
+        raw = _top_first(night, weight, top, left, dense_pad_s)
+        if raw is not None:
+            best, method, value = _better(night, weight, improve, raw, best, method, value)
     pad = dense_pad_s
     left = deadline - time.monotonic()
     if left > 0 and pad < night.slew.longest_s() and not _close(bound, value):
@@ -134,6 +180,13 @@ def optimise(
     if deadline - time.monotonic() > 0:
         packed = realise.compact(night, best)
         best, method, value = _better(night, weight, improve, packed, best, method, value, True)
+    level = top if top is not None else night.active
+    if deadline - time.monotonic() > 0:
+        until = min(deadline, time.monotonic() + REPAIR_SHARE * time_limit_s)
+        raw = repair.insert_missing(night, best, weight, level, until)
+        raw = repair.relocate(night, raw, weight, level, until)
+        if raw != sorted(best, key=lambda v: (v[1], v[0])):
+            best, method, value = _better(night, weight, improve, raw, best, method, value)
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))

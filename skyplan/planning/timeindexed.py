@@ -72,16 +72,21 @@ def ramp(count: np.ndarray) -> np.ndarray:
 
 
 def padded_model(
-    night: PlanNight, step_s: float, weight: np.ndarray, pad_s: float | None = None
+    night: PlanNight, step_s: float, weight: np.ndarray, pad_s: float | None = None,
+    only: np.ndarray | None = None,
 ) -> TimeModel:
     """The model plans are made from (see the module docstring).
 
     ``pad_s``: the slew allowance, the longest slew by default (the proven case); a shorter
-    one gives a denser model whose realisation may have to push or drop visits.
+    one gives a denser model whose realisation may have to push or drop visits.  ``only``:
+    a mask of the targets to model (default every target).
     """
     pad = night.slew.longest_s() if pad_s is None else float(pad_s)
     t0, g = night.t0, step_s
     wt, ws, we = night.win_target, night.win_start, night.win_end
+    if only is not None:
+        keep = np.asarray(only, bool)[wt]
+        wt, ws, we = wt[keep], ws[keep], we[keep]
     span = pad + night.setup_s + night.exposure_s
     lo = np.ceil((ws - t0) / g - _TOL).astype(int)
     hi = np.floor((we - span[wt] - t0) / g + _TOL).astype(int)
@@ -270,11 +275,13 @@ class Solution:
 MIP_GAP = 1e-4
 
 
-def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
+def solve(model: TimeModel, time_limit_s: float, integer: bool, floors=()) -> Solution:
     """Maximise the summed merit with HiGHS (``highspy``): a MIP, or its LP relaxation.
 
     Options are fixed (one thread, HiGHS's fixed random seed, relative gap ``MIP_GAP``), so a
-    solve that ends inside its time limit is reproducible.
+    solve that ends inside its time limit is reproducible.  ``floors``: pairs (mask of the
+    variables, least count): rows asking at least that many of those variables, after the
+    model's own rows.
     """
     m = model.size
     if m == 0:
@@ -304,6 +311,9 @@ def solve(model: TimeModel, time_limit_s: float, integer: bool) -> Solution:
     ):
         h.setOptionValue(key, value)
     h.passModel(lp)
+    for mask, least in floors:
+        cols = np.flatnonzero(mask).astype(np.int32)
+        h.addRow(float(least), highs.kHighsInf, cols.size, cols, np.ones(cols.size))
     h.run()
     info = h.getInfo()
     optimal = h.getModelStatus() == highs.HighsModelStatus.kOptimal
