@@ -482,7 +482,7 @@ def _outcome(path: Path, skip_bad: bool) -> tuple:
         return ("error", exc.message, exc.line, exc.field)
     cat = read.catalog
     columns = [
-        [(type(x), x) for x in a.tolist()] if a.dtype == object else (a.dtype, a.tobytes())
+        [(type(x), x) for x in a.tolist()] if a.dtype.kind in "OT" else (a.dtype, a.tobytes())
         for a in (getattr(cat, f) for f in catalogtypes._ARRAY_FIELDS)
     ]
     skipped = [(e.message, e.line, e.field) for e in read.skipped]

@@ -8,26 +8,11 @@ The formats and columns are described in :mod:`skyplan.inputs.catalog`.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
 from skyplan.errors import InputError
-
-_ARRAY_FIELDS = (
-    "name",
-    "ra_deg",
-    "dec_deg",
-    "pm_ra_masyr",
-    "pm_dec_masyr",
-    "epoch_jyear",
-    "parallax_mas",
-    "radial_velocity_kms",
-    "priority",
-    "exposure_s",
-    "notes",
-    "line",
-)
 
 
 @dataclass
@@ -38,9 +23,13 @@ class Catalog:
     numbers are more important (default 1).  ``exposure_s``: NaN means the command's
     default.  ``line``: where the row is in ``source`` — the 1-based line of a text file
     (CSV, TSV, TXT, ECSV), or the 1-based row number of a FITS or VOTable table.
+
+    Texts are numpy ``StringDType`` arrays (no Python string per row).  A column the file
+    does not have is its default broadcast over the rows (read-only; no memory per row).
+    A new column is a field here and an entry of ``catalogrows.COLUMNS`` of the same key.
     """
 
-    name: np.ndarray  # object array of str
+    name: np.ndarray  # numpy StringDType
     ra_deg: np.ndarray
     dec_deg: np.ndarray
     pm_ra_masyr: np.ndarray  # μα·cos δ
@@ -50,7 +39,7 @@ class Catalog:
     radial_velocity_kms: np.ndarray
     priority: np.ndarray  # int64
     exposure_s: np.ndarray
-    notes: np.ndarray  # object array of str
+    notes: np.ndarray  # numpy StringDType
     line: np.ndarray  # int64
     source: str = ""
 
@@ -77,6 +66,9 @@ class Catalog:
         return np.isnan(self.ra_deg) | np.isnan(self.dec_deg)
 
 
+_ARRAY_FIELDS = tuple(f.name for f in fields(Catalog) if f.name != "source")
+
+
 @dataclass
 class CatalogRead:
     """A catalogue as read, with what the reader noticed on the way."""
@@ -94,10 +86,10 @@ class Columns:
 
     source: str
     headers: dict[str, str]  # field -> column name as written in the file
-    values: dict[str, Sequence[object]]  # field -> text (or numbers from typed tables)
+    values: dict[str, Sequence[object]]  # field -> text, NumberCells, or typed numbers
     where: np.ndarray  # line (text files) or row number (tables) of each row
     in_lines: bool  # whether ``where`` holds text lines
     ignored: list[str]
     problems: dict[int, list[tuple[str | None, str]]]  # row -> [(column, message)]
     trimmed: bool = False  # every text is printable ASCII without a space at either end
-    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see delimited.Cells
+    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see delimited.NumberCells

@@ -21,10 +21,11 @@ from __future__ import annotations
 import csv
 import io
 import re
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError
@@ -35,12 +36,12 @@ MAX_FILE_BYTES = 1 << 30  # larger files are refused (counted while reading)
 MAX_LINE_BYTES = 1 << 20  # a longer line refuses the whole file
 MAX_COLUMNS = 10_000  # a header of more columns refuses the whole file
 FAST_FROM_ROWS = 2000  # smaller files go through csv: importing polars would take longer
+PACKED_TEXT_BYTES = 1 << 25  # a column of a block packed to one width at most (Cells.texts)
 BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 
 def decode(data: bytes, source: str) -> str:
     """The file's bytes as text; InputError naming the line of the first non-UTF-8 byte."""
-    _refuse_long_lines(data, source)
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
@@ -66,7 +67,7 @@ def decode(data: bytes, source: str) -> str:
     return text
 
 
-def _refuse_long_lines(data: bytes, source: str) -> None:
+def refuse_long_lines(data: bytes, source: str) -> None:
     """InputError at the first line longer than :data:`MAX_LINE_BYTES`.
 
     Scanned in slices, so that the scan holds a few megabytes whatever the file's size.
@@ -205,15 +206,19 @@ def _content_lines(
     return lines, content
 
 
+Check = Callable[[np.ndarray], np.ndarray]  # True where a number needs no second look
+Select = Callable[[list[str], int, str], "dict[int, Check | None]"]
+
+
 @dataclass
 class Grid:
-    """Cells of a delimited file by column, before any checking."""
+    """The columns of a delimited file that the caller asked for, before any checking."""
 
     header: list[str]
     header_line: int
-    columns: list[Sequence[str]]
+    columns: dict[int, Sequence[str]]  # by position: StringDType text, or NumberCells
     where: np.ndarray  # line of each row
-    wide_rows: np.ndarray  # rows that may hold a field over MAX_FIELD_CHARS (all that do)
+    long_fields: list[tuple[int, int, int]]  # (row, position, characters) over MAX_FIELD_CHARS
     problems: dict[int, list[tuple[str | None, str]]]
     trimmed: bool = False  # every cell is printable ASCII without a space at either end
     delimiter: str = ","
@@ -238,8 +243,20 @@ class Cells(Sequence[str]):
             return self.series[row].to_list()
         return self.series[row]
 
-    def texts(self) -> list[str]:
-        return self.series.to_list()
+    def texts(self, printable: bool = False) -> np.ndarray:
+        """The whole column as a numpy ``StringDType`` array.  ``printable`` tells that every
+        cell is printable ASCII: the cells are then packed to one width by polars and
+        converted by numpy, without a Python string per cell."""
+        import polars as pl
+
+        s = self.series
+        width = s.str.len_bytes().max() or 0 if len(s) else 0
+        if printable and 0 < width and len(s) * width <= PACKED_TEXT_BYTES:
+            packed = s.str.pad_end(width, "\x00").str.join("").cast(pl.Binary).item()
+            return np.frombuffer(packed, dtype=f"S{width}").astype(StringDType())
+        if printable and width == 0:
+            return np.full(len(s), "", dtype=StringDType())
+        return np.array(s.to_list(), dtype=StringDType())
 
     def numbers(self) -> np.ndarray | None:
         """The column as numbers if every cell is a plain decimal (``[+|-]digits[.digits]``,
@@ -254,59 +271,51 @@ class Cells(Sequence[str]):
             return None
         return s.replace("", None).cast(pl.Float64).fill_null(np.nan).to_numpy()
 
+    def mixed_numbers(self) -> tuple[np.ndarray, np.ndarray]:
+        """As :meth:`numbers` for a column where some cells are not plain decimals: the
+        numbers, with infinity where a cell is not a plain decimal, and where the cells are
+        plain (or empty)."""
+        import polars as pl
 
-def _split_regular(text: str, rows: int, delimiter: str) -> Grid | None:
-    """Columns of text without quote characters in which every line holds a row, read by
-    polars' CSV reader, if every row has the header's width.
-
-    Without quotes a row is simply its line split at the delimiter, exactly as :mod:`csv`
-    reads it; row ``i`` is then on line ``i + 2``.  Returns None when some row has another
-    number of fields, or polars refuses the text (the csv path then names what is wrong).
-    """
-    import polars as pl
-
-    cut = text.find("\n") + 1 or len(text)
-    header = text[:cut].rstrip("\r\n").split(delimiter)
-    width = len(header)
-    if text.count(delimiter) != (width - 1) * rows or rows < 2:
-        return None  # with no row longer than the header (polars refuses those): one shorter
-    data = text.encode()
-    try:
-        table = pl.read_csv(data, has_header=False, skip_rows=1, separator=delimiter,
-                            quote_char=None, infer_schema=False, empty_string_is_null=False,
-                            truncate_ragged_lines=False, raise_if_empty=False)
-    except pl.exceptions.PolarsError:
-        return None
-    if table.height != rows - 1 or table.width != width:
-        return None
-    columns = table.get_columns()
-    length = table.select(pl.max_horizontal(pl.all().str.len_chars())).to_series()
-    wide_rows = np.flatnonzero((length > MAX_FIELD_CHARS).to_numpy())
-    trimmed = _trimmed_printable(data, delimiter.encode())
-    where = np.arange(2, rows + 1, dtype=np.int64)
-    return Grid(header, 1, [Cells(c) for c in columns], where, wide_rows, {}, trimmed, delimiter)
+        s = self.series
+        plain = (s.str.contains(PLAIN_DECIMAL) | (s == "")).to_numpy()
+        numbers = s.cast(pl.Float64, strict=False).fill_null(np.nan).to_numpy(writable=True)
+        numbers[~plain] = np.inf
+        return numbers, plain
 
 
-def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
-    """Whether every field of text in which every line is a row is printable ASCII without a
-    space at either end (``str.strip`` then leaves it as it is and the unprintable-character
-    check of ``catalogrows`` finds nothing in it).  Bytes outside printable ASCII may only be
-    line ends (LF, CR LF) and tab separators."""
-    a = np.frombuffer(data, np.uint8)
-    outside = np.count_nonzero(a - np.uint8(0x20) > 0x7E - 0x20)
-    ends = data.count(b"\n") + data.count(b"\r") + (data.count(b"\t") if delimiter == b"\t" else 0)
-    if outside != ends:
-        return False
-    space = np.flatnonzero(a == ord(" "))
-    if not len(space):
-        return True
-    edges = np.frombuffer(delimiter + b"\n\r", np.uint8)  # the text's ends count as line ends
-    before = np.where(space > 0, a[space - 1], ord("\n"))
-    after = np.where(space < len(a) - 1, a[np.minimum(space + 1, len(a) - 1)], ord("\n"))
-    return not (np.isin(before, edges).any() or np.isin(after, edges).any())
+class NumberCells(Sequence[str]):
+    """A numeric column read at once: ``numbers`` (NaN where a cell is empty, infinity
+    where it is not a plain decimal) and the text of the cells that need a second look
+    (``rows``, sorted, and ``texts``): those not plain decimals and those failing the
+    column's :data:`Check`.  Indexing gives the text of such a cell; other cells have none."""
+
+    def __init__(self, numbers: np.ndarray, rows: np.ndarray, texts: np.ndarray) -> None:
+        self.numbers, self.rows, self.texts = numbers, rows, texts
+
+    def __len__(self) -> int:
+        return len(self.numbers)
+
+    def __getitem__(self, row: int) -> str:  # type: ignore[override]
+        k = int(np.searchsorted(self.rows, row))
+        if k == len(self.rows) or self.rows[k] != row:
+            raise IndexError(f"cell {row} was read as a number; its text is not kept")
+        return str(self.texts[k])
+
+    def any_read(self) -> bool:
+        """Whether any cell was read as a finite number (else the column is all text)."""
+        return bool(np.isfinite(self.numbers).any())
+
+    def all_texts(self) -> np.ndarray:
+        """Every cell as text (read only when no cell was a plain decimal: see any_read)."""
+        full = np.full(len(self.numbers), "", dtype=StringDType())
+        full[self.rows] = self.texts
+        return full
 
 
-def _split_rows(rows: list[list[str]], starts: list[int], delimiter: str) -> Grid:
+def _split_rows(
+    rows: list[list[str]], starts: list[int], delimiter: str
+) -> tuple[list[str], int, list[Sequence[str]], np.ndarray, list, dict]:
     """Rows from :mod:`csv` as columns; short rows padded, long rows reported."""
     header, body = rows[0], rows[1:]
     width = len(header)
@@ -322,11 +331,12 @@ def _split_rows(rows: list[list[str]], starts: list[int], delimiter: str) -> Gri
             )
             problems.setdefault(i, []).append((None, message))
             body[i] = body[i][:width]
-    columns = list(zip(*body, strict=True)) if body else [() for _ in header]
     row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
-    wide_rows = np.flatnonzero(row_chars > MAX_FIELD_CHARS)
+    long_fields = [(i, pos, len(cell)) for i in np.flatnonzero(row_chars > MAX_FIELD_CHARS)
+                   .tolist() for pos, cell in enumerate(body[i]) if len(cell) > MAX_FIELD_CHARS]
+    columns = list(zip(*body, strict=True)) if body else [() for _ in header]
     where = np.array(starts[1:], dtype=np.int64)
-    return Grid(header, starts[0], columns, where, wide_rows, problems, False, delimiter)
+    return header, starts[0], columns, where, long_fields, problems
 
 
 def _rows_one_per_line(
@@ -361,32 +371,47 @@ def _rows_quoted(
     return rows, starts
 
 
-def read_grid(data: bytes, source: str, delimiter: str | None) -> Grid:
-    """The cells of delimited text by column (see the module docstring); ``delimiter`` None
-    lets the header line tell it (:func:`sniff_delimiter`)."""
+def read_grid(data: bytes, source: str, delimiter: str | None, select: Select) -> Grid:
+    """The columns of delimited text that ``select`` asks for (see the module docstring);
+    ``delimiter`` None lets the header line tell it (:func:`sniff_delimiter`).
+
+    ``select(header, header_line, delimiter)`` is called once the header is known and gives
+    the positions of the columns to keep: None for a text column, else the
+    :data:`Check` of a numeric one.  Text columns come back as numpy ``StringDType`` arrays;
+    numeric ones as text (large regular files are read by :mod:`skyplan.inputs.regularsplit`
+    into :class:`NumberCells`).  The caller has refused long lines (:func:`refuse_long_lines`).
+    """
     text = decode(data, source)
     del data
     header_line = first_content_line(text)
     if delimiter is None:
         delimiter = sniff_delimiter(header_line)
-    columns = header_line.count(delimiter) + 1
-    if columns > MAX_COLUMNS:
-        raise InputError(f"the header has {columns} columns; at most {MAX_COLUMNS} are read",
-                         file=source)
-    grid = None
+    refuse_wide_header(header_line.count(delimiter) + 1, source)
+    rows: list[list[str]] = []
     if '"' in text:
         rows, starts = _rows_quoted(_lines(text), delimiter, source)
-        if rows:
-            grid = _split_rows(rows, starts, delimiter)
     else:
         lines, content = _content_lines(text, delimiter, source)
         if content:
-            fast = lines is None and len(content) > FAST_FROM_ROWS
-            grid = _split_regular(text, len(content), delimiter) if fast else None
-            if grid is None:
-                lines = _lines(text) if lines is None else lines
-                grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source),
-                                   delimiter)
-    if grid is None:
+            rows, starts = _rows_one_per_line(_lines(text) if lines is None else lines,
+                                              content, delimiter, source)
+    del text
+    if not rows:
         raise InputError("no header line (expected columns name, ra, dec)", file=source)
-    return grid
+    header, line, columns, where, long_fields, problems = _split_rows(rows, starts, delimiter)
+    del rows
+    wanted = select(header, line, delimiter)
+    kept: dict[int, Sequence[str]] = {}
+    for pos, check in wanted.items():
+        cells = columns[pos]
+        if check is not None and delimiter != ",":
+            cells = decimal_points(cells)
+        kept[pos] = np.array(cells, dtype=StringDType())
+    return Grid(header, line, kept, where, long_fields, problems, False, delimiter)
+
+
+def refuse_wide_header(columns: int, source: str) -> None:
+    """InputError for a header of more than :data:`MAX_COLUMNS` columns."""
+    if columns > MAX_COLUMNS:
+        raise InputError(f"the header has {columns} columns; at most {MAX_COLUMNS} are read",
+                         file=source)
