@@ -107,7 +107,7 @@ def read_catalog(
         columns = read_table(readfile.read_input(path, delimited.MAX_FILE_BYTES,
                                                  what="catalogue"), source, *kind)
     else:
-        columns = _delimited_columns(source, readfile.read_input(
+        columns = _delimited_columns(source, readfile.read_blocks(
             path, delimited.MAX_FILE_BYTES, what="catalogue"), kind)
     return build_catalog(columns, skip_bad=skip_bad)
 
@@ -140,20 +140,19 @@ def _format_of(path: str, source: str, input_format: str | None) -> str | tuple 
 # CSV, TSV and TXT: split by skyplan.inputs.delimited, mapped here
 
 
-def _delimited_columns(source: str, data: bytes, delimiter: str | None) -> Columns:
-    """Split delimited text, keeping only the mapped columns; map the header and name the
-    fields too long to read."""
+def _delimited_columns(source: str, blocks: list[bytes], delimiter: str | None) -> Columns:
+    """Split delimited text (the file as ``readfile.read_blocks`` gives it), keeping only
+    the mapped columns; map the header and name the fields too long to read."""
 
     def select(header: list[str], line: int, sep: str) -> dict[int, delimited.Check | None]:
         _refuse_other_separator(source, header, line, sep)
         positions, _, _ = map_headers(source, header, line)
         return {pos: NUMBER_CHECKS.get(key) for key, pos in positions.items()}
 
-    delimited.refuse_long_lines(data, source)
-    grid = regularsplit.read_regular(data, source, delimiter, select)
+    delimited.refuse_long_lines(blocks, source)
+    grid = regularsplit.read_regular(blocks, source, delimiter, select)
     if grid is None:
-        grid = delimited.read_grid(data, source, delimiter, select)
-    del data
+        grid = delimited.read_grid(_joined(blocks), source, delimiter, select)
     positions, headers, ignored = map_headers(source, grid.header, grid.header_line)
     problems = grid.problems
     for row, pos, size in grid.long_fields:
@@ -170,6 +169,13 @@ def _delimited_columns(source: str, data: bytes, delimiter: str | None) -> Colum
         values[key] = column
     return Columns(source, headers, values, grid.where, True, ignored, problems, grid.trimmed,
                    decimals)
+
+
+def _joined(blocks: list[bytes]) -> bytes:
+    """The blocks as one text; the list is emptied, so that the text is held once."""
+    data = b"".join(blocks)
+    blocks.clear()
+    return data
 
 
 def _refuse_other_separator(source: str, header: list[str], line: int, delimiter: str) -> None:

@@ -45,20 +45,7 @@ def decode(data: bytes, source: str) -> str:
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        line = data.count(b"\n", 0, exc.start) + 1
-        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
-        if exc.reason == "unexpected end of data":
-            raise InputError(
-                f"the file ends inside a UTF-8 character (column {column}): it was cut short",
-                file=source,
-                line=line,
-            ) from None
-        raise InputError(
-            f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
-            "save the file as UTF-8",
-            file=source,
-            line=line,
-        ) from None
+        raise utf8_error(data, exc, source) from None
     if not text.endswith(("\n", "\r")) and text.strip():
         notices.add(
             f"{source}: the file does not end with a line break; if it was cut short, its "
@@ -67,32 +54,51 @@ def decode(data: bytes, source: str) -> str:
     return text
 
 
-def refuse_long_lines(data: bytes, source: str) -> None:
-    """InputError at the first line longer than :data:`MAX_LINE_BYTES`.
+def utf8_error(data: bytes, exc: UnicodeDecodeError, source: str,
+               lines_before: int = 0) -> InputError:
+    """The error for bytes that are not UTF-8, naming the line (``lines_before`` lines
+    precede ``data`` in the file) and the column."""
+    line = lines_before + data.count(b"\n", 0, exc.start) + 1
+    column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+    if exc.reason == "unexpected end of data":
+        return InputError(
+            f"the file ends inside a UTF-8 character (column {column}): it was cut short",
+            file=source, line=line)
+    return InputError(f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
+                      "save the file as UTF-8", file=source, line=line)
+
+
+def refuse_long_lines(blocks: Sequence[bytes], source: str) -> None:
+    """InputError at the first line longer than :data:`MAX_LINE_BYTES` in the text made of
+    ``blocks`` (each but the last ending with a line end, as ``readfile.read_blocks``
+    gives them; one block: any bytes).
 
     Scanned in slices, so that the scan holds a few megabytes whatever the file's size.
     """
-    a = np.frombuffer(data, np.uint8)
-    last_end = -1  # index of the last line end (LF or CR) met
-    step = 1 << 23
-    for start in range(0, len(a), step):
-        part = a[start : start + step]
-        ends = np.flatnonzero((part == 10) | (part == 13)) + start
-        if ends.size:
-            gaps = np.diff(ends, prepend=last_end) - 1
-            if gaps.max() > MAX_LINE_BYTES:
-                j = int(np.argmax(gaps > MAX_LINE_BYTES))
-                _long_line(data, int(ends[j] - gaps[j]), source)
-            last_end = int(ends[-1])
-        if start + len(part) - last_end - 1 > MAX_LINE_BYTES:
-            _long_line(data, last_end + 1, source)
+    lines_before = 0
+    for data in blocks:
+        a = np.frombuffer(data, np.uint8)
+        last_end = -1  # index of the last line end (LF or CR) met
+        step = 1 << 23
+        for start in range(0, len(a), step):
+            part = a[start : start + step]
+            ends = np.flatnonzero((part == 10) | (part == 13)) + start
+            if ends.size:
+                gaps = np.diff(ends, prepend=last_end) - 1
+                if gaps.max() > MAX_LINE_BYTES:
+                    j = int(np.argmax(gaps > MAX_LINE_BYTES))
+                    _long_line(data, int(ends[j] - gaps[j]), source, lines_before)
+                last_end = int(ends[-1])
+            if start + len(part) - last_end - 1 > MAX_LINE_BYTES:
+                _long_line(data, last_end + 1, source, lines_before)
+        lines_before += data.count(b"\n")
 
 
-def _long_line(data: bytes, begin: int, source: str) -> None:
+def _long_line(data: bytes, begin: int, source: str, lines_before: int) -> None:
     raise InputError(
         f"a line longer than {MAX_LINE_BYTES} bytes; is this a catalogue of one row per line?",
         file=source,
-        line=data.count(b"\n", 0, max(begin, 0)) + 1,
+        line=lines_before + data.count(b"\n", 0, max(begin, 0)) + 1,
     )
 
 

@@ -5,7 +5,7 @@ A file qualifies when it has more than :data:`~skyplan.inputs.delimited.FAST_FRO
 rows, holds no quote character and no old Mac line end, every line holds a row (none
 starts with white space, ``#`` or the separator) and every row has the header's number of
 fields.  Its bytes are checked (UTF-8, line starts, printable text) and split by polars'
-CSV reader a block of about :data:`BLOCK_BYTES` at a time; each block's columns go at once
+CSV reader a piece of about :data:`PIECE_BYTES` at a time; each piece's columns go at once
 into the finished columns: text as numpy ``StringDType`` (short strings stored inline,
 16 bytes each), numeric columns as float64 with the text of only the cells that need a
 second look (:class:`~skyplan.inputs.delimited.NumberCells`).  The file's text is never
@@ -17,6 +17,7 @@ few hundred megabytes (docs/performance.md).  Anything else is left to
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator, Sequence
 
 import numpy as np
 from numpy.dtypes import StringDType
@@ -25,79 +26,94 @@ from skyplan import notices
 from skyplan.errors import InputError
 from skyplan.inputs import delimited
 
-BLOCK_BYTES = 1 << 23  # the text split at a time (whole lines)
+PIECE_BYTES = 1 << 23  # the text split by polars at a time (whole lines)
 _BOM = b"\xef\xbb\xbf"
 # ASCII characters that str.isspace() takes as white space, as a bytes class
 _ASCII_SPACE = rb"\t\n\x0b\x0c\r\x1c-\x1f "
 
 
 def read_regular(
-    data: bytes, source: str, delimiter: str | None, select: delimited.Select
+    blocks: list[bytes], source: str, delimiter: str | None, select: delimited.Select
 ) -> delimited.Grid | None:
-    """The columns ``select`` asks for (see :func:`delimited.read_grid`) if ``data`` is
-    regular text of more than ``FAST_FROM_ROWS`` rows (module docstring), else None."""
-    start = len(_BOM) if data.startswith(_BOM) else 0
-    first_end = data.find(b"\n", start)
-    lone_cr = b"\r" in data and data.count(b"\r") != data.count(b"\r\n")
-    if first_end < 0 or b'"' in data or lone_cr:
+    """The columns ``select`` asks for (see :func:`delimited.read_grid`) if the text made of
+    ``blocks`` (as ``readfile.read_blocks`` gives them) is regular text of more than
+    ``FAST_FROM_ROWS`` rows (module docstring), else None with ``blocks`` untouched.  Once
+    the text is known to be regular, each block is let go (emptied in the list) as soon as
+    its columns are made."""
+    if not blocks:
         return None
-    rows = data.count(b"\n") + (not data.endswith(b"\n"))  # the header included
+    first = blocks[0]
+    start = len(_BOM) if first.startswith(_BOM) else 0
+    first_end = first.find(b"\n", start)
+    if first_end < 0 or any(b'"' in b or (b"\r" in b and b.count(b"\r") != b.count(b"\r\n"))
+                            for b in blocks):
+        return None
+    rows = sum(b.count(b"\n") for b in blocks) + (not blocks[-1].endswith(b"\n"))
     if rows - 1 <= max(delimited.FAST_FROM_ROWS, 1):
         return None
     try:
-        header_text = data[start:first_end].decode().rstrip("\r")
+        header_text = first[start:first_end].decode().rstrip("\r")
     except UnicodeDecodeError:
         return None
     if delimiter is None:
         delimiter = delimited.sniff_delimiter(header_text)
     header = header_text.split(delimiter)
-    width = len(header)
-    delimited.refuse_wide_header(width, source)
+    delimited.refuse_wide_header(len(header), source)
     sep = delimiter.encode()
-    first = data[start : start + 1]
-    if first.isspace() or first in (b"#", sep) or not header_text.strip():
+    if first[start : start + 1] in (b"#", sep) or header_text[:1].isspace():
         return None
-    if re.search(rb"\n[" + _ASCII_SPACE + rb"#" + re.escape(sep) + rb"]", data):
-        return None
-    if data.count(sep) != (width - 1) * rows:
-        return None  # a row of another width: no row longer than the header (polars refuses)
-    if not _utf8_lines_start_plainly(data, start, source, delimiter):
+    if not _every_line_a_row(blocks, start, source, delimiter, len(header)):
         return None
     if rows > delimited.MAX_ROWS + 1:
         raise InputError(f"more than {delimited.MAX_ROWS} rows; split the catalogue",
                          file=source, line=delimited.MAX_ROWS + 2)
     wanted = select(header, 1, delimiter)
-    grid = _split(data, first_end + 1, rows - 1, header, delimiter, wanted)
-    if grid is not None and not data.endswith((b"\n", b"\r")):
+    blocks[0] = first[first_end + 1 :]  # the rows: the header line is read
+    del first
+    no_line_end = not blocks[-1].endswith((b"\n", b"\r"))
+    grid = _split(blocks, rows - 1, header, delimiter, wanted)
+    if no_line_end:
         notices.add(f"{source}: the file does not end with a line break; if it was cut short, "
                     f"its last row (line {rows}) is incomplete")
     return grid
 
 
-def _utf8_lines_start_plainly(data: bytes, start: int, source: str, delimiter: str) -> bool:
-    """Whether the text is UTF-8 (else the InputError that :func:`delimited.decode` gives)
-    whose lines start with no white space that is not ASCII (such lines are left to the
-    general reader).  Checked a block at a time; blocks all ASCII are not decoded."""
-    blank = re.compile(rf"(?:^|\n)[\s#{re.escape(delimiter)}]")
-    pos = start
-    while pos < len(data):
-        end = data.find(b"\n", pos + BLOCK_BYTES)
-        end = len(data) if end < 0 else end + 1
-        block = data[pos:end]
-        if not block.isascii():
+def _every_line_a_row(blocks: list[bytes], start: int, source: str, delimiter: str,
+                      width: int) -> bool:
+    """Whether every line holds a row of ``width`` fields: UTF-8 text (else the InputError
+    that :func:`delimited.decode` gives) in which no line starts with white space, ``#`` or
+    the separator, and every line has ``width - 1`` separators.  Blocks all ASCII are not
+    decoded."""
+    sep = delimiter.encode()
+    starts_ascii = re.compile(rb"(?:^|\n)[" + _ASCII_SPACE + rb"#" + re.escape(sep) + rb"]")
+    starts = re.compile(rf"(?:^|\n)[\s#{re.escape(delimiter)}]")
+    lines_before = 0
+    for k, block in enumerate(blocks):
+        body = block[start:] if k == 0 else block
+        if body.isascii():
+            if starts_ascii.search(body):
+                return False
+        else:
             try:
-                if blank.search(block.decode()):
+                if starts.search(body.decode()):
                     return False
-            except UnicodeDecodeError:
-                delimited.decode(data, source)  # raises, naming the line and column
-                raise AssertionError("UTF-8 decoding failed once only") from None
-        pos = end
+            except UnicodeDecodeError as exc:
+                raise delimited.utf8_error(body, exc, source, lines_before) from None
+        a = np.frombuffer(body, np.uint8)
+        ends = np.flatnonzero(a == ord("\n"))
+        fields = np.bincount(np.searchsorted(ends, np.flatnonzero(a == sep[0])),
+                             minlength=len(ends) + 1)
+        lines = len(ends) + (not body.endswith(b"\n"))
+        if (fields[:lines] != width - 1).any():
+            return False
+        lines_before += len(ends)
     return True
 
 
-def _split(data: bytes, body: int, n: int, header: list[str], delimiter: str,
-           wanted: dict[int, delimited.Check | None]) -> delimited.Grid | None:
-    """The wanted columns of the ``n`` rows from byte ``body`` on, a block at a time."""
+def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
+           wanted: dict[int, delimited.Check | None]) -> delimited.Grid:
+    """The wanted columns of the ``n`` rows in ``blocks``, a block at a time; each block is
+    emptied in the list once read."""
     import polars as pl
 
     texts = {pos: np.empty(n, dtype=StringDType()) for pos, c in wanted.items() if c is None}
@@ -105,40 +121,47 @@ def _split(data: bytes, body: int, n: int, header: list[str], delimiter: str,
     second: dict[int, tuple[list[np.ndarray], list[np.ndarray]]] = {p: ([], []) for p in numbers}
     long_fields: list[tuple[int, int, int]] = []
     trimmed = True  # every text cell printable ASCII without a space at either end
-    row, pos = 0, body
-    while pos < len(data):
-        end = data.find(b"\n", pos + BLOCK_BYTES)
-        end = len(data) if end < 0 else end + 1
-        block = data[pos:end]
-        count = block.count(b"\n") + (not block.endswith(b"\n"))
-        printable = _printable(block, delimiter.encode())
-        try:
-            table = pl.read_csv(block, has_header=False, separator=delimiter, quote_char=None,
+    row = 0
+    for k in range(len(blocks)):
+        block, blocks[k] = blocks[k], b""
+        for piece in _pieces(block):
+            count = piece.count(b"\n") + (not piece.endswith(b"\n"))
+            printable = _printable(piece, delimiter.encode())
+            table = pl.read_csv(piece, has_header=False, separator=delimiter, quote_char=None,
                                 infer_schema=False, empty_string_is_null=False,
                                 truncate_ragged_lines=False, raise_if_empty=False)
-        except pl.exceptions.PolarsError:
-            return None
-        if table.height != count or table.width != len(header):
-            return None
-        if _longest_line(block) > delimited.MAX_FIELD_CHARS:
-            long_fields += _long_fields(table, row)
+            if table.height != count or table.width != len(header):  # checked before: never
+                raise AssertionError(f"{count} rows read as {table.height}")
+            if _longest_line(piece) > delimited.MAX_FIELD_CHARS:
+                long_fields += _long_fields(table, row)
+            del piece
+            for p, out in texts.items():
+                series = table.to_series(p)
+                trimmed = trimmed and printable and _trimmed(series)
+                out[row : row + count] = delimited.Cells(series).texts(printable)
+            for p, out in numbers.items():
+                rows, cells = _read_numbers(table.to_series(p), delimiter, wanted[p], out, row)
+                second[p][0].append(rows)
+                second[p][1].append(cells)
+            row += count
         del block
-        for p, out in texts.items():
-            series = table.to_series(p)
-            trimmed = trimmed and printable and _trimmed(series)
-            out[row : row + count] = delimited.Cells(series).texts(printable)
-        for p, out in numbers.items():
-            rows, cells = _read_numbers(table.to_series(p), delimiter, wanted[p], out, row)
-            second[p][0].append(rows)
-            second[p][1].append(cells)
-        row, pos = row + count, end
-    columns: dict[int, object] = dict(texts)
+    columns: dict[int, Sequence[str]] = dict(texts)
     for p, values in numbers.items():
         rows_list, cells_list = second.pop(p)
         columns[p] = delimited.NumberCells(values, np.concatenate(rows_list),
                                            np.concatenate(cells_list))
     where = np.arange(2, n + 2, dtype=np.int64)
     return delimited.Grid(header, 1, columns, where, long_fields, {}, trimmed, delimiter)
+
+
+def _pieces(block: bytes) -> Iterator[bytes]:
+    """The block in pieces of about :data:`PIECE_BYTES`, each of whole lines."""
+    pos = 0
+    while pos < len(block):
+        end = block.find(b"\n", pos + PIECE_BYTES)
+        end = len(block) if end < 0 else end + 1
+        yield block[pos:end]
+        pos = end
 
 
 def _read_numbers(series, delimiter: str, check: delimited.Check, out: np.ndarray,
