@@ -55,6 +55,11 @@ and column; they are raised together as :class:`~skyplan.errors.InputErrors`, or
 :attr:`CatalogRead.skipped`.  The reader only ever parses data: nothing in a file is
 evaluated, and XML with a DOCTYPE or entity declaration is refused before parsing.
 
+Memory follows what is kept, not the file: CSV/TSV text is read in blocks of whole lines
+and a large regular file is split a block at a time into the finished columns (names and
+notes as numpy ``StringDType``, numbers as float64), each block let go once read
+(:mod:`skyplan.inputs.regularsplit`); columns the file does not have cost nothing per row.
+
 This module holds :func:`read_catalog`, which picks the reader by the file's extension, and
 the mapping of CSV/TSV/TXT columns; the types are in :mod:`skyplan.inputs.catalogtypes`, the
 astropy-read formats in :mod:`skyplan.inputs.tablefiles`, and the per-field rules, defaults
@@ -71,7 +76,7 @@ import numpy as np
 from skyplan.errors import InputError
 from skyplan.inputs import delimited, readfile, regularsplit
 from skyplan.inputs.catalogrows import NUMBER_CHECKS, build_catalog, map_headers, too_long
-from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
 from skyplan.inputs.tablefiles import ASTROPY_FORMATS, read_table
 from skyplan.text import quoted
 
@@ -161,7 +166,7 @@ def _delimited_columns(source: str, blocks: list[bytes], delimiter: str | None) 
     decimals: dict[str, np.ndarray] = {}
     for key, pos in positions.items():
         column = grid.columns.pop(pos)
-        if isinstance(column, delimited.NumberCells):
+        if isinstance(column, NumberCells):
             if column.any_read():  # the text of a cell is kept only if it is read again
                 decimals[key] = column.numbers
             else:

@@ -1,10 +1,18 @@
 """From raw catalogue columns to a checked :class:`~skyplan.inputs.catalogtypes.Catalog`.
 
-Holds the header names of each field and their mapping (:func:`map_headers`), the rules and
-limits of the numeric columns (proper motion, parallax, radial velocity, exposure, priority,
-epoch), the defaults of empty fields, the checks of names and notes, and
-:func:`build_catalog`, which parses every column at once and collects each bad field as an
-:class:`~skyplan.errors.InputError` naming file, line (or table row) and column.
+Holds :data:`COLUMNS`, the one table of catalogue columns (field, header names, kind,
+default, the rule of its numbers), the mapping of a header (:func:`map_headers`), the checks
+of names and notes, and :func:`build_catalog`, which parses every column at once and
+collects each bad field as an :class:`~skyplan.errors.InputError` naming file, line (or
+table row) and column.  Texts stay numpy ``StringDType`` arrays and a column the file does
+not have is its default broadcast over the rows, so that a catalogue costs memory in
+proportion to what it holds (docs/performance.md).
+
+A new optional column is one :class:`Column` in :data:`COLUMNS` (numbers: a ``rule``, made
+with :func:`_number_rule`, and a default; text: ``kind="text"``, ``what`` for messages)
+and one field of the same key in :class:`~skyplan.inputs.catalogtypes.Catalog`; readers,
+checks, defaults and ``--skip-bad-rows`` follow from them.  Document it in
+:mod:`skyplan.inputs.catalog`'s table.
 """
 
 from __future__ import annotations
@@ -20,7 +28,7 @@ from skyplan import notices
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
-from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
 from skyplan.text import UNPRINTABLE, quoted
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
@@ -346,7 +354,7 @@ def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object]) -> bool:
         return False
     if isinstance(cells, np.ndarray) and cells.dtype.kind == "f":
         return True
-    if isinstance(cells, delimited.NumberCells):
+    if isinstance(cells, NumberCells):
         cells = cells.texts
     return _SEXAGESIMAL_MARK.search("\n".join(str(c).strip() for c in cells)) is None
 

@@ -2,7 +2,8 @@
 (a catalogue with what its reader noticed) and :class:`Columns`, the raw columns that every
 format reader hands on to be checked (:mod:`skyplan.inputs.catalogrows`).
 
-The formats and columns are described in :mod:`skyplan.inputs.catalog`.
+:class:`NumberCells` is a numeric column read at once by a fast reader.  The formats and
+columns are described in :mod:`skyplan.inputs.catalog`.
 """
 
 from __future__ import annotations
@@ -11,6 +12,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field, fields
 
 import numpy as np
+from numpy.dtypes import StringDType
 
 from skyplan.errors import InputError
 
@@ -80,6 +82,36 @@ class CatalogRead:
 
 
 
+class NumberCells(Sequence[str]):
+    """A numeric column read at once: ``numbers`` (NaN where a cell is empty, infinity
+    where it is not a plain decimal) and the text of the cells that need a second look
+    (``rows``, sorted, and ``texts``): those not plain decimals and those failing the
+    column's check (``delimited.Check``).  Indexing gives the text of such a cell; other
+    cells have none."""
+
+    def __init__(self, numbers: np.ndarray, rows: np.ndarray, texts: np.ndarray) -> None:
+        self.numbers, self.rows, self.texts = numbers, rows, texts
+
+    def __len__(self) -> int:
+        return len(self.numbers)
+
+    def __getitem__(self, row: int) -> str:  # type: ignore[override]
+        k = int(np.searchsorted(self.rows, row))
+        if k == len(self.rows) or self.rows[k] != row:
+            raise IndexError(f"cell {row} was read as a number; its text is not kept")
+        return str(self.texts[k])
+
+    def any_read(self) -> bool:
+        """Whether any cell was read as a finite number (else the column is all text)."""
+        return bool(np.isfinite(self.numbers).any())
+
+    def all_texts(self) -> np.ndarray:
+        """Every cell as text (read only when no cell was a plain decimal: see any_read)."""
+        full = np.full(len(self.numbers), "", dtype=StringDType())
+        full[self.rows] = self.texts
+        return full
+
+
 @dataclass
 class Columns:
     """What a format reader hands on: raw column values by field, before any checking."""
@@ -92,4 +124,4 @@ class Columns:
     ignored: list[str]
     problems: dict[int, list[tuple[str | None, str]]]  # row -> [(column, message)]
     trimmed: bool = False  # every text is printable ASCII without a space at either end
-    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see delimited.NumberCells
+    decimals: dict[str, np.ndarray] = field(default_factory=dict)  # see NumberCells

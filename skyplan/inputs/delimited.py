@@ -9,19 +9,20 @@ the lines of the file as an editor shows them.  A row with fewer fields than the
 its missing trailing fields empty; a row with more is a problem of that row.
 
 Text of more than :data:`FAST_FROM_ROWS` rows, without quote characters, in which every line
-holds a row takes a fast path: polars' CSV reader splits it into columns (:class:`Cells`)
-that stay polars strings until a column's text is needed, and plain decimal columns are read
-as numbers at once.  Anything irregular
-(quotes, comments, blank lines, rows of another width, whatever polars refuses) goes through
-:mod:`csv`, which also names what is wrong.
+holds a row of the header's width takes a fast path, :mod:`skyplan.inputs.regularsplit`:
+polars' CSV reader splits it a piece at a time (:class:`Cells`), texts go into numpy
+``StringDType`` columns and plain decimal columns are read as numbers at once
+(``catalogtypes.NumberCells``).  Anything irregular (quotes, comments, blank lines, rows
+of another width) goes through :mod:`csv` here, which also names what is wrong.  Only the
+columns the caller asks for are kept (:data:`Select`).
 """
 
 from __future__ import annotations
 
 import csv
-import io
+import itertools
 import re
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -153,7 +154,7 @@ class _LineFeed:
     the last line read.  Lines inside a quoted multi-line field are passed through as they are.
     """
 
-    def __init__(self, lines: list[str], delimiter: str) -> None:
+    def __init__(self, lines: Iterable[str], delimiter: str) -> None:
         self._lines = lines
         self._blank_chars = BLANK + delimiter
         self.lineno = 0
@@ -177,39 +178,6 @@ def _too_many_rows(source: str, line: int) -> InputError:
 
 def _csv_error(source: str, delimiter: str, exc: csv.Error, line: int) -> InputError:
     return InputError(f"malformed {delimiter!r}-separated text: {exc}", file=source, line=line)
-
-
-def _lines(text: str) -> list[str]:
-    """The lines of the text as :mod:`csv` sees them, each with its line end."""
-    return io.StringIO(text, newline="").readlines()
-
-
-def _content_lines(
-    text: str, delimiter: str, source: str
-) -> tuple[list[str] | None, range | list[int]]:
-    """The lines of text without quotes, and the indices of those that hold rows (header included).
-
-    When no line starts with white space, ``#`` or the delimiter (found by one scan of the
-    text), every line holds a row and the text is not split into lines (None is returned
-    for them); otherwise each line is looked at.
-    """
-    lone_cr = "\r" in text and text.count("\r") != text.count("\r\n")  # old Mac line ends
-    first = text[:1]
-    if lone_cr or not first or first.isspace() or first in ("#", delimiter):
-        plain = False
-    else:
-        plain = re.search(rf"\n[\s#{re.escape(delimiter)}]", text) is None
-    lines: list[str] | None
-    if plain:  # lines end in "\n" (or "\r\n") only
-        lines = None
-        content: range | list[int] = range(text.count("\n") + (not text.endswith("\n")))
-    else:
-        lines = _lines(text)
-        blank_chars = BLANK + delimiter
-        content = [i for i, line in enumerate(lines) if _is_content(line, blank_chars)]
-    if len(content) > MAX_ROWS + 1:  # the header is not a data row
-        raise _too_many_rows(source, content[MAX_ROWS + 1] + 1)
-    return lines, content
 
 
 Check = Callable[[np.ndarray], np.ndarray]  # True where a number needs no second look
@@ -290,91 +258,27 @@ class Cells(Sequence[str]):
         return numbers, plain
 
 
-class NumberCells(Sequence[str]):
-    """A numeric column read at once: ``numbers`` (NaN where a cell is empty, infinity
-    where it is not a plain decimal) and the text of the cells that need a second look
-    (``rows``, sorted, and ``texts``): those not plain decimals and those failing the
-    column's :data:`Check`.  Indexing gives the text of such a cell; other cells have none."""
-
-    def __init__(self, numbers: np.ndarray, rows: np.ndarray, texts: np.ndarray) -> None:
-        self.numbers, self.rows, self.texts = numbers, rows, texts
-
-    def __len__(self) -> int:
-        return len(self.numbers)
-
-    def __getitem__(self, row: int) -> str:  # type: ignore[override]
-        k = int(np.searchsorted(self.rows, row))
-        if k == len(self.rows) or self.rows[k] != row:
-            raise IndexError(f"cell {row} was read as a number; its text is not kept")
-        return str(self.texts[k])
-
-    def any_read(self) -> bool:
-        """Whether any cell was read as a finite number (else the column is all text)."""
-        return bool(np.isfinite(self.numbers).any())
-
-    def all_texts(self) -> np.ndarray:
-        """Every cell as text (read only when no cell was a plain decimal: see any_read)."""
-        full = np.full(len(self.numbers), "", dtype=StringDType())
-        full[self.rows] = self.texts
-        return full
+ROWS_AT_ONCE = 50_000  # rows from csv made into columns at a time
+# a line with its end (LF, CR LF or CR, as io.StringIO(newline="") splits them), or a last
+# line without one: found one at a time, so that the text is not copied whole
+_LINE = re.compile(r"[^\r\n]*(?:\r\n|\r|\n)|[^\r\n]+")
 
 
-def _split_rows(
-    rows: list[list[str]], starts: list[int], delimiter: str
-) -> tuple[list[str], int, list[Sequence[str]], np.ndarray, list, dict]:
-    """Rows from :mod:`csv` as columns; short rows padded, long rows reported."""
-    header, body = rows[0], rows[1:]
-    width = len(header)
-    problems: dict[int, list[tuple[str | None, str]]] = {}
-    lengths = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
-    for i in np.flatnonzero(lengths != width).tolist():
-        if lengths[i] < width:  # missing trailing fields are empty
-            body[i] = body[i] + [""] * (width - int(lengths[i]))
-        else:
-            message = (
-                f"row has {lengths[i]} fields but the header has {width} (the separator is "
-                f"{delimiter!r}; quote fields that contain it)"
-            )
-            problems.setdefault(i, []).append((None, message))
-            body[i] = body[i][:width]
-    row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
-    long_fields = [(i, pos, len(cell)) for i in np.flatnonzero(row_chars > MAX_FIELD_CHARS)
-                   .tolist() for pos, cell in enumerate(body[i]) if len(cell) > MAX_FIELD_CHARS]
-    columns = list(zip(*body, strict=True)) if body else [() for _ in header]
-    where = np.array(starts[1:], dtype=np.int64)
-    return header, starts[0], columns, where, long_fields, problems
-
-
-def _rows_one_per_line(
-    lines: list[str], content: range | list[int], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text without quote characters, where every content line is one row."""
-    reader = csv.reader([lines[i] for i in content], delimiter=delimiter)
-    try:
-        rows = list(reader)
-    except csv.Error as exc:
-        raise _csv_error(source, delimiter, exc, content[reader.line_num - 1] + 1) from None
-    return rows, [i + 1 for i in content]
-
-
-def _rows_quoted(
-    lines: list[str], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text that may quote fields across lines; each row keeps its first line."""
-    feed = _LineFeed(lines, delimiter)
+def _rows(text: str, delimiter: str, source: str) -> Iterator[tuple[list[str], int]]:
+    """The rows of the text as :mod:`csv` reads them (fields may be quoted across lines),
+    each with the line it starts on; comment and blank lines between rows are skipped."""
+    feed = _LineFeed((m.group() for m in _LINE.finditer(text)), delimiter)
     reader = csv.reader(feed.lines(), delimiter=delimiter)
-    rows: list[list[str]] = []
-    starts: list[int] = []
+    count = 0
     try:
         for row in reader:
             feed.at_row_start = True
-            rows.append(row)
-            starts.append(feed.row_start)
-            if len(rows) > MAX_ROWS + 1:  # the header is not a data row
+            count += 1
+            if count > MAX_ROWS + 1:  # the header is not a data row
                 raise _too_many_rows(source, feed.row_start)
+            yield row, feed.row_start
     except csv.Error as exc:
         raise _csv_error(source, delimiter, exc, feed.lineno) from None
-    return rows, starts
 
 
 def read_grid(data: bytes, source: str, delimiter: str | None, select: Select) -> Grid:
@@ -385,7 +289,10 @@ def read_grid(data: bytes, source: str, delimiter: str | None, select: Select) -
     the positions of the columns to keep: None for a text column, else the
     :data:`Check` of a numeric one.  Text columns come back as numpy ``StringDType`` arrays;
     numeric ones as text (large regular files are read by :mod:`skyplan.inputs.regularsplit`
-    into :class:`NumberCells`).  The caller has refused long lines (:func:`refuse_long_lines`).
+    into ``catalogtypes.NumberCells``).  The rows are made into columns
+    :data:`ROWS_AT_ONCE` at a time, so that a Python string per cell is held for those rows
+    only.  The caller has refused long lines (:func:`refuse_long_lines`) and holds no other
+    reference to ``data``, which is let go once it is text.
     """
     text = decode(data, source)
     del data
@@ -393,27 +300,55 @@ def read_grid(data: bytes, source: str, delimiter: str | None, select: Select) -
     if delimiter is None:
         delimiter = sniff_delimiter(header_line)
     refuse_wide_header(header_line.count(delimiter) + 1, source)
-    rows: list[list[str]] = []
-    if '"' in text:
-        rows, starts = _rows_quoted(_lines(text), delimiter, source)
-    else:
-        lines, content = _content_lines(text, delimiter, source)
-        if content:
-            rows, starts = _rows_one_per_line(_lines(text) if lines is None else lines,
-                                              content, delimiter, source)
-    del text
-    if not rows:
+    rows = _rows(text, delimiter, source)
+    first = next(rows, None)
+    if first is None:
         raise InputError("no header line (expected columns name, ra, dec)", file=source)
-    header, line, columns, where, long_fields, problems = _split_rows(rows, starts, delimiter)
-    del rows
+    header, line = first
     wanted = select(header, line, delimiter)
-    kept: dict[int, Sequence[str]] = {}
-    for pos, check in wanted.items():
-        cells = columns[pos]
-        if check is not None and delimiter != ",":
-            cells = decimal_points(cells)
-        kept[pos] = np.array(cells, dtype=StringDType())
-    return Grid(header, line, kept, where, long_fields, problems, False, delimiter)
+    parts: dict[int, list[np.ndarray]] = {pos: [] for pos in wanted}
+    starts: list[np.ndarray] = []  # numpy, not Python ints kept among the freed cells
+    done = 0
+    problems: dict[int, list[tuple[str | None, str]]] = {}
+    long_fields: list[tuple[int, int, int]] = []
+    while batch := list(itertools.islice(rows, ROWS_AT_ONCE)):
+        body = [row for row, _ in batch]
+        _fit_rows(body, len(header), done, delimiter, problems, long_fields)
+        for pos, check in wanted.items():
+            cells: Sequence[str] = [row[pos] for row in body]
+            if check is not None and delimiter != ",":
+                cells = decimal_points(cells)
+            parts[pos].append(np.array(cells, dtype=StringDType()))
+        starts.append(np.fromiter((start for _, start in batch), np.int64, len(batch)))
+        done += len(batch)
+    del text
+    columns: dict[int, Sequence[str]] = {}
+    for pos in wanted:
+        chunks = parts.pop(pos)
+        columns[pos] = np.concatenate(chunks) if chunks else np.empty(0, StringDType())
+    where = np.concatenate(starts) if starts else np.empty(0, np.int64)
+    return Grid(header, line, columns, where, long_fields, problems, False, delimiter)
+
+
+def _fit_rows(body: list[list[str]], width: int, first: int, delimiter: str,
+              problems: dict, long_fields: list[tuple[int, int, int]]) -> None:
+    """Rows ``first``... to the header's width: short rows padded (missing trailing fields
+    are empty), long rows cut and reported; fields too long to read noted."""
+    lengths = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
+    for i in np.flatnonzero(lengths != width).tolist():
+        if lengths[i] < width:
+            body[i] = body[i] + [""] * (width - int(lengths[i]))
+        else:
+            message = (
+                f"row has {lengths[i]} fields but the header has {width} (the separator is "
+                f"{delimiter!r}; quote fields that contain it)"
+            )
+            problems.setdefault(first + i, []).append((None, message))
+            body[i] = body[i][:width]
+    row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
+    long_fields += [(first + i, pos, len(cell))
+                    for i in np.flatnonzero(row_chars > MAX_FIELD_CHARS).tolist()
+                    for pos, cell in enumerate(body[i]) if len(cell) > MAX_FIELD_CHARS]
 
 
 def refuse_wide_header(columns: int, source: str) -> None:

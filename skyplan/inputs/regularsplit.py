@@ -8,7 +8,7 @@ fields.  Its bytes are checked (UTF-8, line starts, printable text) and split by
 CSV reader a piece of about :data:`PIECE_BYTES` at a time; each piece's columns go at once
 into the finished columns: text as numpy ``StringDType`` (short strings stored inline,
 16 bytes each), numeric columns as float64 with the text of only the cells that need a
-second look (:class:`~skyplan.inputs.delimited.NumberCells`).  The file's text is never
+second look (:class:`~skyplan.inputs.catalogtypes.NumberCells`).  The file's text is never
 made whole and no Python string is made per cell, so a 200 MB catalogue is read within a
 few hundred megabytes (docs/performance.md).  Anything else is left to
 :mod:`skyplan.inputs.delimited` (None is returned), which also names what is wrong.
@@ -25,6 +25,7 @@ from numpy.dtypes import StringDType
 from skyplan import notices
 from skyplan.errors import InputError
 from skyplan.inputs import delimited
+from skyplan.inputs.catalogtypes import NumberCells
 
 PIECE_BYTES = 1 << 23  # the text split by polars at a time (whole lines)
 _BOM = b"\xef\xbb\xbf"
@@ -148,7 +149,7 @@ def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
     columns: dict[int, Sequence[str]] = dict(texts)
     for p, values in numbers.items():
         rows_list, cells_list = second.pop(p)
-        columns[p] = delimited.NumberCells(values, np.concatenate(rows_list),
+        columns[p] = NumberCells(values, np.concatenate(rows_list),
                                            np.concatenate(cells_list))
     where = np.arange(2, n + 2, dtype=np.int64)
     return delimited.Grid(header, 1, columns, where, long_fields, {}, trimmed, delimiter)
