@@ -709,3 +709,21 @@ def test_a_large_catalogue_keeps_texts_as_strings_and_absent_columns_as_one_valu
     assert cat.pm_ra_masyr.strides == (0,) and not cat.pm_ra_masyr.any()
     assert (cat.epoch_jyear == 2000.0).all() and (cat.priority == 1).all()
     assert cat.subset(np.array([2, 0])).pm_ra_masyr.tolist() == [0.0, 0.0]
+
+
+@pytest.mark.usefixtures("small_blocks")
+@pytest.mark.parametrize("start", ["\u2003", "\u00a0", "\x1c", " ", "#", ",", "é", "\u3000",
+                                   "\u2003#", "\x1c#", " #"])  # the last: comments
+def test_a_line_starting_with_space_or_a_mark_reads_as_the_general_path(
+    tmp_path: Path, start: str
+) -> None:
+    # str.isspace() is the reference for white space (U+2003, U+00A0, U+3000 and U+001C
+    # are white space to it; é is not): such lines go through the csv module's path, where
+    # white space then "#" is a comment line
+    body = "".join(f"t{i},{i}.5,-1\n" for i in range(30))
+    text = "name,ra,dec\n" + body + f"{start}x,1,2\n" + body
+    fast, general = tmp_path / "fast.csv", tmp_path / "general.csv"
+    fast.write_text(text, encoding="utf-8")
+    general.write_text(text + '# "\n', encoding="utf-8")
+    for skip_bad in (False, True):
+        assert _outcome(fast, skip_bad) == _outcome(general, skip_bad)

@@ -16,7 +16,7 @@ few hundred megabytes (docs/performance.md).  Anything else is left to
 
 from __future__ import annotations
 
-import re
+import codecs
 from collections.abc import Iterator, Sequence
 
 import numpy as np
@@ -29,8 +29,8 @@ from skyplan.inputs.catalogtypes import NumberCells
 
 PIECE_BYTES = 1 << 23  # the text split by polars at a time (whole lines)
 _BOM = b"\xef\xbb\xbf"
-# ASCII characters that str.isspace() takes as white space, as a bytes class
-_ASCII_SPACE = rb"\t\n\x0b\x0c\r\x1c-\x1f "
+# the ASCII characters that str.isspace() takes as white space
+_ASCII_FIRST = b"\t\n\x0b\x0c\r\x1c\x1d\x1e\x1f "
 
 
 def read_regular(
@@ -84,28 +84,30 @@ def _every_line_a_row(blocks: list[bytes], start: int, source: str, delimiter: s
     """Whether every line holds a row of ``width`` fields: UTF-8 text (else the InputError
     that :func:`delimited.decode` gives) in which no line starts with white space, ``#`` or
     the separator, and every line has ``width - 1`` separators.  Blocks all ASCII are not
-    decoded."""
+    decoded; the first byte of every line is looked up at once."""
     sep = delimiter.encode()
-    starts_ascii = re.compile(rb"(?:^|\n)[" + _ASCII_SPACE + rb"#" + re.escape(sep) + rb"]")
-    starts = re.compile(rf"(?:^|\n)[\s#{re.escape(delimiter)}]")
+    refused = np.zeros(256, dtype=bool)  # first bytes of a line that is not a plain row
+    refused[np.frombuffer(_ASCII_FIRST + b"#" + sep, np.uint8)] = True
     lines_before = 0
     for k, block in enumerate(blocks):
-        body = block[start:] if k == 0 else block
-        if body.isascii():
-            if starts_ascii.search(body):
-                return False
-        else:
+        offset = start if k == 0 else 0
+        if not block.isascii():
             try:
-                if starts.search(body.decode()):
-                    return False
+                codecs.utf_8_decode(memoryview(block)[offset:], None, True)
             except UnicodeDecodeError as exc:
+                body = block[offset:]
                 raise delimited.utf8_error(body, exc, source, lines_before) from None
-        a = np.frombuffer(body, np.uint8)
+        a = np.frombuffer(block, np.uint8, offset=offset)
         ends = np.flatnonzero(a == ord("\n"))
+        heads = np.concatenate(([0], ends + 1))
+        heads = heads[heads < len(a)]
+        if refused[a[heads]].any() or any(
+                bytes(a[p : p + 4]).decode(errors="ignore")[:1].isspace()
+                for p in heads[a[heads] >= 0x80].tolist()):
+            return False
         fields = np.bincount(np.searchsorted(ends, np.flatnonzero(a == sep[0])),
                              minlength=len(ends) + 1)
-        lines = len(ends) + (not body.endswith(b"\n"))
-        if (fields[:lines] != width - 1).any():
+        if (fields[: len(heads)] != width - 1).any():
             return False
         lines_before += len(ends)
     return True
