@@ -727,3 +727,18 @@ def test_a_line_starting_with_space_or_a_mark_reads_as_the_general_path(
     general.write_text(text + '# "\n', encoding="utf-8")
     for skip_bad in (False, True):
         assert _outcome(fast, skip_bad) == _outcome(general, skip_bad)
+
+
+def test_angles_as_text_read_in_blocks_as_in_one(tmp_path: Path, monkeypatch) -> None:
+    # sexagesimal RA/Dec are parsed a block of rows at a time; the reference is the same
+    # file parsed in one block: values, and errors named at their lines
+    from skyplan.inputs import catalogrows
+
+    rows = [f"t{i},{i % 24:02d}:{i % 60:02d}:{i % 7}.5,-{i % 90}:30:00\n" for i in range(40)]
+    rows[17] = "bad,25:00:00,+10:00:00\n"  # 25 h is 375 deg: out of range
+    rows[31] = "worse,12:00:00,x\n"
+    path = write(tmp_path, "s.csv", '# "\nname,ra,dec\n' + "".join(rows))
+    whole = _outcome(path, skip_bad=True)
+    monkeypatch.setattr(catalogrows, "ANGLE_BLOCK", 3)
+    assert _outcome(path, skip_bad=True) == whole
+    assert [line for _, line, _ in whole[2]] == [20, 34]

@@ -312,9 +312,9 @@ def _angles(columns: Columns, note: Callable) -> tuple[np.ndarray, np.ndarray]:
     """RA and Dec in degrees (NaN where empty or bad), with their problems noted."""
     decimals = columns.decimals
     ra_cells = columns.values.pop("ra_deg")
-    ra, ra_errors = parse_ra_column(ra_cells, decimals=decimals.pop("ra_deg", None))
-    dec, dec_errors = parse_dec_column(columns.values.pop("dec_deg"),
-                                       decimals=decimals.pop("dec_deg", None))
+    ra, ra_errors = _in_blocks(parse_ra_column, ra_cells, decimals.pop("ra_deg", None))
+    dec, dec_errors = _in_blocks(parse_dec_column, columns.values.pop("dec_deg"),
+                                 decimals.pop("dec_deg", None))
     note(ra_errors, "ra_deg")
     note(dec_errors, "dec_deg")
     if _ra_looks_like_hours(ra, ra_cells):
@@ -329,6 +329,25 @@ def _angles(columns: Columns, note: Callable) -> tuple[np.ndarray, np.ndarray]:
     note({i: "Dec is empty but RA is given; give both, or neither to look the name up"
           for i in np.flatnonzero(dec_empty & ~np.isnan(ra)).tolist()}, "dec_deg")
     return ra, dec
+
+
+ANGLE_BLOCK = 100_000  # angles given as text parsed at a time
+
+
+def _in_blocks(parse: Callable, cells: Sequence[object], decimals: np.ndarray | None
+               ) -> tuple[np.ndarray, dict[int, str]]:
+    """``parse(cells, decimals=...)`` over a column of text :data:`ANGLE_BLOCK` rows at a
+    time, so that the Python strings its parsers make (sexagesimal text) are held for one
+    block only; each entry is read as it is read in the whole column."""
+    if not isinstance(cells, np.ndarray) or cells.dtype.kind != "T" or decimals is not None:
+        return parse(cells, decimals=decimals)
+    values = np.empty(len(cells))
+    errors: dict[int, str] = {}
+    for start in range(0, len(cells), ANGLE_BLOCK):
+        part, found = parse(cells[start : start + ANGLE_BLOCK])
+        values[start : start + len(part)] = part
+        errors.update((start + i, message) for i, message in found.items())
+    return values, errors
 
 
 def _duplicates(names: np.ndarray) -> list[str]:

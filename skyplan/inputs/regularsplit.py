@@ -143,7 +143,8 @@ def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
                 trimmed = trimmed and printable and _trimmed(series)
                 out[row : row + count] = delimited.Cells(series).texts(printable)
             for p, out in numbers.items():
-                rows, cells = _read_numbers(table.to_series(p), delimiter, wanted[p], out, row)
+                rows, cells = _read_numbers(table.to_series(p), delimiter, wanted[p], out, row,
+                                            printable)
                 second[p][0].append(rows)
                 second[p][1].append(cells)
             row += count
@@ -168,7 +169,7 @@ def _pieces(block: bytes) -> Iterator[bytes]:
 
 
 def _read_numbers(series, delimiter: str, check: delimited.Check, out: np.ndarray,
-                  row: int) -> tuple[np.ndarray, np.ndarray]:
+                  row: int, printable: bool) -> tuple[np.ndarray, np.ndarray]:
     """One block of a numeric column into ``out`` from ``row`` on; the rows (in the whole
     column) and the texts of the cells that need a second look."""
     if delimiter != ",":
@@ -184,7 +185,7 @@ def _read_numbers(series, delimiter: str, check: delimited.Check, out: np.ndarra
         look |= ~plain
     out[row : row + len(values)] = values
     picked = np.flatnonzero(look)
-    return picked + row, np.array(series.gather(picked).to_list(), dtype=StringDType())
+    return picked + row, delimited.Cells(series.gather(picked)).texts(printable)
 
 
 def _longest_line(block: bytes) -> int:
