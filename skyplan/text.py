@@ -38,6 +38,15 @@ def excerpt(text: str, limit: int = EXCERPT_CHARS) -> str:
     return shown if len(shown) <= limit else shown[: limit - 1] + "…"
 
 
+def fixed_width(texts):
+    """Texts (a numpy ``StringDType`` array, as catalogues give names and notes, or any
+    array of str) as a fixed-width numpy ``str`` array, the form astropy tables take."""
+    import numpy as np
+
+    array = np.asarray(texts)
+    return (array.astype(object) if array.dtype.kind == "T" else array).astype(str)
+
+
 def quoted(text: str, limit: int = EXCERPT_CHARS) -> str:
     """:func:`excerpt` between single quotes, as messages quote what was given."""
     return f"'{excerpt(text, limit)}'"

@@ -13,6 +13,7 @@ from skyplan.defaults import TIMED_MIN_COVERAGE as MIN_COVERAGE
 from skyplan.inputs.limits import Limits
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
+from skyplan.text import fixed_width
 
 NIGHTS = 30  # the default range: this many nights from the first
 MAX_NIGHTS = 400
@@ -47,7 +48,7 @@ class Catch:
 
         r = self.result
         return QTable({
-            "name": np.asarray(r.names, dtype=str), "kind": np.asarray(r.kind, dtype=str),
+            "name": fixed_width(r.names), "kind": np.asarray(r.kind, dtype=str),
             "epoch_number": r.epoch, "ingress": time_column(r.ingress),
             "mid": time_column(r.mid), "egress": time_column(r.egress),
             "mid_sigma": r.mid_sigma_s / 60.0 * u.min, "coverage": r.coverage,

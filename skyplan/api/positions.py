@@ -9,6 +9,7 @@ import numpy as np
 
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
+from skyplan.text import fixed_width
 
 
 @dataclass(frozen=True, eq=False)
@@ -34,8 +35,8 @@ class Conversion:
         r = self.result
         lon_key, lat_key = {"horizon": ("az", "alt"), "ecliptic": ("elon", "elat"),
                             "galactic": ("l", "b")}.get(r.request.to_frame, ("ra", "dec"))
-        columns = {"name": np.asarray(r.positions.names, dtype=str),
-                   "identifier": np.asarray(r.positions.identifiers, dtype=str),
+        columns = {"name": fixed_width(r.positions.names),
+                   "identifier": fixed_width(r.positions.identifiers),
                    lon_key: r.lon_deg * u.deg, lat_key: r.lat_deg * u.deg}
         if r.hour_angle_h is not None:
             columns["hour_angle"] = r.hour_angle_h * u.hour

@@ -21,6 +21,7 @@ from skyplan.api.targets import Targets
 from skyplan.inputs.limits import Limits
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
+from skyplan.text import fixed_width
 
 CLUSTER_ENV = "SKYPLAN_CLUSTER"
 MIN_MINUTES = 60.0  # a night counts as observable with at least this many usable minutes
@@ -69,7 +70,7 @@ class Season:
 
         s = self.summary()
         return QTable({
-            "name": np.asarray(self.names, dtype=str),
+            "name": fixed_width(self.names),
             "first_night": s.date_text(s.first), "last_night": s.date_text(s.last),
             "best_night": s.date_text(s.best), "best_minutes": s.best_minutes * u.min,
             "nights": s.nights_observable, "usable_total": s.usable_hours * u.h,

@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from skyplan.notices import as_warnings
+from skyplan.text import fixed_width
 
 
 @dataclass(frozen=True, eq=False)
@@ -49,7 +50,7 @@ class Targets:
         t = self.target_set
         ident = t.identifiers if t.identifiers is not None else np.full(len(self), "")
         return QTable({
-            "name": np.asarray(t.names, dtype=str), "identifier": np.asarray(ident, dtype=str),
+            "name": fixed_width(t.names), "identifier": fixed_width(ident),
             "ra": t.ra_deg * u.deg, "dec": t.dec_deg * u.deg,
             "body": np.asarray(t.body, dtype=str), "priority": self.priority,
             "exposure": self.exposure_s * u.s,

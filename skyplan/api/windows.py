@@ -11,6 +11,7 @@ from skyplan.api.targets import Targets
 from skyplan.inputs.limits import Limits
 from skyplan.inputs.sites import Site
 from skyplan.notices import as_warnings
+from skyplan.text import fixed_width
 
 
 def limits(site: Site | None = None, *, defaults: dict | None = None, **options) -> Limits:
@@ -83,8 +84,8 @@ class Windows:
         r = self.result
         count = np.bincount(r.windows.rows, minlength=len(r.names))
         columns = {
-            "name": np.asarray(r.names, dtype=str),
-            "identifier": np.asarray(r.identifiers, dtype=str),
+            "name": fixed_width(r.names),
+            "identifier": fixed_width(r.identifiers),
             "ra": r.ra_deg * u.deg, "dec": r.dec_deg * u.deg,
             "rise": time_column(r.rise), "transit": time_column(r.transit),
             "set": time_column(r.set), "transit_alt": r.transit_alt_deg * u.deg,

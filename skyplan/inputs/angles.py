@@ -252,9 +252,9 @@ def parse_column(
     without an error.
 
     ``decimals``, when given, takes the place of the first conversion: the entries already
-    read as numbers by a reader that gives exactly what ``float`` gives for each text, and
-    NaN exactly where the entry is empty.  Only the entries that fail ``valid`` are then
-    parsed one by one.
+    read as numbers by a reader that gives exactly what ``float`` gives for each text, NaN
+    exactly where the entry is empty, and infinity where it left the text unread.  Only
+    the entries that are not finite or fail ``valid`` are then parsed one by one.
 
     Returns the values and ``{row index: message}`` for the entries that could not be read
     (NaN in the array).

@@ -55,6 +55,11 @@ and column; they are raised together as :class:`~skyplan.errors.InputErrors`, or
 :attr:`CatalogRead.skipped`.  The reader only ever parses data: nothing in a file is
 evaluated, and XML with a DOCTYPE or entity declaration is refused before parsing.
 
+Memory follows what is kept, not the file: CSV/TSV text is read in blocks of whole lines
+and a large regular file is split a block at a time into the finished columns (names and
+notes as numpy ``StringDType``, numbers as float64), each block let go once read
+(:mod:`skyplan.inputs.regularsplit`); columns the file does not have cost nothing per row.
+
 This module holds :func:`read_catalog`, which picks the reader by the file's extension, and
 the mapping of CSV/TSV/TXT columns; the types are in :mod:`skyplan.inputs.catalogtypes`, the
 astropy-read formats in :mod:`skyplan.inputs.tablefiles`, and the per-field rules, defaults
@@ -69,9 +74,9 @@ from pathlib import Path
 import numpy as np
 
 from skyplan.errors import InputError
-from skyplan.inputs import delimited, readfile
-from skyplan.inputs.catalogrows import TEXT_FIELDS, build_catalog, map_headers, too_long
-from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.inputs import delimited, readfile, regularsplit
+from skyplan.inputs.catalogrows import NUMBER_CHECKS, build_catalog, map_headers, too_long
+from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
 from skyplan.inputs.tablefiles import ASTROPY_FORMATS, read_table
 from skyplan.text import quoted
 
@@ -102,11 +107,13 @@ def read_catalog(
     """
     source = "<stdin>" if str(path) == readfile.STDIN else str(path)
     kind = _format_of(str(path), source, input_format)
-    data = readfile.read_input(path, delimited.MAX_FILE_BYTES, what="catalogue")
+    # the file's bytes are handed on, not kept here, so that the reader can let them go
     if isinstance(kind, tuple):
-        columns = read_table(data, source, *kind)
+        columns = read_table(readfile.read_input(path, delimited.MAX_FILE_BYTES,
+                                                 what="catalogue"), source, *kind)
     else:
-        columns = _columns_from_grid(source, delimited.read_grid(data, source, kind))
+        columns = _delimited_columns(source, readfile.read_blocks(
+            path, delimited.MAX_FILE_BYTES, what="catalogue"), kind)
     return build_catalog(columns, skip_bad=skip_bad)
 
 
@@ -138,40 +145,50 @@ def _format_of(path: str, source: str, input_format: str | None) -> str | tuple 
 # CSV, TSV and TXT: split by skyplan.inputs.delimited, mapped here
 
 
-def _columns_from_grid(source: str, grid: delimited.Grid) -> Columns:
-    """Map the header, read decimal commas and check field sizes."""
-    _refuse_other_separator(source, grid)
+def _delimited_columns(source: str, blocks: list[bytes], delimiter: str | None) -> Columns:
+    """Split delimited text (the file as ``readfile.read_blocks`` gives it), keeping only
+    the mapped columns; map the header and name the fields too long to read."""
+
+    def select(header: list[str], line: int, sep: str) -> dict[int, delimited.Check | None]:
+        _refuse_other_separator(source, header, line, sep)
+        positions, _, _ = map_headers(source, header, line)
+        return {pos: NUMBER_CHECKS.get(key) for key, pos in positions.items()}
+
+    delimited.refuse_long_lines(blocks, source)
+    grid = regularsplit.read_regular(blocks, source, delimiter, select)
+    if grid is None:
+        grid = delimited.read_grid(_joined(blocks), source, delimiter, select)
     positions, headers, ignored = map_headers(source, grid.header, grid.header_line)
     problems = grid.problems
-    for i in grid.wide_rows.tolist():
-        for name, column in zip(grid.header, grid.columns, strict=True):
-            if len(column[i]) > delimited.MAX_FIELD_CHARS:
-                problems.setdefault(i, []).append((name.strip(), too_long(len(column[i]))))
-    values: dict[str, Sequence[str]] = {}
+    for row, pos, size in grid.long_fields:
+        problems.setdefault(row, []).append((grid.header[pos].strip(), too_long(size)))
+    values: dict[str, Sequence[object]] = {}
     decimals: dict[str, np.ndarray] = {}
     for key, pos in positions.items():
-        column = grid.columns[pos]
-        if key not in TEXT_FIELDS and grid.delimiter != ",":
-            column = delimited.decimal_points(column)
-        if isinstance(column, delimited.Cells):
-            numbers = None
-            if key not in TEXT_FIELDS:
-                numbers = column.numbers()
-            if numbers is None:
-                column = column.texts()
-            else:  # the text of a cell is made only if it is read again
-                decimals[key] = numbers
+        column = grid.columns.pop(pos)
+        if isinstance(column, NumberCells):
+            if column.any_read():  # the text of a cell is kept only if it is read again
+                decimals[key] = column.numbers
+            else:
+                column = column.all_texts()
         values[key] = column
     return Columns(source, headers, values, grid.where, True, ignored, problems, grid.trimmed,
                    decimals)
 
 
-def _refuse_other_separator(source: str, grid: delimited.Grid) -> None:
+def _joined(blocks: list[bytes]) -> bytes:
+    """The blocks as one text; the list is emptied, so that the text is held once."""
+    data = b"".join(blocks)
+    blocks.clear()
+    return data
+
+
+def _refuse_other_separator(source: str, header: list[str], line: int, delimiter: str) -> None:
     """A header of one column that holds another separator: name the one the file uses."""
-    if len(grid.header) != 1:
+    if len(header) != 1:
         return
-    other = delimited.sniff_delimiter(grid.header[0])
-    if other != grid.delimiter and other in grid.header[0]:
+    other = delimited.sniff_delimiter(header[0])
+    if other != delimiter and other in header[0]:
         raise InputError(f"this file seems to use {other!r} as separator, not "
-                         f"{grid.delimiter!r}; use --input-format csv or name it .csv",
-                         file=source, line=grid.header_line)
+                         f"{delimiter!r}; use --input-format csv or name it .csv",
+                         file=source, line=line)

@@ -1,25 +1,34 @@
 """From raw catalogue columns to a checked :class:`~skyplan.inputs.catalogtypes.Catalog`.
 
-Holds the header names of each field and their mapping (:func:`map_headers`), the rules and
-limits of the numeric columns (proper motion, parallax, radial velocity, exposure, priority,
-epoch), the defaults of empty fields, the checks of names and notes, and
-:func:`build_catalog`, which parses every column at once and collects each bad field as an
-:class:`~skyplan.errors.InputError` naming file, line (or table row) and column.
+Holds :data:`COLUMNS`, the one table of catalogue columns (field, header names, kind,
+default, the rule of its numbers), the mapping of a header (:func:`map_headers`), the checks
+of names and notes, and :func:`build_catalog`, which parses every column at once and
+collects each bad field as an :class:`~skyplan.errors.InputError` naming file, line (or
+table row) and column.  Texts stay numpy ``StringDType`` arrays and a column the file does
+not have is its default broadcast over the rows, so that a catalogue costs memory in
+proportion to what it holds (docs/performance.md).
+
+A new optional column is one :class:`Column` in :data:`COLUMNS` (numbers: a ``rule``, made
+with :func:`_number_rule`, and a default; text: ``kind="text"``, ``what`` for messages)
+and one field of the same key in :class:`~skyplan.inputs.catalogtypes.Catalog`; readers,
+checks, defaults and ``--skip-bad-rows`` follow from them.  Document it in
+:mod:`skyplan.inputs.catalog`'s table.
 """
 
 from __future__ import annotations
 
 import re
-from collections import Counter
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 
 import numpy as np
+from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs import delimited
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
-from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns
+from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
 from skyplan.text import UNPRINTABLE, quoted
 
 MAX_PM_MASYR = 100_000.0  # |proper motion| must be below this
@@ -31,25 +40,7 @@ DEFAULT_EPOCH_JYEAR = 2000.0
 RA_HOURS_MIN_ROWS = 3  # fewer RAs never raise the "RA looks like hours" notice
 _SEXAGESIMAL_MARK = re.compile(r"[^0-9.eE+\-\n]")  # in RA text: not a plain decimal
 
-TIMED_FIELDS = ("event_t0", "event_t0_scale", "period_d", "duration_h", "event_t0_err_d",
-                "period_err_d", "phase_min", "phase_max", "fixed_start", "fixed_window")
-_ALIASES: dict[str, tuple[str, ...]] = {
-    "name": ("name", "target"),
-    "ra_deg": ("ra", "ra_deg"),
-    "dec_deg": ("dec", "dec_deg"),
-    "pm_ra_masyr": ("pm_ra", "pmra", "pm_ra_masyr", "pm_ra_cosdec"),
-    "pm_dec_masyr": ("pm_dec", "pmdec", "pm_dec_masyr"),
-    "epoch_jyear": ("epoch", "epoch_jyear"),
-    "parallax_mas": ("parallax", "plx", "parallax_mas"),
-    "radial_velocity_kms": ("radial_velocity", "rv", "radial_velocity_kms"),
-    "priority": ("priority",),
-    "exposure_s": ("exposure", "exp", "exposure_s"),
-    "notes": ("notes", "note"),
-    **{key: (key,) for key in TIMED_FIELDS},  # parsed by skyplan.inputs.ephemerides
-}
-_FIELD_OF_HEADER = {alias: key for key, aliases in _ALIASES.items() for alias in aliases}
-_REQUIRED = ("name", "ra_deg", "dec_deg")
-TEXT_FIELDS = ("name", "notes", "event_t0_scale", "fixed_start", "fixed_window")
+_REQUIRED = ("name", "ra_deg", "dec_deg")  # columns a catalogue must have
 
 # Characters that must not reach a terminal inside a name or note: C0/C1 controls (newline
 # and tab included), line/paragraph separators and bidirectional overrides.
@@ -150,40 +141,76 @@ def _epoch_ok(epoch: np.ndarray) -> np.ndarray:
     return (epoch >= EPOCH_RANGE_JYEAR[0]) & (epoch <= EPOCH_RANGE_JYEAR[1])
 
 
-_NUMBER_RULES = {
-    "pm_ra_masyr": _number_rule(
-        "proper motion",
-        lambda v: np.abs(v) < MAX_PM_MASYR,
-        f"mas/yr is not below {MAX_PM_MASYR:g} in size",
-    ),
-    "pm_dec_masyr": _number_rule(
-        "proper motion",
-        lambda v: np.abs(v) < MAX_PM_MASYR,
-        f"mas/yr is not below {MAX_PM_MASYR:g} in size",
-    ),
-    "parallax_mas": _number_rule("parallax", lambda v: v >= 0, "mas is negative"),
-    "radial_velocity_kms": _number_rule(
-        "radial velocity",
-        lambda v: np.abs(v) < SPEED_OF_LIGHT_KMS,
-        "km/s is not below the speed of light",
-    ),
-    "exposure_s": _number_rule("exposure", lambda v: v > 0, "s must be above 0"),
-    "priority": _number_rule(
-        "priority",
-        lambda v: (v == np.floor(v)) & (v >= PRIORITY_RANGE[0]) & (v <= PRIORITY_RANGE[1]),
-        f"is not a whole number from {PRIORITY_RANGE[0]} to {PRIORITY_RANGE[1]}",
-    ),
-    "epoch_jyear": (_parse_epoch, _epoch_ok),
-}
-_DEFAULTS = {
-    "pm_ra_masyr": 0.0,
-    "pm_dec_masyr": 0.0,
-    "parallax_mas": 0.0,
-    "radial_velocity_kms": 0.0,
-    "exposure_s": np.nan,
-    "priority": float(DEFAULT_PRIORITY),
-    "epoch_jyear": DEFAULT_EPOCH_JYEAR,
-}
+def _ra_ok(ra_deg: np.ndarray) -> np.ndarray:
+    return (ra_deg >= 0.0) & (ra_deg < 360.0)  # as skyplan.inputs.angles accepts RA
+
+
+def _dec_ok(dec_deg: np.ndarray) -> np.ndarray:
+    return (dec_deg >= -90.0) & (dec_deg <= 90.0)  # as skyplan.inputs.angles accepts Dec
+
+
+def _pm_rule() -> tuple[Callable[[str], float], Callable[[np.ndarray], np.ndarray]]:
+    return _number_rule("proper motion", lambda v: np.abs(v) < MAX_PM_MASYR,
+                        f"mas/yr is not below {MAX_PM_MASYR:g} in size")
+
+
+@dataclass(frozen=True)
+class Column:
+    """One catalogue column: the :class:`Catalog` field it fills, its header names (the
+    first is the documented one), its kind (``text``; ``angle``, read by the RA and Dec
+    parsers; ``number``, read by ``rule``), the value of an empty or missing field (for a
+    text, whether it may be empty), and the numbers' type."""
+
+    key: str
+    aliases: tuple[str, ...]
+    kind: str = "number"
+    default: object = np.nan
+    rule: tuple[Callable[[str], float], Callable[[np.ndarray], np.ndarray]] | None = None
+    dtype: type = np.float64
+    what: str = ""  # a text column's name in messages
+
+
+# Every column a catalogue may have; a new optional column is one entry here and one field
+# of Catalog (catalogtypes.py) of the same key.
+COLUMNS = (
+    Column("name", ("name", "target"), "text", default=None, what="name"),
+    Column("ra_deg", ("ra", "ra_deg"), "angle", rule=(str, _ra_ok)),
+    Column("dec_deg", ("dec", "dec_deg"), "angle", rule=(str, _dec_ok)),
+    Column("pm_ra_masyr", ("pm_ra", "pmra", "pm_ra_masyr", "pm_ra_cosdec"), default=0.0,
+           rule=_pm_rule()),
+    Column("pm_dec_masyr", ("pm_dec", "pmdec", "pm_dec_masyr"), default=0.0, rule=_pm_rule()),
+    Column("epoch_jyear", ("epoch", "epoch_jyear"), default=DEFAULT_EPOCH_JYEAR,
+           rule=(_parse_epoch, _epoch_ok)),
+    Column("parallax_mas", ("parallax", "plx", "parallax_mas"), default=0.0,
+           rule=_number_rule("parallax", lambda v: v >= 0, "mas is negative")),
+    Column("radial_velocity_kms", ("radial_velocity", "rv", "radial_velocity_kms"),
+           default=0.0, rule=_number_rule("radial velocity",
+                                          lambda v: np.abs(v) < SPEED_OF_LIGHT_KMS,
+                                          "km/s is not below the speed of light")),
+    Column("priority", ("priority",), default=float(DEFAULT_PRIORITY), dtype=np.int64,
+           rule=_number_rule("priority", lambda v: (v == np.floor(v))
+                             & (v >= PRIORITY_RANGE[0]) & (v <= PRIORITY_RANGE[1]),
+                             f"is not a whole number from {PRIORITY_RANGE[0]} to "
+                             f"{PRIORITY_RANGE[1]}")),
+    Column("exposure_s", ("exposure", "exp", "exposure_s"),
+           rule=_number_rule("exposure", lambda v: v > 0, "s must be above 0")),
+    Column("notes", ("notes", "note"), "text", default="", what="note"),
+)
+# The ephemeris columns of time-critical targets, under their own names: read here as
+# numbers or text, checked together by skyplan.inputs.ephemerides (Catalog.timed).
+TIMED_NUMBERS = ("event_t0", "period_d", "duration_h", "event_t0_err_d", "period_err_d",
+                 "phase_min", "phase_max")
+TIMED_TEXTS = ("event_t0_scale", "fixed_start", "fixed_window")
+TIMED_FIELDS = TIMED_NUMBERS + TIMED_TEXTS
+_ALIASES = {c.key: c.aliases for c in COLUMNS} | {key: (key,) for key in TIMED_FIELDS}
+_FIELD_OF_HEADER = {alias: key for key, aliases in _ALIASES.items() for alias in aliases}
+TEXT_FIELDS = tuple(c.key for c in COLUMNS if c.kind == "text") + TIMED_TEXTS
+# the vectorised check of each numeric column: a reader keeps the text of cells failing it
+NUMBER_CHECKS = {c.key: c.rule[1] for c in COLUMNS if c.rule is not None} | {
+    key: np.isfinite for key in TIMED_NUMBERS}
+
+
+TEXT_BLOCK = 100_000  # texts joined at a time to look for unprintable characters
 
 
 def _text_column(
@@ -195,24 +222,39 @@ def _text_column(
     required: bool,
     trimmed: bool = False,
 ) -> np.ndarray:
-    """Stripped text as an object array, with empty (if required) and unprintable checked.
+    """Stripped text as a numpy ``StringDType`` array, with empty (if required) and
+    unprintable checked.
 
     ``trimmed`` tells that the texts are known to be printable ASCII without a space at
     either end: there is nothing to strip or to look for.
     """
-    texts = values if trimmed else list(map(str.strip, values))
-    if not trimmed and _UNPRINTABLE.search("".join(texts)):
-        for i, text in enumerate(texts):
-            match = _UNPRINTABLE.search(text)
-            if match:
-                problems.setdefault(i, []).append(
-                    (header, f"{what} contains the control character U+{ord(match.group()):04X}")
-                )
-    if required and not all(texts):
-        lengths = np.fromiter(map(len, texts), dtype=np.int64, count=len(texts))
-        for i in np.flatnonzero(lengths == 0).tolist():
+    texts = values
+    if not (isinstance(values, np.ndarray) and values.dtype.kind == "T"):
+        texts = np.array(values, dtype=StringDType())
+    if not trimmed:
+        texts = np.strings.strip(texts)
+        for start in range(0, len(texts), TEXT_BLOCK):
+            block = texts[start : start + TEXT_BLOCK].tolist()
+            if not _UNPRINTABLE.search("".join(block)):
+                continue
+            for i, text in enumerate(block, start):
+                match = _UNPRINTABLE.search(text)
+                if match:
+                    problems.setdefault(i, []).append(
+                        (header, f"{what} contains the control character "
+                                 f"U+{ord(match.group()):04X}"))
+    if required:
+        for i in np.flatnonzero(np.strings.str_len(texts) == 0).tolist():
             problems.setdefault(i, []).append((header, f"empty {what}"))
-    return np.fromiter(texts, dtype=object, count=len(texts))
+    return texts
+
+
+def _missing(column: Column, n: int) -> np.ndarray:
+    """The column of a catalogue without it: its default in every row (one value, shown n
+    times without n copies; subsets make real arrays)."""
+    if column.kind == "text":
+        return np.broadcast_to(np.array(column.default, dtype=StringDType()), (n,))
+    return np.broadcast_to(np.array(column.default).astype(column.dtype), (n,))
 
 
 def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
@@ -229,54 +271,34 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
         for i, message in errors.items():
             problems.setdefault(i, []).append((headers[key], message))
 
-    def text(key: str, what: str, required: bool) -> np.ndarray:
-        if key not in columns.values:
-            return np.full(n, "", dtype=object)
-        return _text_column(columns.values[key], headers[key], what, problems,
-                            required=required, trimmed=columns.trimmed)
-
-    names = text("name", "name", required=True)
-    notes_text = text("notes", "note", required=False)
+    fields: dict[str, np.ndarray] = {}
+    for column in COLUMNS:
+        if column.kind == "text" and column.key in columns.values:
+            fields[column.key] = _text_column(
+                columns.values.pop(column.key), headers[column.key], column.what, problems,
+                required=column.default is None, trimmed=columns.trimmed)
+        elif column.kind == "text":
+            fields[column.key] = _missing(column, n)
+    fields["ra_deg"], fields["dec_deg"] = _angles(columns, note)
+    timed = _timed(columns, note, problems)
     decimals = columns.decimals
-    ra, ra_errors = parse_ra_column(columns.values["ra_deg"], decimals=decimals.get("ra_deg"))
-    dec, dec_errors = parse_dec_column(columns.values["dec_deg"], decimals=decimals.get("dec_deg"))
-    note(ra_errors, "ra_deg")
-    note(dec_errors, "dec_deg")
-    if _ra_looks_like_hours(ra, columns.values["ra_deg"], "ra_deg" in decimals):
-        notices.add(f"{columns.source}: RA looks like hours: all values < 24; write 05:35:17 "
-                    "or 83.82 (a decimal RA is read as degrees)")
-    ra_empty = np.isnan(ra)
-    ra_empty[list(ra_errors)] = False
-    dec_empty = np.isnan(dec)
-    dec_empty[list(dec_errors)] = False
-    for i in np.flatnonzero(ra_empty & ~np.isnan(dec)).tolist():
-        problems.setdefault(i, []).append(
-            (
-                headers["ra_deg"],
-                "RA is empty but Dec is given; give both, or neither to look the name up",
-            )
-        )
-    for i in np.flatnonzero(dec_empty & ~np.isnan(ra)).tolist():
-        problems.setdefault(i, []).append(
-            (
-                headers["dec_deg"],
-                "Dec is empty but RA is given; give both, or neither to look the name up",
-            )
-        )
-
-    numbers: dict[str, np.ndarray] = {}
-    for key, (parse_one, ok) in _NUMBER_RULES.items():
-        if key not in columns.values:
-            numbers[key] = np.full(n, _DEFAULTS[key])
+    for column in COLUMNS:
+        if column.kind != "number":
             continue
-        values, errors = parse_column(
-            columns.values[key], parse_one, ok, decimals=decimals.get(key)
-        )
+        key = column.key
+        if key not in columns.values:
+            fields[key] = _missing(column, n)
+            continue
+        parse_one, ok = column.rule  # type: ignore[misc]
+        values, errors = parse_column(columns.values.pop(key), parse_one, ok,
+                                      decimals=decimals.pop(key, None))
         note(errors, key)
         empty = np.isnan(values)
         empty[list(errors)] = False
-        values[empty] = _DEFAULTS[key]
-        numbers[key] = values
+        values[empty] = column.default
+        if column.dtype is not np.float64:  # rows with errors are NaN: dropped or refused
+            values = np.where(np.isnan(values), column.default, values).astype(column.dtype)
+        fields[key] = values
 
     skipped: list[InputError] = []
     keep = np.ones(n, dtype=bool)
@@ -287,51 +309,98 @@ def build_catalog(columns: Columns, *, skip_bad: bool) -> CatalogRead:
         skipped = [_row_summary(columns, i, problems[i]) for i in rows]
         keep[list(problems)] = False
 
-    priority = np.where(np.isnan(numbers["priority"]), DEFAULT_PRIORITY, numbers["priority"])
-    catalog = Catalog(
-        name=names,
-        ra_deg=ra,
-        dec_deg=dec,
-        pm_ra_masyr=numbers["pm_ra_masyr"],
-        pm_dec_masyr=numbers["pm_dec_masyr"],
-        epoch_jyear=numbers["epoch_jyear"],
-        parallax_mas=numbers["parallax_mas"],
-        radial_velocity_kms=numbers["radial_velocity_kms"],
-        priority=priority.astype(np.int64),
-        exposure_s=numbers["exposure_s"],
-        notes=notes_text,
-        line=np.asarray(columns.where, dtype=np.int64),
-        source=columns.source,
-        timed={key: _raw(columns, key) for key in TIMED_FIELDS if key in columns.values},
-    )
+    catalog = Catalog(**fields, line=np.asarray(columns.where, dtype=np.int64),
+                      source=columns.source, timed=timed)
     if not keep.all():
         catalog = catalog.subset(np.flatnonzero(keep))
-    names_kept = catalog.name.tolist()
-    duplicates = []
-    if len(set(names_kept)) < len(names_kept):
-        duplicates = [name for name, count in Counter(names_kept).items() if count > 1]
-    return CatalogRead(catalog, skipped, duplicates, list(columns.ignored))
+    return CatalogRead(catalog, skipped, _duplicates(catalog.name), list(columns.ignored))
 
 
-def _raw(columns: Columns, key: str) -> np.ndarray:
-    """A column as read (numbers where the reader made them, else text), one entry a row."""
-    if key in columns.decimals:
-        return columns.decimals[key]
-    values = columns.values[key]
-    texts = values.texts() if isinstance(values, delimited.Cells) else list(values)
-    return np.asarray(texts, dtype=object)
+def _timed(columns: Columns, note: Callable, problems: dict) -> dict[str, np.ndarray]:
+    """The ephemeris columns the file has: numbers (NaN where empty; an entry that is not a
+    number is noted) and texts, for :mod:`skyplan.inputs.ephemerides` to check together."""
+    out: dict[str, np.ndarray] = {}
+    for key in TIMED_NUMBERS:
+        if key in columns.values:
+            values, errors = parse_column(
+                columns.values.pop(key), _number_rule(key, np.isfinite, "is not finite")[0],
+                np.isfinite, decimals=columns.decimals.pop(key, None))
+            note(errors, key)
+            out[key] = values
+    for key in TIMED_TEXTS:
+        if key in columns.values:
+            out[key] = _text_column(columns.values.pop(key), columns.headers[key], key,
+                                    problems, required=False, trimmed=columns.trimmed)
+    return out
 
 
-def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object], plain: bool) -> bool:
+def _angles(columns: Columns, note: Callable) -> tuple[np.ndarray, np.ndarray]:
+    """RA and Dec in degrees (NaN where empty or bad), with their problems noted."""
+    decimals = columns.decimals
+    ra_cells = columns.values.pop("ra_deg")
+    ra, ra_errors = _in_blocks(parse_ra_column, ra_cells, decimals.pop("ra_deg", None))
+    dec, dec_errors = _in_blocks(parse_dec_column, columns.values.pop("dec_deg"),
+                                 decimals.pop("dec_deg", None))
+    note(ra_errors, "ra_deg")
+    note(dec_errors, "dec_deg")
+    if _ra_looks_like_hours(ra, ra_cells):
+        notices.add(f"{columns.source}: RA looks like hours: all values < 24; write 05:35:17 "
+                    "or 83.82 (a decimal RA is read as degrees)")
+    ra_empty = np.isnan(ra)
+    ra_empty[list(ra_errors)] = False
+    dec_empty = np.isnan(dec)
+    dec_empty[list(dec_errors)] = False
+    note({i: "RA is empty but Dec is given; give both, or neither to look the name up"
+          for i in np.flatnonzero(ra_empty & ~np.isnan(dec)).tolist()}, "ra_deg")
+    note({i: "Dec is empty but RA is given; give both, or neither to look the name up"
+          for i in np.flatnonzero(dec_empty & ~np.isnan(ra)).tolist()}, "dec_deg")
+    return ra, dec
+
+
+ANGLE_BLOCK = 100_000  # angles given as text parsed at a time
+
+
+def _in_blocks(parse: Callable, cells: Sequence[object], decimals: np.ndarray | None
+               ) -> tuple[np.ndarray, dict[int, str]]:
+    """``parse(cells, decimals=...)`` over a column of text :data:`ANGLE_BLOCK` rows at a
+    time, so that the Python strings its parsers make (sexagesimal text) are held for one
+    block only; each entry is read as it is read in the whole column."""
+    if not isinstance(cells, np.ndarray) or cells.dtype.kind != "T" or decimals is not None:
+        return parse(cells, decimals=decimals)
+    values = np.empty(len(cells))
+    errors: dict[int, str] = {}
+    for start in range(0, len(cells), ANGLE_BLOCK):
+        part, found = parse(cells[start : start + ANGLE_BLOCK])
+        values[start : start + len(part)] = part
+        errors.update((start + i, message) for i, message in found.items())
+    return values, errors
+
+
+def _duplicates(names: np.ndarray) -> list[str]:
+    """The names given more than once, in the order they first appear (found by sorting,
+    without a Python object per name)."""
+    if len(names) < 2:
+        return []
+    ordered = np.sort(names)
+    same = ordered[1:] == ordered[:-1]
+    if not same.any():
+        return []
+    repeated = np.unique(ordered[1:][same])
+    return list(dict.fromkeys(names[np.isin(names, repeated)].tolist()))
+
+
+def _ra_looks_like_hours(ra_deg: np.ndarray, cells: Sequence[object]) -> bool:
     """Whether decimal RAs were most likely written in hours: at least
     :data:`RA_HOURS_MIN_ROWS` rows give an RA, every one is below 24, one at least is 1 or
-    more, and every RA is a plain decimal number (``plain``: known to be so; sexagesimal RA
-    is hours by definition)."""
+    more, and every RA is a plain decimal number (sexagesimal RA is hours by definition).
+    Cells read as numbers at once are plain decimals; only the others' text is looked at."""
     given = ra_deg[np.isfinite(ra_deg)]
     if len(given) < RA_HOURS_MIN_ROWS or given.max() >= 24.0 or given.max() < 1.0:
         return False
-    if plain or (isinstance(cells, np.ndarray) and cells.dtype.kind == "f"):
+    if isinstance(cells, np.ndarray) and cells.dtype.kind == "f":
         return True
+    if isinstance(cells, NumberCells):
+        cells = cells.texts
     return _SEXAGESIMAL_MARK.search("\n".join(str(c).strip() for c in cells)) is None
 
 

@@ -9,22 +9,24 @@ the lines of the file as an editor shows them.  A row with fewer fields than the
 its missing trailing fields empty; a row with more is a problem of that row.
 
 Text of more than :data:`FAST_FROM_ROWS` rows, without quote characters, in which every line
-holds a row takes a fast path: polars' CSV reader splits it into columns (:class:`Cells`)
-that stay polars strings until a column's text is needed, and plain decimal columns are read
-as numbers at once.  Anything irregular
-(quotes, comments, blank lines, rows of another width, whatever polars refuses) goes through
-:mod:`csv`, which also names what is wrong.
+holds a row of the header's width takes a fast path, :mod:`skyplan.inputs.regularsplit`:
+polars' CSV reader splits it a piece at a time (:class:`Cells`), texts go into numpy
+``StringDType`` columns and plain decimal columns are read as numbers at once
+(``catalogtypes.NumberCells``).  Anything irregular (quotes, comments, blank lines, rows
+of another width) goes through :mod:`csv` here, which also names what is wrong.  Only the
+columns the caller asks for are kept (:data:`Select`).
 """
 
 from __future__ import annotations
 
 import csv
-import io
+import itertools
 import re
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError
@@ -35,29 +37,16 @@ MAX_FILE_BYTES = 1 << 30  # larger files are refused (counted while reading)
 MAX_LINE_BYTES = 1 << 20  # a longer line refuses the whole file
 MAX_COLUMNS = 10_000  # a header of more columns refuses the whole file
 FAST_FROM_ROWS = 2000  # smaller files go through csv: importing polars would take longer
+PACKED_TEXT_BYTES = 1 << 25  # a column of a block packed to one width at most (Cells.texts)
 BLANK = " \t\r\n\f\v"  # what a row of separators only may hold besides the separators
 
 
 def decode(data: bytes, source: str) -> str:
     """The file's bytes as text; InputError naming the line of the first non-UTF-8 byte."""
-    _refuse_long_lines(data, source)
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        line = data.count(b"\n", 0, exc.start) + 1
-        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
-        if exc.reason == "unexpected end of data":
-            raise InputError(
-                f"the file ends inside a UTF-8 character (column {column}): it was cut short",
-                file=source,
-                line=line,
-            ) from None
-        raise InputError(
-            f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
-            "save the file as UTF-8",
-            file=source,
-            line=line,
-        ) from None
+        raise utf8_error(data, exc, source) from None
     if not text.endswith(("\n", "\r")) and text.strip():
         notices.add(
             f"{source}: the file does not end with a line break; if it was cut short, its "
@@ -66,32 +55,51 @@ def decode(data: bytes, source: str) -> str:
     return text
 
 
-def _refuse_long_lines(data: bytes, source: str) -> None:
-    """InputError at the first line longer than :data:`MAX_LINE_BYTES`.
+def utf8_error(data: bytes, exc: UnicodeDecodeError, source: str,
+               lines_before: int = 0) -> InputError:
+    """The error for bytes that are not UTF-8, naming the line (``lines_before`` lines
+    precede ``data`` in the file) and the column."""
+    line = lines_before + data.count(b"\n", 0, exc.start) + 1
+    column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+    if exc.reason == "unexpected end of data":
+        return InputError(
+            f"the file ends inside a UTF-8 character (column {column}): it was cut short",
+            file=source, line=line)
+    return InputError(f"not UTF-8 text (byte 0x{data[exc.start]:02x} at column {column}); "
+                      "save the file as UTF-8", file=source, line=line)
+
+
+def refuse_long_lines(blocks: Sequence[bytes], source: str) -> None:
+    """InputError at the first line longer than :data:`MAX_LINE_BYTES` in the text made of
+    ``blocks`` (each but the last ending with a line end, as ``readfile.read_blocks``
+    gives them; one block: any bytes).
 
     Scanned in slices, so that the scan holds a few megabytes whatever the file's size.
     """
-    a = np.frombuffer(data, np.uint8)
-    last_end = -1  # index of the last line end (LF or CR) met
-    step = 1 << 23
-    for start in range(0, len(a), step):
-        part = a[start : start + step]
-        ends = np.flatnonzero((part == 10) | (part == 13)) + start
-        if ends.size:
-            gaps = np.diff(ends, prepend=last_end) - 1
-            if gaps.max() > MAX_LINE_BYTES:
-                j = int(np.argmax(gaps > MAX_LINE_BYTES))
-                _long_line(data, int(ends[j] - gaps[j]), source)
-            last_end = int(ends[-1])
-        if start + len(part) - last_end - 1 > MAX_LINE_BYTES:
-            _long_line(data, last_end + 1, source)
+    lines_before = 0
+    for data in blocks:
+        a = np.frombuffer(data, np.uint8)
+        last_end = -1  # index of the last line end (LF or CR) met
+        step = 1 << 23
+        for start in range(0, len(a), step):
+            part = a[start : start + step]
+            ends = np.flatnonzero((part == 10) | (part == 13)) + start
+            if ends.size:
+                gaps = np.diff(ends, prepend=last_end) - 1
+                if gaps.max() > MAX_LINE_BYTES:
+                    j = int(np.argmax(gaps > MAX_LINE_BYTES))
+                    _long_line(data, int(ends[j] - gaps[j]), source, lines_before)
+                last_end = int(ends[-1])
+            if start + len(part) - last_end - 1 > MAX_LINE_BYTES:
+                _long_line(data, last_end + 1, source, lines_before)
+        lines_before += data.count(b"\n")
 
 
-def _long_line(data: bytes, begin: int, source: str) -> None:
+def _long_line(data: bytes, begin: int, source: str, lines_before: int) -> None:
     raise InputError(
         f"a line longer than {MAX_LINE_BYTES} bytes; is this a catalogue of one row per line?",
         file=source,
-        line=data.count(b"\n", 0, max(begin, 0)) + 1,
+        line=lines_before + data.count(b"\n", 0, max(begin, 0)) + 1,
     )
 
 
@@ -146,7 +154,7 @@ class _LineFeed:
     the last line read.  Lines inside a quoted multi-line field are passed through as they are.
     """
 
-    def __init__(self, lines: list[str], delimiter: str) -> None:
+    def __init__(self, lines: Iterable[str], delimiter: str) -> None:
         self._lines = lines
         self._blank_chars = BLANK + delimiter
         self.lineno = 0
@@ -172,48 +180,19 @@ def _csv_error(source: str, delimiter: str, exc: csv.Error, line: int) -> InputE
     return InputError(f"malformed {delimiter!r}-separated text: {exc}", file=source, line=line)
 
 
-def _lines(text: str) -> list[str]:
-    """The lines of the text as :mod:`csv` sees them, each with its line end."""
-    return io.StringIO(text, newline="").readlines()
-
-
-def _content_lines(
-    text: str, delimiter: str, source: str
-) -> tuple[list[str] | None, range | list[int]]:
-    """The lines of text without quotes, and the indices of those that hold rows (header included).
-
-    When no line starts with white space, ``#`` or the delimiter (found by one scan of the
-    text), every line holds a row and the text is not split into lines (None is returned
-    for them); otherwise each line is looked at.
-    """
-    lone_cr = "\r" in text and text.count("\r") != text.count("\r\n")  # old Mac line ends
-    first = text[:1]
-    if lone_cr or not first or first.isspace() or first in ("#", delimiter):
-        plain = False
-    else:
-        plain = re.search(rf"\n[\s#{re.escape(delimiter)}]", text) is None
-    lines: list[str] | None
-    if plain:  # lines end in "\n" (or "\r\n") only
-        lines = None
-        content: range | list[int] = range(text.count("\n") + (not text.endswith("\n")))
-    else:
-        lines = _lines(text)
-        blank_chars = BLANK + delimiter
-        content = [i for i, line in enumerate(lines) if _is_content(line, blank_chars)]
-    if len(content) > MAX_ROWS + 1:  # the header is not a data row
-        raise _too_many_rows(source, content[MAX_ROWS + 1] + 1)
-    return lines, content
+Check = Callable[[np.ndarray], np.ndarray]  # True where a number needs no second look
+Select = Callable[[list[str], int, str], "dict[int, Check | None]"]
 
 
 @dataclass
 class Grid:
-    """Cells of a delimited file by column, before any checking."""
+    """The columns of a delimited file that the caller asked for, before any checking."""
 
     header: list[str]
     header_line: int
-    columns: list[Sequence[str]]
+    columns: dict[int, Sequence[str]]  # by position: StringDType text, or NumberCells
     where: np.ndarray  # line of each row
-    wide_rows: np.ndarray  # rows that may hold a field over MAX_FIELD_CHARS (all that do)
+    long_fields: list[tuple[int, int, int]]  # (row, position, characters) over MAX_FIELD_CHARS
     problems: dict[int, list[tuple[str | None, str]]]
     trimmed: bool = False  # every cell is printable ASCII without a space at either end
     delimiter: str = ","
@@ -238,8 +217,20 @@ class Cells(Sequence[str]):
             return self.series[row].to_list()
         return self.series[row]
 
-    def texts(self) -> list[str]:
-        return self.series.to_list()
+    def texts(self, printable: bool = False) -> np.ndarray:
+        """The whole column as a numpy ``StringDType`` array.  ``printable`` tells that every
+        cell is printable ASCII: the cells are then packed to one width by polars and
+        converted by numpy, without a Python string per cell."""
+        import polars as pl
+
+        s = self.series
+        width = s.str.len_bytes().max() or 0 if len(s) else 0
+        if printable and 0 < width and len(s) * width <= PACKED_TEXT_BYTES:
+            packed = s.str.pad_end(width, "\x00").str.join("").cast(pl.Binary).item()
+            return np.frombuffer(packed, dtype=f"S{width}").astype(StringDType())
+        if printable and width == 0:
+            return np.full(len(s), "", dtype=StringDType())
+        return np.array(s.to_list(), dtype=StringDType())
 
     def numbers(self) -> np.ndarray | None:
         """The column as numbers if every cell is a plain decimal (``[+|-]digits[.digits]``,
@@ -254,139 +245,114 @@ class Cells(Sequence[str]):
             return None
         return s.replace("", None).cast(pl.Float64).fill_null(np.nan).to_numpy()
 
+    def mixed_numbers(self) -> tuple[np.ndarray, np.ndarray]:
+        """As :meth:`numbers` for a column where some cells are not plain decimals: the
+        numbers, with infinity where a cell is not a plain decimal, and where the cells are
+        plain (or empty)."""
+        import polars as pl
 
-def _split_regular(text: str, rows: int, delimiter: str) -> Grid | None:
-    """Columns of text without quote characters in which every line holds a row, read by
-    polars' CSV reader, if every row has the header's width.
+        s = self.series
+        plain = (s.str.contains(PLAIN_DECIMAL) | (s == "")).to_numpy()
+        numbers = s.cast(pl.Float64, strict=False).fill_null(np.nan).to_numpy(writable=True)
+        numbers[~plain] = np.inf
+        return numbers, plain
 
-    Without quotes a row is simply its line split at the delimiter, exactly as :mod:`csv`
-    reads it; row ``i`` is then on line ``i + 2``.  Returns None when some row has another
-    number of fields, or polars refuses the text (the csv path then names what is wrong).
-    """
-    import polars as pl
 
-    cut = text.find("\n") + 1 or len(text)
-    header = text[:cut].rstrip("\r\n").split(delimiter)
-    width = len(header)
-    if text.count(delimiter) != (width - 1) * rows or rows < 2:
-        return None  # with no row longer than the header (polars refuses those): one shorter
-    data = text.encode()
+ROWS_AT_ONCE = 50_000  # rows from csv made into columns at a time
+# a line with its end (LF, CR LF or CR, as io.StringIO(newline="") splits them), or a last
+# line without one: found one at a time, so that the text is not copied whole
+_LINE = re.compile(r"[^\r\n]*(?:\r\n|\r|\n)|[^\r\n]+")
+
+
+def _rows(text: str, delimiter: str, source: str) -> Iterator[tuple[list[str], int]]:
+    """The rows of the text as :mod:`csv` reads them (fields may be quoted across lines),
+    each with the line it starts on; comment and blank lines between rows are skipped."""
+    feed = _LineFeed((m.group() for m in _LINE.finditer(text)), delimiter)
+    reader = csv.reader(feed.lines(), delimiter=delimiter)
+    count = 0
     try:
-        table = pl.read_csv(data, has_header=False, skip_rows=1, separator=delimiter,
-                            quote_char=None, infer_schema=False, empty_string_is_null=False,
-                            truncate_ragged_lines=False, raise_if_empty=False)
-    except pl.exceptions.PolarsError:
-        return None
-    if table.height != rows - 1 or table.width != width:
-        return None
-    columns = table.get_columns()
-    length = table.select(pl.max_horizontal(pl.all().str.len_chars())).to_series()
-    wide_rows = np.flatnonzero((length > MAX_FIELD_CHARS).to_numpy())
-    trimmed = _trimmed_printable(data, delimiter.encode())
-    where = np.arange(2, rows + 1, dtype=np.int64)
-    return Grid(header, 1, [Cells(c) for c in columns], where, wide_rows, {}, trimmed, delimiter)
+        for row in reader:
+            feed.at_row_start = True
+            count += 1
+            if count > MAX_ROWS + 1:  # the header is not a data row
+                raise _too_many_rows(source, feed.row_start)
+            yield row, feed.row_start
+    except csv.Error as exc:
+        raise _csv_error(source, delimiter, exc, feed.lineno) from None
 
 
-def _trimmed_printable(data: bytes, delimiter: bytes) -> bool:
-    """Whether every field of text in which every line is a row is printable ASCII without a
-    space at either end (``str.strip`` then leaves it as it is and the unprintable-character
-    check of ``catalogrows`` finds nothing in it).  Bytes outside printable ASCII may only be
-    line ends (LF, CR LF) and tab separators."""
-    a = np.frombuffer(data, np.uint8)
-    outside = np.count_nonzero(a - np.uint8(0x20) > 0x7E - 0x20)
-    ends = data.count(b"\n") + data.count(b"\r") + (data.count(b"\t") if delimiter == b"\t" else 0)
-    if outside != ends:
-        return False
-    space = np.flatnonzero(a == ord(" "))
-    if not len(space):
-        return True
-    edges = np.frombuffer(delimiter + b"\n\r", np.uint8)  # the text's ends count as line ends
-    before = np.where(space > 0, a[space - 1], ord("\n"))
-    after = np.where(space < len(a) - 1, a[np.minimum(space + 1, len(a) - 1)], ord("\n"))
-    return not (np.isin(before, edges).any() or np.isin(after, edges).any())
+def read_grid(data: bytes, source: str, delimiter: str | None, select: Select) -> Grid:
+    """The columns of delimited text that ``select`` asks for (see the module docstring);
+    ``delimiter`` None lets the header line tell it (:func:`sniff_delimiter`).
 
-
-def _split_rows(rows: list[list[str]], starts: list[int], delimiter: str) -> Grid:
-    """Rows from :mod:`csv` as columns; short rows padded, long rows reported."""
-    header, body = rows[0], rows[1:]
-    width = len(header)
+    ``select(header, header_line, delimiter)`` is called once the header is known and gives
+    the positions of the columns to keep: None for a text column, else the
+    :data:`Check` of a numeric one.  Text columns come back as numpy ``StringDType`` arrays;
+    numeric ones as text (large regular files are read by :mod:`skyplan.inputs.regularsplit`
+    into ``catalogtypes.NumberCells``).  The rows are made into columns
+    :data:`ROWS_AT_ONCE` at a time, so that a Python string per cell is held for those rows
+    only.  The caller has refused long lines (:func:`refuse_long_lines`) and holds no other
+    reference to ``data``, which is let go once it is text.
+    """
+    text = decode(data, source)
+    del data
+    header_line = first_content_line(text)
+    if delimiter is None:
+        delimiter = sniff_delimiter(header_line)
+    refuse_wide_header(header_line.count(delimiter) + 1, source)
+    rows = _rows(text, delimiter, source)
+    first = next(rows, None)
+    if first is None:
+        raise InputError("no header line (expected columns name, ra, dec)", file=source)
+    header, line = first
+    wanted = select(header, line, delimiter)
+    parts: dict[int, list[np.ndarray]] = {pos: [] for pos in wanted}
+    starts: list[np.ndarray] = []  # numpy, not Python ints kept among the freed cells
+    done = 0
     problems: dict[int, list[tuple[str | None, str]]] = {}
+    long_fields: list[tuple[int, int, int]] = []
+    while batch := list(itertools.islice(rows, ROWS_AT_ONCE)):
+        body = [row for row, _ in batch]
+        _fit_rows(body, len(header), done, delimiter, problems, long_fields)
+        for pos, check in wanted.items():
+            cells: Sequence[str] = [row[pos] for row in body]
+            if check is not None and delimiter != ",":
+                cells = decimal_points(cells)
+            parts[pos].append(np.array(cells, dtype=StringDType()))
+        starts.append(np.fromiter((start for _, start in batch), np.int64, len(batch)))
+        done += len(batch)
+    del text
+    columns: dict[int, Sequence[str]] = {}
+    for pos in wanted:
+        chunks = parts.pop(pos)
+        columns[pos] = np.concatenate(chunks) if chunks else np.empty(0, StringDType())
+    where = np.concatenate(starts) if starts else np.empty(0, np.int64)
+    return Grid(header, line, columns, where, long_fields, problems, False, delimiter)
+
+
+def _fit_rows(body: list[list[str]], width: int, first: int, delimiter: str,
+              problems: dict, long_fields: list[tuple[int, int, int]]) -> None:
+    """Rows ``first``... to the header's width: short rows padded (missing trailing fields
+    are empty), long rows cut and reported; fields too long to read noted."""
     lengths = np.fromiter(map(len, body), dtype=np.int64, count=len(body))
     for i in np.flatnonzero(lengths != width).tolist():
-        if lengths[i] < width:  # missing trailing fields are empty
+        if lengths[i] < width:
             body[i] = body[i] + [""] * (width - int(lengths[i]))
         else:
             message = (
                 f"row has {lengths[i]} fields but the header has {width} (the separator is "
                 f"{delimiter!r}; quote fields that contain it)"
             )
-            problems.setdefault(i, []).append((None, message))
+            problems.setdefault(first + i, []).append((None, message))
             body[i] = body[i][:width]
-    columns = list(zip(*body, strict=True)) if body else [() for _ in header]
     row_chars = np.fromiter(map(len, map("".join, body)), dtype=np.int64, count=len(body))
-    wide_rows = np.flatnonzero(row_chars > MAX_FIELD_CHARS)
-    where = np.array(starts[1:], dtype=np.int64)
-    return Grid(header, starts[0], columns, where, wide_rows, problems, False, delimiter)
+    long_fields += [(first + i, pos, len(cell))
+                    for i in np.flatnonzero(row_chars > MAX_FIELD_CHARS).tolist()
+                    for pos, cell in enumerate(body[i]) if len(cell) > MAX_FIELD_CHARS]
 
 
-def _rows_one_per_line(
-    lines: list[str], content: range | list[int], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text without quote characters, where every content line is one row."""
-    reader = csv.reader([lines[i] for i in content], delimiter=delimiter)
-    try:
-        rows = list(reader)
-    except csv.Error as exc:
-        raise _csv_error(source, delimiter, exc, content[reader.line_num - 1] + 1) from None
-    return rows, [i + 1 for i in content]
-
-
-def _rows_quoted(
-    lines: list[str], delimiter: str, source: str
-) -> tuple[list[list[str]], list[int]]:
-    """Rows of text that may quote fields across lines; each row keeps its first line."""
-    feed = _LineFeed(lines, delimiter)
-    reader = csv.reader(feed.lines(), delimiter=delimiter)
-    rows: list[list[str]] = []
-    starts: list[int] = []
-    try:
-        for row in reader:
-            feed.at_row_start = True
-            rows.append(row)
-            starts.append(feed.row_start)
-            if len(rows) > MAX_ROWS + 1:  # the header is not a data row
-                raise _too_many_rows(source, feed.row_start)
-    except csv.Error as exc:
-        raise _csv_error(source, delimiter, exc, feed.lineno) from None
-    return rows, starts
-
-
-def read_grid(data: bytes, source: str, delimiter: str | None) -> Grid:
-    """The cells of delimited text by column (see the module docstring); ``delimiter`` None
-    lets the header line tell it (:func:`sniff_delimiter`)."""
-    text = decode(data, source)
-    del data
-    header_line = first_content_line(text)
-    if delimiter is None:
-        delimiter = sniff_delimiter(header_line)
-    columns = header_line.count(delimiter) + 1
+def refuse_wide_header(columns: int, source: str) -> None:
+    """InputError for a header of more than :data:`MAX_COLUMNS` columns."""
     if columns > MAX_COLUMNS:
         raise InputError(f"the header has {columns} columns; at most {MAX_COLUMNS} are read",
                          file=source)
-    grid = None
-    if '"' in text:
-        rows, starts = _rows_quoted(_lines(text), delimiter, source)
-        if rows:
-            grid = _split_rows(rows, starts, delimiter)
-    else:
-        lines, content = _content_lines(text, delimiter, source)
-        if content:
-            fast = lines is None and len(content) > FAST_FROM_ROWS
-            grid = _split_regular(text, len(content), delimiter) if fast else None
-            if grid is None:
-                lines = _lines(text) if lines is None else lines
-                grid = _split_rows(*_rows_one_per_line(lines, content, delimiter, source),
-                                   delimiter)
-    if grid is None:
-        raise InputError("no header line (expected columns name, ra, dec)", file=source)
-    return grid

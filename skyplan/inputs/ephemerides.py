@@ -28,6 +28,7 @@ import numpy as np
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
 from skyplan.inputs.angles import parse_column
+from skyplan.text import fixed_width
 
 SCALES = ("bjd_tdb", "hjd", "jd_utc")
 JD_RANGE = (2_400_000.0, 2_500_000.0)  # full Julian dates only (1858 to 2132)
@@ -198,7 +199,7 @@ def _parse_number(key: str, ok, rule: str):
 
 def _texts(values) -> np.ndarray:
     """A column as stripped text (numpy strings), vectorised."""
-    return np.char.strip(np.asarray(values).astype(str))
+    return np.char.strip(fixed_width(values))
 
 
 def _scales(values, n: int, note) -> np.ndarray:

@@ -13,7 +13,8 @@ Every reader of user input goes through this module, so that each one:
 
 The public surface is three functions: :func:`open_input` (a binary handle, for readers
 that stream line by line), :func:`read_input` (the whole content as bytes) and
-:func:`excerpt` (the short, sanitised quotation an error message may carry).
+:func:`read_blocks` (the content as blocks of whole lines, for readers that let each block
+go once it is read).
 """
 
 from __future__ import annotations
@@ -94,7 +95,51 @@ def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
             raise InputError(f"cannot read the {what}: {exc.strerror or exc}",
                              file=source) from None
     if len(data) > limit:
-        raise InputError(f"larger than {_size_text(limit)}; a {what} of at most "
-                         f"{_size_text(limit)} is read", file=source)
+        raise _too_large(source, limit, what)
     return data
 
+
+# The size of a block read by read_blocks (more, to end on a line).  Above glibc's largest
+# threshold for serving an allocation by its own mapping (32 MiB on 64-bit systems), so that
+# a block let go is given back to the system at once instead of kept in the heap.
+BLOCK_BYTES = 48 << 20
+
+
+def read_blocks(path: str | Path, limit: int, *, what: str = "file") -> list[bytes]:
+    """The content of ``path`` (``-``: standard input) as blocks of about
+    :data:`BLOCK_BYTES`, each but the last ending with a line feed: at most ``limit``
+    bytes in all.
+
+    Raises as :func:`read_input` does.  A reader that takes the blocks one by one can let
+    each go once it is read, so that the file is never held whole beside what is made of it.
+    """
+    source = str(path)
+    blocks: list[bytes] = []
+    carry = bytearray()  # read, not yet in a block: a line's start
+    total = 0
+    with open_input(path, what=what) as handle:
+        while True:
+            try:
+                chunk = handle.read(min(BLOCK_BYTES, limit + 1 - total))
+            except OSError as exc:
+                raise InputError(f"cannot read the {what}: {exc.strerror or exc}",
+                                 file=source) from None
+            if not chunk:
+                break
+            total += len(chunk)
+            if total > limit:
+                raise _too_large(source, limit, what)
+            carry += chunk
+            del chunk
+            cut = carry.rfind(b"\n") + 1
+            if cut and len(carry) >= BLOCK_BYTES:
+                blocks.append(bytes(memoryview(carry)[:cut]))
+                del carry[:cut]
+    if carry:
+        blocks.append(bytes(carry))
+    return blocks
+
+
+def _too_large(source: str, limit: int, what: str) -> InputError:
+    return InputError(f"larger than {_size_text(limit)}; a {what} of at most "
+                      f"{_size_text(limit)} is read", file=source)

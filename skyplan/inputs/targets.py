@@ -147,38 +147,42 @@ def catalog_targets(cat, *, orbits=(), source: str | None = None, skip_bad: bool
     instead, each noted with its file, line and the closest known names.
     """
     n = len(cat)
+    look = np.nonzero(cat.needs_lookup)[0]
+    if not len(look):  # every row has its place: the catalogue's columns are used as they are
+        nothing = np.broadcast_to(np.array("", dtype=object), (n,))
+        return cat, TargetSet(cat.name, cat.ra_deg, cat.dec_deg, cat.pm_ra_masyr,
+                              cat.pm_dec_masyr, cat.parallax_mas, cat.radial_velocity_kms,
+                              cat.epoch_jyear, nothing, nothing)
     ra, dec = cat.ra_deg.copy(), cat.dec_deg.copy()
     pmra, pmdec = cat.pm_ra_masyr.copy(), cat.pm_dec_masyr.copy()
     plx, rv, ep = cat.parallax_mas.copy(), cat.radial_velocity_kms.copy(), cat.epoch_jyear.copy()
     body = np.full(n, "", dtype=object)
     ident = np.full(n, "", dtype=object)
     keep = np.ones(n, dtype=bool)
-    look = np.nonzero(cat.needs_lookup)[0]
-    if len(look):
-        from skyplan.names import resolve as resolver
+    from skyplan.names import resolve as resolver
 
-        col, errs = resolver.resolve_many([str(x) for x in cat.name[look]], orbits=orbits)
-        if errs:
-            problems = [InputError(e.message, file=source or cat.source,
-                                   line=int(cat.line[look[i]]), field="name")
-                        for i, e in sorted(errs.items())]
-            if not skip_bad:
-                raise InputErrors(problems) if len(problems) > 1 else problems[0]
-            _note_unresolved(problems, source or cat.source, len(errs) == n)
-            keep[look[sorted(errs)]] = False
-        fixed = (col.kind == "star") | (col.kind == "deep_sky")
-        rows = look[fixed]
-        ra[rows], dec[rows] = col.ra_deg[fixed], col.dec_deg[fixed]
-        pmra[rows] = np.nan_to_num(col.pm_ra_masyr[fixed])
-        pmdec[rows] = np.nan_to_num(col.pm_dec_masyr[fixed])
-        plx[rows] = np.nan_to_num(col.parallax_mas[fixed])
-        rv[rows] = np.nan_to_num(col.radial_velocity_kms[fixed])
-        ep[rows] = np.where(np.isfinite(col.epoch_jyear[fixed]), col.epoch_jyear[fixed], 2000.0)
-        moving = ~fixed
-        body[look[moving]] = np.array(
-            [f"orbit:{q}" if k == "orbit" else str(q).strip().lower()
-             for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
-        ident[look] = col.identifier
+    col, errs = resolver.resolve_many([str(x) for x in cat.name[look]], orbits=orbits)
+    if errs:
+        problems = [InputError(e.message, file=source or cat.source,
+                               line=int(cat.line[look[i]]), field="name")
+                    for i, e in sorted(errs.items())]
+        if not skip_bad:
+            raise InputErrors(problems) if len(problems) > 1 else problems[0]
+        _note_unresolved(problems, source or cat.source, len(errs) == n)
+        keep[look[sorted(errs)]] = False
+    fixed = (col.kind == "star") | (col.kind == "deep_sky")
+    rows = look[fixed]
+    ra[rows], dec[rows] = col.ra_deg[fixed], col.dec_deg[fixed]
+    pmra[rows] = np.nan_to_num(col.pm_ra_masyr[fixed])
+    pmdec[rows] = np.nan_to_num(col.pm_dec_masyr[fixed])
+    plx[rows] = np.nan_to_num(col.parallax_mas[fixed])
+    rv[rows] = np.nan_to_num(col.radial_velocity_kms[fixed])
+    ep[rows] = np.where(np.isfinite(col.epoch_jyear[fixed]), col.epoch_jyear[fixed], 2000.0)
+    moving = ~fixed
+    body[look[moving]] = np.array(
+        [f"orbit:{q}" if k == "orbit" else str(q).strip().lower()
+         for k, q in zip(col.kind[moving], col.query[moving])], dtype=object)
+    ident[look] = col.identifier
     if keep.all():
         return cat, TargetSet(cat.name, ra, dec, pmra, pmdec, plx, rv, ep, body, ident)
     kept = cat.subset(keep)

@@ -17,6 +17,8 @@ from collections.abc import Iterator
 
 import numpy as np
 
+from skyplan.text import fixed_width
+
 MINUTE_PLACES = 2
 AIRMASS_PLACES = 4
 ILLUMINATION_PLACES = 4
@@ -47,7 +49,7 @@ def frame(season, a: int = 0, b: int | None = None, *, per_night: bool = False):
     n = b - a
     rows = np.arange(n)
     cols = {
-        "name": pl.Series(np.asarray(season.names[a:b]).astype(str), dtype=pl.String),
+        "name": pl.Series(fixed_width(season.names[a:b]), dtype=pl.String),
         "first_night": _dates(s, s.first), "last_night": _dates(s, s.last),
         "best_night": _dates(s, s.best),
         "best_night_minutes": _numbers(s.best_minutes, MINUTE_PLACES),
@@ -88,7 +90,7 @@ def night_frame(season, a: int, b: int, *, with_row: bool = False):
     if with_row:
         cols["row"] = pl.Series(np.repeat(np.arange(n, dtype="int64"), m))
     else:  # each text built once, then repeated by index (in polars, not as Python text)
-        names = pl.Series(np.asarray(season.names[a:b]).astype(str), dtype=pl.String)
+        names = pl.Series(fixed_width(season.names[a:b]), dtype=pl.String)
         cols["name"] = names.gather(np.repeat(np.arange(n), m))
     cols["date"] = dates.gather(np.tile(np.arange(m), n))
     cols["usable_minutes"] = _numbers(season.usable_min[a:b].ravel(), MINUTE_PLACES)

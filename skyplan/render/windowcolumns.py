@@ -157,15 +157,24 @@ def frame(res: WindowResult, a: int = 0, b: int | None = None, *,
         elif f.kind == FLAG:
             columns[f.key] = pl.Series(np.asarray(f.values(res, s), dtype=bool))
         elif f.kind == TEXT:
-            columns[f.key] = pl.Series(np.asarray(f.values(res, s)).astype(str), dtype=pl.String)
+            columns[f.key] = _text(f.values(res, s))
         elif f.kind == WINDOWS:
             columns[f.key] = _windows(res, a, b, text_times)
         elif f.kind == LOST:
             columns[f.key] = _lost(res, s)
         elif identifier:  # OPTIONAL_TEXT
-            text = pl.Series(np.asarray(f.values(res, s)).astype(str), dtype=pl.String)
+            text = _text(f.values(res, s))
             columns[f.key] = pl.select(pl.when(text != "").then(text)).to_series()
     return pl.DataFrame([v.alias(k) for k, v in columns.items()])
+
+
+def _text(values) -> pl.Series:
+    """Names and other texts as a polars column: numpy ``StringDType`` (the catalogue's
+    texts) is taken as it is, anything else as ``str``."""
+    import polars as pl
+
+    texts = np.asarray(values)
+    return pl.Series(texts if texts.dtype.kind == "T" else texts.astype(str), dtype=pl.String)
 
 
 def records(res: WindowResult) -> list[dict]:

@@ -1,0 +1,117 @@
+"""Benchmark: peak memory of reading a large ordinary catalogue, against the goal
+peak <= 3 x the file's size + 200 MiB (issue 15).
+
+Run by hand (not part of the test suite):
+
+    python benchmarks/bench_catalog_memory.py [--rows 5000000] [--repeat 3]
+
+Writes an invented CSV catalogue (name, ra, dec, priority, exposure, notes; every row
+valid; seeded) in a temporary folder, from a child process so that this process stays
+small (Linux carries a parent's high-water mark into a child it starts, so a large parent
+would inflate the children's figures).  Then, ``--repeat`` times each, it runs in a child
+process and reports for that child alone (``os.wait4``): ``read_catalog`` on the file, and
+``skyplan windows FILE --site ... -f csv --out OUT`` (interpreter start included): the best
+wall time and the largest peak resident memory (``ru_maxrss``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import resource
+import subprocess
+import sys
+import tempfile
+import textwrap
+import time
+from pathlib import Path
+
+SITE = "38.2,-2.9,1300"
+GOAL_MIB = 200  # plus 3 x the file's size
+
+WRITER = textwrap.dedent("""
+    import sys
+    import numpy as np
+
+    path, rows = sys.argv[1], int(sys.argv[2])
+    rng = np.random.default_rng(20261204)
+    notes = np.array(["", "standard", "check seeing", "Be star", "flare"])
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write("name,ra,dec,priority,exposure,notes\\n")
+        for start in range(0, rows, 500_000):
+            n = min(rows, start + 500_000) - start
+            ra = np.char.mod("%.5f", rng.uniform(0.0, 359.99999, n))  # never 360.00000
+            dec = np.char.mod("%.5f", np.degrees(np.arcsin(rng.uniform(-1.0, 1.0, n))))
+            cells = [np.char.mod("T%07d", np.arange(start, start + n)), ra, dec,
+                     rng.integers(1, 6, n).astype(str),
+                     rng.choice(["60", "120", "300", "600"], n), notes[rng.integers(0, 5, n)]]
+            line = cells[0]
+            for cell in cells[1:]:
+                line = np.char.add(np.char.add(line, ","), cell)
+            handle.write("\\n".join(line.tolist()) + "\\n")
+""")
+
+READER = "import sys\nfrom skyplan.inputs.catalog import read_catalog\nread_catalog(sys.argv[1])\n"
+
+
+def run_child(argv: list[str]) -> tuple[int, float, resource.struct_rusage, str]:
+    """Run a command; return (exit status, wall seconds, its rusage, its stderr)."""
+    with tempfile.TemporaryFile() as err:
+        start = time.perf_counter()
+        child = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=err)
+        _, status, usage = os.wait4(child.pid, 0)
+        wall = time.perf_counter() - start
+        err.seek(0)
+        return os.waitstatus_to_exitcode(status), wall, usage, err.read().decode(errors="replace")
+
+
+def report(label: str, argv: list[str], repeat: int, goal_mib: float) -> None:
+    runs = [run_child(argv) for _ in range(repeat)]
+    statuses = {r[0] for r in runs}
+    if statuses != {0}:
+        print(f"{label}: FAILED, exit status {sorted(statuses)}:",
+              *runs[0][3].strip().splitlines()[-3:], sep="\n    ")
+        return
+    best = min(r[1] for r in runs)
+    peak = max(r[2].ru_maxrss for r in runs) / 1024
+    verdict = "met" if peak <= goal_mib else "NOT met"
+    print(f"{label}: wall {best:.1f} s "
+          f"best of {repeat} (all: {', '.join(f'{r[1]:.1f}' for r in runs)}); "
+          f"peak {peak:.0f} MiB (largest); goal {goal_mib:.0f} MiB {verdict}")
+    if runs[0][3].strip():
+        print("  stderr:", *runs[0][3].strip().splitlines()[-3:], sep="\n    ")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rows", type=int, default=5_000_000)
+    parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--date", default="2026-12-18")
+    args = parser.parse_args()
+
+    with tempfile.TemporaryDirectory() as folder:
+        catalogue = Path(folder) / "big.csv"
+        t0 = time.perf_counter()
+        subprocess.run([sys.executable, "-c", WRITER, str(catalogue), str(args.rows)],
+                       check=True)
+        size = catalogue.stat().st_size
+        goal = 3 * size / 2**20 + GOAL_MIB
+        print(f"catalogue: {args.rows:,} rows, {size / 2**20:.0f} MiB, written in "
+              f"{time.perf_counter() - t0:.1f} s; goal: peak <= 3 x size + {GOAL_MIB} MiB = "
+              f"{goal:.0f} MiB")
+        report("read_catalog", [sys.executable, "-c", READER, str(catalogue)], args.repeat,
+               goal)
+        out = Path(folder) / "windows.csv"
+        report("skyplan windows -f csv --out",
+               [sys.executable, "-m", "skyplan", "windows", str(catalogue), "--site", SITE,
+                "--date", args.date, "-f", "csv", "--out", str(out)], args.repeat, goal)
+    load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
+    print(f"this process: peak {resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} "
+          f"MiB; load average at the end {load}")
+    print(f"machine: {platform.machine()}, {os.cpu_count()} CPUs, Python "
+          f"{platform.python_version()}, {platform.system()} {platform.release()}")
+
+
+if __name__ == "__main__":
+    main()
