@@ -23,6 +23,8 @@ COMMANDS = (
     ("windows --demo -f json", ["windows", "--demo", "-f", "json"], None),
     ("plan --demo", ["plan", "--demo"], 0.8),
     ("next --demo --at 23:00", ["next", "--demo", "--at", "2026-12-18T23:00"], None),
+    ("season --demo", ["season", "--demo"], None),
+    ("catch --demo", ["catch", "--demo"], None),
 )
 
 
