@@ -16,7 +16,7 @@ COVERAGE_HELP = ("The part of an event that must be observable to list it (0 to 
 
 
 def register(app: typer.Typer) -> None:
-    app.command("catch")(catch_cmd)
+    app.command("catch")(sky.with_limit_options(catch_cmd))
 
 
 def catch_cmd(
@@ -28,18 +28,7 @@ def catch_cmd(
     baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=sky.BASELINE_HELP),
     min_coverage: float = typer.Option(TIMED_MIN_COVERAGE, "--min-coverage",
                                        help=COVERAGE_HELP),
-    min_alt: float = sky.MinAlt,
-    max_alt: float | None = sky.MaxAlt,
-    max_airmass: float = sky.MaxAirmass,
-    dark: str = sky.Dark,
-    moon_gap: float = sky.MoonGap,
-    sun_gap: float = sky.SunGap,
-    ha_range: str = sky.HaRange,
-    dec_range: str = sky.DecRange,
-    between: str = sky.Between,
-    no_horizon_profile: bool = sky.NoProfile,
-    airmass_model: str = sky.AirmassModel,
-    refraction: str = sky.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     sites_file: str = common.SitesFileOpt,
     demo: bool = typer.Option(False, "--demo", help="The invented timed programme at the "
                               "demo site (a month from the demo date)."),
@@ -59,9 +48,7 @@ def catch_cmd(
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json", "csv"))
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits(the_site, **sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap,
-                                            sun_gap, ha_range, dec_range, between,
-                                            no_horizon_profile, airmass_model, refraction))
+    lim = limits(the_site, **limits_kw)
     if catalog is None and demo:
         catalog = str(scenario.demo_path(DEMO_TIMED))
     if start is None and demo:

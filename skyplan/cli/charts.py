@@ -31,8 +31,8 @@ def register(app: typer.Typer) -> None:
         help="Charts of the sky at one instant or of altitude over the night (SVG or PNG).",
         no_args_is_help=True,
     )
-    chart_app.command("sky")(sky_chart)
-    chart_app.command("altitude")(altitude_chart)
+    chart_app.command("sky")(sky_cmds.with_limit_options(sky_chart))
+    chart_app.command("altitude")(sky_cmds.with_limit_options(altitude_chart))
     app.add_typer(chart_app, name="chart")
 
 
@@ -80,18 +80,7 @@ def sky_chart(
                                 help="Add the targets' paths from sunset to sunrise."),
     top: int = TopTracks,
     size: int = typer.Option(1000, "--size", help="Width and height of the chart in pixels."),
-    min_alt: float = sky_cmds.MinAlt,
-    max_alt: float | None = sky_cmds.MaxAlt,
-    max_airmass: float = sky_cmds.MaxAirmass,
-    dark: str = sky_cmds.Dark,
-    moon_gap: float = sky_cmds.MoonGap,
-    sun_gap: float = sky_cmds.SunGap,
-    ha_range: str = sky_cmds.HaRange,
-    dec_range: str = sky_cmds.DecRange,
-    between: str = sky_cmds.Between,
-    no_horizon_profile: bool = sky_cmds.NoProfile,
-    airmass_model: str = sky_cmds.AirmassModel,
-    refraction: str = sky_cmds.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     elements: str = Elements,
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
@@ -109,9 +98,7 @@ def sky_chart(
     if not 100 <= size <= MAX_SIZE_PX:
         raise InputError(f"{size} px must be from 100 to {MAX_SIZE_PX}", field="--size")
     the_site = common.get_site(site, sites_file, demo)
-    lim = windows.limits(the_site, **sky_cmds.limit_args(
-        min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range, between,
-        no_horizon_profile, airmass_model, refraction))
+    lim = windows.limits(the_site, **limits_kw)
     if at is None and demo:
         at = f"{scenario.DEMO_DATE}T22:00"
     with common.named_as(at="--at"):
@@ -135,18 +122,7 @@ def altitude_chart(
     out: str = ChartOut,
     top: int = TopCurves,
     size: str = typer.Option("1400x800", "--size", help="WIDTHxHEIGHT in pixels."),
-    min_alt: float = sky_cmds.MinAlt,
-    max_alt: float | None = sky_cmds.MaxAlt,
-    max_airmass: float = sky_cmds.MaxAirmass,
-    dark: str = sky_cmds.Dark,
-    moon_gap: float = sky_cmds.MoonGap,
-    sun_gap: float = sky_cmds.SunGap,
-    ha_range: str = sky_cmds.HaRange,
-    dec_range: str = sky_cmds.DecRange,
-    between: str = sky_cmds.Between,
-    no_horizon_profile: bool = sky_cmds.NoProfile,
-    airmass_model: str = sky_cmds.AirmassModel,
-    refraction: str = sky_cmds.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     elements: str = Elements,
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
@@ -162,9 +138,6 @@ def altitude_chart(
     common.set_quiet(quiet)
     path = _chart_path(out)
     width, height = _size_pair(size)
-    limit_args = sky_cmds.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap,
-                                     ha_range, dec_range, between, no_horizon_profile,
-                                     airmass_model, refraction)
     if plan is not None:
         if catalog is not None or date is not None or elements:
             raise InputError("--plan brings its own night and targets: give no catalogue, "
@@ -172,12 +145,12 @@ def altitude_chart(
         override = common.get_site(site, sites_file, demo) if site is not None or demo \
             else None
         read = chart_api.read_plan(plan, site=override, sites_file=sites_file)
-        lim = windows.limits(read.site, defaults=read.limits, **limit_args)
+        lim = windows.limits(read.site, defaults=read.limits, **limits_kw)
         scene = chart_api.altitude_scene(read.site, read.night, read.targets, lim,
                                          top=_top(top), visits=read.visits)
     else:
         the_site = common.get_site(site, sites_file, demo)
-        lim = windows.limits(the_site, **limit_args)
+        lim = windows.limits(the_site, **limits_kw)
         the_night = night_of(the_site, date, demo)
         chosen = _catalogue(catalog, demo, skip_bad, elements)
         scene = chart_api.altitude_scene(the_site, the_night, chosen, lim, top=_top(top))

@@ -13,7 +13,7 @@ AT_HELP = ("The moment asked about: 'now' (default), HH:MM on the night's local 
 
 
 def register(app: typer.Typer) -> None:
-    app.command("next")(next_cmd)
+    app.command("next")(sky.with_limit_options(next_cmd))
 
 
 def next_cmd(
@@ -22,18 +22,7 @@ def next_cmd(
     at: str = typer.Option("now", "--at", "-t", help=AT_HELP),
     date: str = planopts.Date,
     done: str = planopts.Done,
-    min_alt: float = sky.MinAlt,
-    max_alt: float | None = sky.MaxAlt,
-    max_airmass: float = sky.MaxAirmass,
-    dark: str = sky.Dark,
-    moon_gap: float = sky.MoonGap,
-    sun_gap: float = sky.SunGap,
-    ha_range: str = sky.HaRange,
-    dec_range: str = sky.DecRange,
-    between: str = sky.Between,
-    no_horizon_profile: bool = sky.NoProfile,
-    airmass_model: str = sky.AirmassModel,
-    refraction: str = sky.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     exposure: float = planopts.Exposure,
     setup: float = planopts.Setup,
     repeats: int = planopts.Repeats,
@@ -72,8 +61,6 @@ def next_cmd(
     fmt = common.check_format(fmt, ("table", "json"))
     chosen = planopts.settings(exposure, setup, repeats, spacing, slew_rate, settle, method,
                                time_limit, airmass_slack, priority_cut, allow_near_sun)
-    limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
-                               dec_range, between, no_horizon_profile, airmass_model, refraction)
     got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
                            elements, start_option="--at", input_format=input_format)
     answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,

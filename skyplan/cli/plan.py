@@ -47,7 +47,7 @@ SkipBad = sky.SkipBad
 
 
 def register(app: typer.Typer) -> None:
-    app.command("plan")(plan_cmd)
+    app.command("plan")(sky.with_limit_options(plan_cmd))
 
 
 def plan_cmd(
@@ -56,19 +56,8 @@ def plan_cmd(
     date: str = Date,
     start: str = typer.Option(None, "--start", help=START_HELP),
     done: str = Done,
-    min_alt: float = sky.MinAlt,
-    max_alt: float | None = sky.MaxAlt,
     mount: str | None = sky.Mount,
-    max_airmass: float = sky.MaxAirmass,
-    dark: str = sky.Dark,
-    moon_gap: float = sky.MoonGap,
-    sun_gap: float = sky.SunGap,
-    ha_range: str = sky.HaRange,
-    dec_range: str = sky.DecRange,
-    between: str = sky.Between,
-    no_horizon_profile: bool = sky.NoProfile,
-    airmass_model: str = sky.AirmassModel,
-    refraction: str = sky.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     exposure: float = Exposure,
     setup: float = Setup,
     repeats: int = Repeats,
@@ -105,8 +94,6 @@ def plan_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv"))
     chosen = settings(exposure, setup, repeats, spacing, slew_rate, settle, method, time_limit,
                       airmass_slack, priority_cut, allow_near_sun, baseline)
-    limits_kw = sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
-                               dec_range, between, no_horizon_profile, airmass_model, refraction)
     with _progress(quiet) as step:
         step("reading targets and computing windows")
         got = prepare(catalog, site, sites_file, demo, date, start, limits_kw, skip_bad,

@@ -13,7 +13,7 @@ TO_HELP = "Last night, inclusive; default: twelve months after the first night, 
 
 
 def register(app: typer.Typer) -> None:
-    app.command("season")(season_cmd)
+    app.command("season")(sky.with_limit_options(season_cmd))
 
 
 def season_cmd(
@@ -25,18 +25,7 @@ def season_cmd(
                                       "a night count (first, last, months, hours)."),
     per_night: bool = typer.Option(False, "--per-night", help="Machine formats: every "
                                    "night of every target as well as the summary."),
-    min_alt: float = sky.MinAlt,
-    max_alt: float | None = sky.MaxAlt,
-    max_airmass: float = sky.MaxAirmass,
-    dark: str = sky.Dark,
-    moon_gap: float = sky.MoonGap,
-    sun_gap: float = sky.SunGap,
-    ha_range: str = sky.HaRange,
-    dec_range: str = sky.DecRange,
-    between: str = sky.Between,
-    no_horizon_profile: bool = sky.NoProfile,
-    airmass_model: str = sky.AirmassModel,
-    refraction: str = sky.Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     cluster: str = typer.Option(None, "--cluster", help="Dask scheduler address "
                                 "(tcp://HOST:8786; default $SKYPLAN_CLUSTER); needs "
                                 "skyplan[cluster].  Without it: local processes."),
@@ -80,9 +69,7 @@ def season_cmd(
     if track and not chart:
         raise InputError("--track draws a chart: name its file with --chart", field="--track")
     the_site = common.get_site(site, sites_file, demo)
-    lim = limits(the_site, **sky.limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap,
-                                            ha_range, dec_range, between, no_horizon_profile,
-                                            airmass_model, refraction))
+    lim = limits(the_site, **limits_kw)
     if start is None and demo:
         start = scenario.DEMO_DATE
     orbits = bulk.read_orbits(elements)

@@ -35,17 +35,43 @@ AirmassModel = limit_option("airmass_model")
 Refraction = limit_option("refraction_model")
 
 
-def limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range, dec_range,
-               between, no_horizon_profile, airmass_model, refraction) -> dict:
-    """The limit options of a command as keyword arguments of ``limits.build_limits``."""
-    return dict(min_alt=min_alt, max_alt=max_alt, max_airmass=max_airmass, dark=dark,
-                moon_gap=moon_gap, sun_gap=sun_gap, ha_range=ha_range, dec_range=dec_range,
-                between=between,
-                no_horizon_profile=no_horizon_profile, airmass_model=airmass_model,
-                refraction=refraction)
+# The limit options every sky command takes: (parameter, type, option), in help order.
+LIMIT_PARAMS = (
+    ("min_alt", float, MinAlt), ("max_alt", float, MaxAlt), ("max_airmass", float, MaxAirmass),
+    ("dark", str, Dark), ("moon_gap", float, MoonGap), ("sun_gap", float, SunGap),
+    ("ha_range", str, HaRange), ("dec_range", str, DecRange), ("between", str, Between),
+    ("no_horizon_profile", bool, NoProfile), ("airmass_model", str, AirmassModel),
+    ("refraction", str, Refraction),
+)
+
+
+def with_limit_options(command):
+    """The command with the limit options (:data:`LIMIT_PARAMS`) in place of its parameter
+    ``limits_kw``, which it receives as the keyword arguments of ``limits.build_limits``
+    (``min_alt=...``, ...; None where the option was not given).  One list of the options
+    for every command, in the same place of each one's help."""
+    import functools
+    import inspect
+
+    sig = inspect.signature(command, eval_str=True)
+    params = list(sig.parameters.values())
+    at = [p.name for p in params].index("limits_kw")
+    added = [inspect.Parameter(name, inspect.Parameter.POSITIONAL_OR_KEYWORD, default=option,
+                               annotation=kind) for name, kind, option in LIMIT_PARAMS]
+
+    @functools.wraps(command)
+    def run(*args, **kwargs):
+        given = {name: kwargs.pop(name, None) for name, _, _ in LIMIT_PARAMS}
+        return command(*args, **kwargs, limits_kw=given)
+
+    run.__signature__ = sig.replace(parameters=params[:at] + added + params[at + 1:])
+    run.__annotations__ = {p.name: p.annotation for p in run.__signature__.parameters.values()}
+    run.__annotations__["return"] = sig.return_annotation
+    return run
+
 
 Mount = typer.Option(None, "--mount", help="The mount: equatorial, german-equatorial or "
-                     "altaz (default: the site's [site.NAME.mount] kind, whose other keys "
+                     "altaz (default: the kind in the site's mount table, whose other keys "
                      "stay). Plans slew on its axes; german-equatorial keeps each visit on "
                      "one pier side and pays for flips; altaz takes the mount's max_alt_deg "
                      "(else 85) as --max-alt and keeps to its cable wrap.")

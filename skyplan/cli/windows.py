@@ -8,21 +8,9 @@ from skyplan.cli import options as common
 from skyplan.cli.skyoptions import (
     DATE_HELP,
     INPUT_FORMAT_HELP,
-    AirmassModel,
-    Between,
-    Dark,
-    DecRange,
-    HaRange,
-    MaxAirmass,
-    MaxAlt,
-    MinAlt,
-    MoonGap,
     Mount,
-    NoProfile,
-    Refraction,
     SkipBad,
-    SunGap,
-    limit_args,
+    with_limit_options,
 )
 
 SMALL_JSON = 2000  # targets: JSON up to this size is indented, for people as well as programs
@@ -55,26 +43,15 @@ def window_data(run, fmt: str):
 
 
 def register(app: typer.Typer) -> None:
-    app.command("windows")(windows_cmd)
+    app.command("windows")(with_limit_options(windows_cmd))
 
 
 def windows_cmd(
     catalog: str = typer.Argument(None, help="Target list (CSV/TSV/ECSV/VOTable/FITS)."),
     site: str = common.SiteOpt,
     date: str = typer.Option(None, "--date", "-d", help=DATE_HELP),
-    min_alt: float = MinAlt,
-    max_alt: float | None = MaxAlt,
     mount: str | None = Mount,
-    max_airmass: float = MaxAirmass,
-    dark: str = Dark,
-    moon_gap: float = MoonGap,
-    sun_gap: float = SunGap,
-    ha_range: str = HaRange,
-    dec_range: str = DecRange,
-    between: str = Between,
-    no_horizon_profile: bool = NoProfile,
-    airmass_model: str = AirmassModel,
-    refraction: str = Refraction,
+    limits_kw: dict | None = None,  # the limit options (with_limit_options)
     elements: str = typer.Option(None, "--elements", help="Orbital elements file (MPC one-line "
                                  "formats) for comets and asteroids named in the catalogue."),
     sites_file: str = common.SitesFileOpt,
@@ -95,8 +72,6 @@ def windows_cmd(
     fmt = common.check_format(fmt, ("table", "json", "ndjson", "csv", "parquet"))
     if fmt == "parquet" and out is None:
         raise InputError("parquet output is a binary file: name it with --out", field="--format")
-    limits_kw = limit_args(min_alt, max_alt, max_airmass, dark, moon_gap, sun_gap, ha_range,
-                           dec_range, between, no_horizon_profile, airmass_model, refraction)
     from skyplan.inputs.site import with_mount
 
     the_site = with_mount(common.get_site(site, sites_file, demo), mount)
