@@ -115,7 +115,7 @@ class NightPlan:
     short_repeats: list[tuple[int, int, int]] = field(default_factory=list)
 
 
-def _reason(res, i: int) -> tuple[str, str]:
+def window_reason(res, i: int) -> tuple[str, str]:
     """Why a target has no window tonight, from its status and lost minutes."""
     if res.status[i] == "never_up":
         return "never_up", "never rises above the horizon here"
@@ -231,12 +231,12 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     )
     plan = scheduling.make_plan(req, options)
     state = _mount_state(req, options, plan)
-    visits = replan.renumbered(_describe(res, plan, idx, priority, exp, overheads, state),
-                               rest, best)
+    described = describe_visits(res, plan.visits, idx, priority, exp, overheads, state)
+    visits = replan.renumbered(described, rest, best)
     gone = replan.left_out(res, wins, todo, rest, overheads.repeats)
     missing = []
     for i in np.nonzero(~has)[0]:
-        code, text = gone.get(int(i)) or _reason(res, int(i))
+        code, text = gone.get(int(i)) or window_reason(res, int(i))
         missing.append((int(i), code, text))
     zone = ZoneInfo(res.night.zone)
     for j, code in sorted(plan.not_placed.items()):
@@ -304,12 +304,15 @@ def _mount_state(req: model.PlanRequest, options: model.PlanOptions,
     return mountfit.states(model.PlanNight(req, options), raw)
 
 
-def _describe(res, plan, idx, priority, exp, overheads, state=None) -> list[PlannedVisit]:
-    """Exact positions of every visit at the start, middle and end of its exposure."""
-    if not plan.visits:
+def describe_visits(res, visits, idx, priority, exp, overheads, state=None
+                    ) -> list[PlannedVisit]:
+    """Exact positions of every visit (:class:`model.Visit`, of the targets ``idx``) at the
+    start, middle and end of its exposure; ``state``: the mount's pier sides and wrap
+    readings of each visit (None: from the hour angle at the start)."""
+    if not visits:
         return []
     sky = res.sky
-    v = plan.visits
+    v = visits
     rows = idx[np.array([p.target for p in v])]
     t0 = np.array([p.exposure_start_unix for p in v])
     t1 = np.array([p.end_unix for p in v])

@@ -26,7 +26,7 @@ def empty_night_plan(res, priority: np.ndarray, overheads: build.Overheads,
     kind = _reason_kind(res)
     for k in np.unique(kind):  # a dozen kinds at most; each explained once, as build does
         members = kind == k
-        codes[members], texts[members] = build._reason(res, int(np.flatnonzero(members)[0]))
+        codes[members], texts[members] = build.window_reason(res, int(np.flatnonzero(members)[0]))
     codes[has], texts[has] = "too_short", build.SCHEDULER_TEXT["too_short"]
     for i, (code, text) in gone.items():  # the targets done or passed: a night's log
         codes[i], texts[i] = code, text
@@ -40,7 +40,7 @@ def empty_night_plan(res, priority: np.ndarray, overheads: build.Overheads,
 
 
 def _reason_kind(res) -> np.ndarray:
-    """Targets with the same kind get the same reason from ``build._reason``: never up, near
+    """Targets with the same kind get the same reason from ``build.window_reason``: never up, near
     the Sun, or the limit (other than darkness) that takes the most minutes."""
     keys = [k for k in res.lost_s if k != "dark"]
     n = len(res.names)

@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
-from types import SimpleNamespace
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -33,7 +32,7 @@ from skyplan.engine.catch import within
 from skyplan.engine.intervals import Intervals, complement, intersect
 from skyplan.errors import NothingObservable
 from skyplan.inputs.ephemerides import Ephemerides
-from skyplan.planning import build, emptynight, model, replan
+from skyplan.planning import build, emptynight, model, mountfit, replan
 
 FIT_TOL_S = 1.0  # window edges are found to 0.5 s
 
@@ -278,15 +277,14 @@ def _describe(res, tv: TimedVisits, priority, overheads) -> list:
     visits = [model.Visit(k, int(repeat[k]), float(tv.start[k] - overheads.setup_s), 0.0,
                           overheads.setup_s, float(tv.start[k]), float(tv.end[k]), np.nan)
               for k in range(len(tv.rows))]
-    plan = SimpleNamespace(visits=visits)  # what build._describe reads of a plan
-    described = build._describe(res, plan, tv.rows, priority, tv.end - tv.start, overheads,
-                                _pier_sides(res, tv, overheads))
+    described = build.describe_visits(res, visits, tv.rows, priority, tv.end - tv.start,
+                                      overheads, _pier_sides(res, tv, overheads))
     return [dataclasses.replace(v, timed=True, epoch_number=None if not np.isfinite(e)
                                 else int(e)) for v, e in zip(described, tv.epoch, strict=True)]
 
 
 
-def _pier_sides(res, tv: TimedVisits, overheads) -> SimpleNamespace | None:
+def _pier_sides(res, tv: TimedVisits, overheads) -> mountfit.MountState | None:
     """For a German mount, the pier side of each time-critical visit: the side whose
     hour-angle range holds the whole exposure (the visits were placed inside one), the usual
     side (west while the target is east of the meridian) when both do."""
@@ -303,7 +301,7 @@ def _pier_sides(res, tv: TimedVisits, overheads) -> SimpleNamespace | None:
     east = east_ok & (usual_east | ~west_ok)
     side = np.where(east, 1, np.where(west_ok, 0, -1)).astype(np.int8)
     nan = np.full(len(tv.rows), np.nan)
-    return SimpleNamespace(side=side, axis_az_start_deg=nan, axis_az_end_deg=nan)
+    return mountfit.MountState(side, nan, nan.copy())
 
 
 def _wrapped(ha: np.ndarray) -> np.ndarray:
