@@ -289,6 +289,20 @@ def test_next_agrees_with_the_optimised_plan_too(capsys) -> None:
     assert json.loads(out)["visit"] == first
 
 
+@pytest.mark.parametrize("extra", [["--mount", "german-equatorial"], ["--baseline", "20"]])
+def test_next_takes_the_mount_and_baseline_as_plan_does(extra, capsys) -> None:
+    """``next`` with ``--mount`` or ``--baseline`` answers with the first visit of the plan
+    made from the same moment with the same option (its pier side too)."""
+    opts = ["--demo", "--quiet", "-f", "json", *extra]
+    code, out, _ = run(["plan", *opts, "--start", "23:00"], capsys)
+    assert code == EXIT_OK
+    first = json.loads(out)["observations"][0]
+    code, out, _ = run(["next", *opts, "--at", "23:00"], capsys)
+    assert json.loads(out)["visit"] == first
+    if "--mount" in extra:
+        assert first["pier_side"] in ("east", "west")
+
+
 def test_now_is_the_current_time(monkeypatch, capsys) -> None:
     from skyplan.inputs import timeinput
 

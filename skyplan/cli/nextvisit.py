@@ -7,6 +7,7 @@ import typer
 from skyplan.cli import options as common
 from skyplan.cli import plan as planopts
 from skyplan.cli import skyoptions as sky
+from skyplan.defaults import TIMED_BASELINE_MIN
 
 AT_HELP = ("The moment asked about: 'now' (default), HH:MM on the night's local clock (after "
            "noon the evening, before noon the next morning) or ISO 8601 with Z or an offset.")
@@ -22,6 +23,7 @@ def next_cmd(
     at: str = typer.Option("now", "--at", "-t", help=AT_HELP),
     date: str = planopts.Date,
     done: str = planopts.Done,
+    mount: str | None = sky.Mount,
     limits_kw: dict | None = None,  # the limit options (with_limit_options)
     exposure: float = planopts.Exposure,
     setup: float = planopts.Setup,
@@ -36,6 +38,7 @@ def next_cmd(
     airmass_slack: float = planopts.AirmassSlack,
     priority_cut: int = planopts.PriorityCut,
     allow_near_sun: bool = planopts.AllowNearSun,
+    baseline: float = typer.Option(TIMED_BASELINE_MIN, "--baseline", help=sky.BASELINE_HELP),
     elements: str = planopts.Elements,
     sites_file: str = common.SitesFileOpt,
     demo: bool = common.DemoOpt,
@@ -60,9 +63,11 @@ def next_cmd(
     common.set_quiet(quiet)
     fmt = common.check_format(fmt, ("table", "json"))
     chosen = planopts.settings(exposure, setup, repeats, spacing, slew_rate, settle, method,
-                               time_limit, airmass_slack, priority_cut, allow_near_sun)
+                               time_limit, airmass_slack, priority_cut, allow_near_sun,
+                               baseline)
     got = planopts.prepare(catalog, site, sites_file, demo, date, at, limits_kw, skip_bad,
-                           elements, start_option="--at", input_format=input_format)
+                           elements, start_option="--at", input_format=input_format,
+                           mount=mount)
     answer = nextvisit.next_visit(got.targets, got.site, got.night, got.limits, chosen,
                                   at=got.at, done=done, computed=got.computed)
     if fmt == "json":
