@@ -14,8 +14,19 @@ each priority or above against an independent bound, level by level: the optimum
 linear-programming relaxation of the time-indexed model without slews
 (:func:`timeindexed.relaxed_model`, the count of those visits as objective, every other rule
 kept) with rows keeping at least the plan's visits at every higher priority
-(:func:`bound.count_bound`): no plan that keeps those can have more.  Prints a Markdown table
-(the one in docs/planning.md).
+(:func:`bound.count_bound`, rounded down: a count is whole): no plan that keeps those can have
+more.  Beside the top
+priority's excess, its certified floor (:func:`bound.excess_floor`, on a ``--floor-step``
+grid): the least mean excess of any plan with at least as many top-priority visits as the
+plan judged, and of any such plan that also places every top-priority target that had room.
+Prints a Markdown table (the one in docs/planning.md).
+
+``--counts``: instead, for each night, the visits at each priority or above of the
+``optimal`` plan with the objective as it is, and with the airmass share ``S`` of the merit
+set to 0 (:mod:`skyplan.planning.merit`): every visit of a level then weighs the same, so the
+planner maximises the visits level by level (one visit outweighing nine of the level below),
+beside the same count bound.  It separates what the bound misses from what the objective
+trades for airmass.
 """
 
 from __future__ import annotations
@@ -26,7 +37,8 @@ import time
 import numpy as np
 from bench_scheduling import synthetic_night
 
-from skyplan.planning.bound import count_bound
+from skyplan.planning import merit
+from skyplan.planning.bound import count_bound, excess_floor
 from skyplan.planning.dispatch import PlanOptions, make_plan
 from skyplan.planning.model import PlanNight
 
@@ -66,17 +78,62 @@ def count_bounds(request, levels, pr) -> list[float]:
     return out
 
 
+def top_floors(request, top: int, visits: int, could, step_s: float, limit_s: float) -> str:
+    """The certified floors of the top priority's mean excess, in %: at least ``visits``
+    top-priority visits / and a visit of each target in ``could``."""
+    night = PlanNight(request, PlanOptions())
+    alone = excess_floor(night, top, visits, step_s, time_limit_s=limit_s)
+    every = excess_floor(night, top, visits, step_s, must=np.asarray(could, int),
+                         time_limit_s=limit_s)
+    return f"{100 * alone:.1f}/{100 * every:.1f}"
+
+
+def count_study(time_limit_s: float, seeds: int) -> None:
+    """The ``--counts`` table (see the module docstring)."""
+    levels = [5, 4, 3, 2, 1]
+    print("| site | load | targets | visits at >= 5/4/3/2/1: objective / counts only / bound |")
+    print("|---|---|---|---|")
+    share = merit.AIRMASS_SHARE
+    for lat, hours in SITES:
+        for load in LOADS:
+            for seed in range(seeds):
+                request = night_at_load(load, seed, lat, hours)
+                got = []
+                for s in (share, 0.0):
+                    merit.AIRMASS_SHARE = s
+                    try:
+                        plan = make_plan(request, PlanOptions(method="optimal",
+                                                              time_limit_s=time_limit_s))
+                    finally:
+                        merit.AIRMASS_SHARE = share
+                    got.append(np.array([request.priority[v.target] for v in plan.visits]))
+                bounds = count_bounds(request, levels, got[1])
+                cells = "/".join(
+                    f"{int(np.sum(got[0] >= p))}:{int(np.sum(got[1] >= p))}:"
+                    f"{np.floor(b + 1e-6):.0f}" for p, b in zip(levels, bounds))
+                print(f"| {lat:.0f} N | {load}x | {len(request.exposure_s)} | {cells} |")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seeds", type=int, default=2)
     parser.add_argument("--time-limit", type=float, default=5.0)
+    parser.add_argument("--floor-step", type=float, default=120.0,
+                        help="grid of the excess floor, seconds")
+    parser.add_argument("--floor-limit", type=float, default=5.0,
+                        help="time limit of each of the floor's solves, seconds")
+    parser.add_argument("--counts", action="store_true",
+                        help="the visits with the airmass share of the merit at 0 instead")
     args = parser.parse_args()
+    if args.counts:
+        count_study(args.time_limit, args.seeds)
+        return
     levels = [5, 4, 3, 2, 1]
     print(
-        "| site | load | targets | method | s | excess % by priority 5/4/3/2/1 | top placed | "
-        "visits at >= 5/4/3/2/1 (bound) | gap % |"
+        "| site | load | targets | method | s | excess % by priority 5/4/3/2/1 | top floor % | "
+        "top placed | visits at >= 5/4/3/2/1 (bound) | gap % |"
     )
-    print("|---|---|---|---|---|---|---|---|---|")
+    print("|---|---|---|---|---|---|---|---|---|---|")
     for lat, hours in SITES:
         for load in LOADS:
             for seed in range(args.seeds):
@@ -98,12 +155,15 @@ def main() -> None:
                     placed = {v.target for v in plan.visits}
                     got = sum(int(i) in placed for i in could)
                     bounds = count_bounds(request, levels, pr)
-                    counts = "/".join(f"{int(np.sum(pr >= p))} ({b:.0f})"
+                    counts = "/".join(f"{int(np.sum(pr >= p))} ({np.floor(b + 1e-6):.0f})"
                                       for p, b in zip(levels, bounds))
+                    floor = top_floors(request, levels[0], int(np.sum(pr == levels[0])),
+                                       could, args.floor_step, args.floor_limit)
                     gap = "-" if plan.metrics.gap is None else f"{100 * plan.metrics.gap:.1f}"
                     print(f"| {lat:.0f} N | {load}x | {len(request.exposure_s)} | "
                           f"{plan.metrics.method if method == 'optimal' else 'dispatch'} | "
-                          f"{wall:.2f} | {excess} | {got}/{len(could)} | {counts} | {gap} |")
+                          f"{wall:.2f} | {excess} | {floor} | {got}/{len(could)} | {counts} | "
+                          f"{gap} |")
 
 
 if __name__ == "__main__":

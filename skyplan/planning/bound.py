@@ -28,16 +28,31 @@ being judged): the optimum then bounds the visits at ``p`` or above of every pla
 at least as many visits at each higher level, the plans a lexicographic order of the
 priorities prefers.  Still a relaxation (no slew beyond the settle time), so not reachable
 when visits are short.
+
+**Airmass excess of one level** (:func:`excess_floor`).  The same mapping carries every
+plan's visits at one priority level, alone, onto a solution of the relaxed model restricted
+to that level (dropping the other visits keeps every rule), each variable at the lowest
+relative excess ``r = X / X_best - 1`` any visit mapped onto it can have.  So the least mean
+``r`` over the solutions with at least ``k`` variables (and one of each target asked for)
+bounds from below the mean excess at that level of every plan with at least ``k`` visits
+there.  The least ratio is found by Dinkelbach's method (1967, "On nonlinear fractional
+programming", Management Science 13): ``g(f) = min sum (r_v - f) x_v`` is solved as an
+integer program for a falling sequence of ``f``, each the mean of the previous solution,
+until it no longer falls.  Certified at every step: ``g`` falls with slope ``-sum x <=
+-k_low`` (``k_low`` the fewest variables any solution has), so if ``lb <= 0`` is the
+solver's proven lower bound on ``g(f)``, every solution has mean at least
+``f + lb / k_low``; a time limit only loosens the floor.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan.planning import timeindexed
+from skyplan.planning import merit, timeindexed
 from skyplan.planning.timeindexed import TimeModel, ramp
 
 if TYPE_CHECKING:
@@ -85,6 +100,46 @@ def lagrangian_bound(model: TimeModel, price: np.ndarray, lower: float, steps: i
             break
         lam = np.maximum(lam - scale * (value - lower) / norm * grad, 0.0)
     return best
+
+
+def excess_floor(night: PlanNight, level: int, visits: int, step_s: float,
+                 must: np.ndarray | None = None, time_limit_s: float = 60.0) -> float:
+    """The least mean relative airmass excess of the visits at priority ``level`` of any
+    plan with at least ``visits`` of them (and a visit of each target in ``must``), see
+    above; ``nan`` when the linear-programming relaxation is not solved (no such solution,
+    or the time limit)."""
+    must = np.asarray(must if must is not None else [], int)
+    if visits <= 0 and must.size == 0:
+        return 0.0
+    model = timeindexed.relaxed_model(night, step_s, np.ones(night.n))
+    keep = night.priority[model.var_target] == level
+    q = 1.0 - (1.0 - model.var_merit[keep]) / merit.AIRMASS_SHARE  # invert merit at w = 1
+    excess = np.maximum((1.0 / q - 1.0) / merit.AIRMASS_STEEPNESS, 0.0)
+    duration = None if model.var_duration is None else model.var_duration[keep]
+    alone = replace(model, var_target=model.var_target[keep], var_slot=model.var_slot[keep],
+                    var_block=model.var_block[keep], var_duration=duration)
+    rows = [(np.ones(alone.size, bool), max(visits, 1))]
+    rows += [(alone.var_target == i, 1) for i in must]
+    k_low = max(visits, must.size, 1)
+    f, floor = 0.0, 0.0
+    for step in range(DINKELBACH_STEPS):
+        priced = replace(alone, var_merit=f - excess)
+        got = timeindexed.solve(priced, time_limit_s, integer=True, floors=rows)
+        if not got.found:
+            got = timeindexed.solve(priced, time_limit_s, integer=False, floors=rows)
+            if not got.found:
+                return math.nan if f == 0.0 else floor
+        floor = max(floor, f + min(-got.bound, 0.0) / k_low)
+        if got.chosen.size == 0:
+            break
+        ratio = float(excess[got.chosen].sum() / got.chosen.size)
+        if step and ratio >= f - 1e-12:
+            break
+        f = ratio
+    return floor
+
+
+DINKELBACH_STEPS = 12
 
 
 def count_bound(night: PlanNight, level: int, floors: dict[int, int], step_s: float,
