@@ -171,6 +171,7 @@ def _delimited_columns(source: str, blocks: list[bytes], delimiter: str | None) 
                 decimals[key] = column.numbers
             else:
                 column = column.all_texts()
+                readfile.give_back_freed()
         values[key] = column
     return Columns(source, headers, values, grid.where, True, ignored, problems, grid.trimmed,
                    decimals)

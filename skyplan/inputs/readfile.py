@@ -11,14 +11,16 @@ Every reader of user input goes through this module, so that each one:
 - reads at most ``limit`` bytes, counted as they arrive (a file's reported size is not
   trusted: it is 0 for a device and may grow while being read), and fails past the limit.
 
-The public surface is three functions: :func:`open_input` (a binary handle, for readers
+The public surface is four functions: :func:`open_input` (a binary handle, for readers
 that stream line by line), :func:`read_input` (the whole content as bytes) and
 :func:`read_blocks` (the content as blocks of whole lines, for readers that let each block
-go once it is read).
+go once it is read), and :func:`give_back_freed`, which readers of large files call between
+blocks so that memory let go is given back to the system rather than kept for reuse.
 """
 
 from __future__ import annotations
 
+import ctypes
 import os
 import stat
 import sys
@@ -105,14 +107,39 @@ def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
 BLOCK_BYTES = 48 << 20
 
 
+# polars allocates through its own jemalloc, which keeps freed pages for 10 s by default
+# (read from this variable when polars is first loaded): give them back at once instead.
+_POLARS_ALLOCATOR = ("_RJEM_MALLOC_CONF", "dirty_decay_ms:0,muzzy_decay_ms:0")
+_TRIM: list = []  # glibc's malloc_trim, once looked up (None where there is none)
+
+
+def give_back_freed() -> None:
+    """Give the memory freed so far back to the system: glibc keeps freed chunks of its
+    heap for reuse, and a chunk of a large array freed among small live ones stays in the
+    process (after a large allocation is freed glibc raises its threshold for serving
+    allocations by their own mapping, so later arrays of up to 32 MiB come from the heap).
+    ``malloc_trim(0)`` (glibc) hands back the whole free pages; elsewhere this does nothing.
+    """
+    if not _TRIM:
+        try:
+            _TRIM.append(ctypes.CDLL(None).malloc_trim)
+        except (OSError, AttributeError):
+            _TRIM.append(None)
+    if _TRIM[0] is not None:
+        _TRIM[0](0)
+
+
 def read_blocks(path: str | Path, limit: int, *, what: str = "file") -> list[bytes]:
     """The content of ``path`` (``-``: standard input) as blocks of about
     :data:`BLOCK_BYTES`, each but the last ending with a line feed: at most ``limit``
     bytes in all.
 
     Raises as :func:`read_input` does.  A reader that takes the blocks one by one can let
-    each go once it is read, so that the file is never held whole beside what is made of it.
+    each go once it is read, so that the file is never held whole beside what is made of it
+    (and, if polars is not loaded yet, its allocator is told to give freed pages back at
+    once unless ``_RJEM_MALLOC_CONF`` is set already).
     """
+    os.environ.setdefault(*_POLARS_ALLOCATOR)
     source = str(path)
     blocks: list[bytes] = []
     carry = bytearray()  # read, not yet in a block: a line's start
