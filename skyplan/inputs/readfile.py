@@ -11,8 +11,9 @@ Every reader of user input goes through this module, so that each one:
 - reads at most ``limit`` bytes, counted as they arrive (a file's reported size is not
   trusted: it is 0 for a device and may grow while being read), and fails past the limit.
 
-The public surface is four functions: :func:`open_input` (a binary handle, for readers
-that stream line by line), :func:`read_input` (the whole content as bytes) and
+The public surface is five functions: :func:`open_input` (a binary handle, for readers
+that stream line by line), :func:`open_sized` (a handle on a regular file of a bounded
+size, for readers that map it into memory), :func:`read_input` (the whole content as bytes) and
 :func:`read_blocks` (the content as blocks of whole lines, for readers that let each block
 go once it is read), and :func:`give_back_freed`, which readers of large files call between
 blocks so that memory let go is given back to the system rather than kept for reuse.
@@ -80,6 +81,20 @@ def open_input(path: str | Path, *, what: str = "file") -> BinaryIO:
                          f"{hint}", file=source)
     os.set_blocking(fd, True)
     return os.fdopen(fd, "rb")
+
+
+def open_sized(path: str | Path, limit: int, *, what: str = "file") -> BinaryIO:
+    """A handle on the regular file ``path`` (not ``-``) whose size is at most ``limit``
+    bytes, for a reader that maps the file into memory (pages are read as they are used,
+    never past the file's end) instead of reading it whole.
+
+    Raises as :func:`open_input` does, and when the file is larger than ``limit``.
+    """
+    handle = open_input(path, what=what)
+    if os.fstat(handle.fileno()).st_size > limit:
+        handle.close()
+        raise _too_large(str(path), limit, what)
+    return handle
 
 
 def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
