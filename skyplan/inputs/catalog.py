@@ -15,7 +15,7 @@ file is read through :mod:`skyplan.inputs.readfile` (a regular file, or ``-``; a
   the header has its missing trailing fields empty; a row with more is an error.
 - ``.ecsv``, ``.vot`` / ``.votable`` / ``.xml``, ``.fits`` / ``.fit`` / ``.fts``, read with
   astropy's table readers (FITS mapped into memory; ECSV of at most 500,000 cells, VOTable
-  of at most 200 MiB: see :mod:`skyplan.inputs.tablefiles`).  Numeric RA/Dec columns with
+  of at most 80 MiB: see :mod:`skyplan.inputs.tablefiles`).  Numeric RA/Dec columns with
   an angle unit (``deg``, ``hourangle``, ...) are converted by that unit; numeric columns
   without a unit are taken in the units below.  String columns go through the same parsers
   as CSV text.
@@ -122,7 +122,9 @@ def read_catalog(
     else:
         columns = _delimited_columns(source, readfile.read_blocks(
             path, delimited.MAX_FILE_BYTES, what="catalogue"), kind)
-    return build_catalog(columns, skip_bad=skip_bad)
+    read = build_catalog(columns, skip_bad=skip_bad)
+    readfile.give_back_freed()  # what the reading let go, before the caller's work begins
+    return read
 
 
 def _format_of(path: str, source: str, input_format: str | None) -> str | tuple | None:

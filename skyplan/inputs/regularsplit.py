@@ -149,8 +149,8 @@ def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
                 second[p][1].append(cells)
             row += count
             del table
-            readfile.give_back_freed()
         del block
+        readfile.give_back_freed()
     columns: dict[int, Sequence[str]] = dict(texts)
     for p, values in numbers.items():
         rows_list, cells_list = second.pop(p)

@@ -42,7 +42,7 @@ ASTROPY_FORMATS = {
 # 200 bytes) and VOTable (the file's bytes beside the parsed table): the largest each reads
 # within the memory rule of docs/errors.md ("Input limits"), measured in docs/performance.md.
 ECSV_MAX_CELLS = 500_000  # data lines times declared columns
-VOTABLE_MAX_BYTES = 200 << 20
+VOTABLE_MAX_BYTES = 80 << 20
 
 # Units of numeric columns in astropy tables (astropy unit strings).
 _UNITS = {
