@@ -198,7 +198,7 @@ def test_a_sexagesimal_catalogue_is_read_in_memory_proportional_to_it(
     # 700,000 rows with RA and Dec written sexagesimally (19 MiB; goal 3 x the size +
     # 200 MiB = 258 MiB).  The angle columns are read as text; polars' allocator and glibc's
     # heap kept the memory freed between blocks, and the read peaked at 268-280 MiB; with
-    # the freed memory given back between blocks it takes about 195 MiB.
+    # the freed memory given back between blocks it takes about 220 MiB.
     rows = 700_000
     rng = np.random.default_rng(1505)
     tenths = rng.integers(0, 864_000, rows)  # RA in tenths of a second of time: below 24h
