@@ -157,7 +157,7 @@ def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
         columns[p] = NumberCells(values, np.concatenate(rows_list),
                                            np.concatenate(cells_list))
         del rows_list, cells_list
-        readfile.give_back_freed()
+    readfile.give_back_freed()
     where = np.arange(2, n + 2, dtype=np.int64)
     return delimited.Grid(header, 1, columns, where, long_fields, {}, trimmed, delimiter)
 
