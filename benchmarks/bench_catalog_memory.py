@@ -3,12 +3,15 @@ peak <= 3 x the file's size + 200 MiB (issue 15).
 
 Run by hand (not part of the test suite):
 
-    python benchmarks/bench_catalog_memory.py [--rows 5000000] [--repeat 3]
+    python benchmarks/bench_catalog_memory.py [--rows 5000000] [--repeat 3] [--kind KIND]
 
-Writes an invented CSV catalogue (name, ra, dec, priority, exposure, notes; every row
-valid; seeded) in a temporary folder, from a child process so that this process stays
-small (Linux carries a parent's high-water mark into a child it starts, so a large parent
-would inflate the children's figures).  Then, ``--repeat`` times each, it runs in a child
+Writes an invented catalogue (name, ra, dec, priority, exposure, notes; every row valid;
+seeded) in a temporary folder: ``--kind decimal`` (the default) a CSV with RA and Dec in
+decimal degrees, ``sexagesimal`` a CSV of name, ra, dec written ``05:35:17.3,-05:23:28``,
+``fits``, ``votable`` or ``ecsv`` a table written by astropy; from a child process so
+that this process stays small (Linux carries a parent's high-water mark into a child it
+starts, so a large parent would inflate the children's figures).  Then, ``--repeat``
+times each, it runs in a child
 process and reports for that child alone (``os.wait4``): ``read_catalog`` on the file, and
 ``skyplan windows FILE --site ... -f csv --out OUT`` (interpreter start included): the best
 wall time and the largest peak resident memory (``ru_maxrss``).
@@ -52,6 +55,59 @@ WRITER = textwrap.dedent("""
             handle.write("\\n".join(line.tolist()) + "\\n")
 """)
 
+SEXAGESIMAL = textwrap.dedent("""
+    import sys
+    import numpy as np
+
+    path, rows = sys.argv[1], int(sys.argv[2])
+    rng = np.random.default_rng(20261205)
+    with open(path, "w", encoding="utf-8") as handle:
+        handle.write("name,ra,dec\\n")
+        for start in range(0, rows, 500_000):
+            n = min(rows, start + 500_000) - start
+            tenths = rng.integers(0, 864_000, n)  # RA in tenths of a second: below 24h
+            arcsec = rng.integers(-323_640, 323_641, n)  # |Dec| below 90 degrees
+            a = np.abs(arcsec)
+            line = np.char.add("S", np.arange(start, start + n).astype(str))
+            for part in [",", np.char.zfill((tenths // 36_000).astype(str), 2), ":",
+                         np.char.zfill((tenths // 600 % 60).astype(str), 2), ":",
+                         np.char.zfill((tenths // 10 % 60).astype(str), 2), ".",
+                         (tenths % 10).astype(str), ",", np.where(arcsec < 0, "-", "+"),
+                         np.char.zfill((a // 3600).astype(str), 2), ":",
+                         np.char.zfill((a // 60 % 60).astype(str), 2), ":",
+                         np.char.zfill((a % 60).astype(str), 2)]:
+                line = np.char.add(line, part)
+            handle.write("\\n".join(line.tolist()) + "\\n")
+""")
+
+TABLE = textwrap.dedent("""
+    import sys
+    import numpy as np
+    from astropy import units as u
+    from astropy.table import Table
+
+    path, rows, fmt = sys.argv[1], int(sys.argv[2]), sys.argv[3]
+    rng = np.random.default_rng(20261205)
+    table = Table()
+    table["name"] = np.char.add("T", np.arange(rows).astype(str))
+    table["ra"] = rng.uniform(0.0, 359.99999, rows) * u.deg
+    table["dec"] = np.degrees(np.arcsin(rng.uniform(-1.0, 1.0, rows))) * u.deg
+    table["priority"] = rng.integers(1, 6, rows)
+    table["exposure"] = rng.choice([60.0, 120.0, 300.0, 600.0], rows)
+    table["notes"] = np.array(["", "standard", "check seeing", "Be star", "flare"])[
+        rng.integers(0, 5, rows)]
+    table.write(path, format=fmt)
+""")
+
+# --kind: (suffix, writer, extra arguments of the writer)
+KINDS = {
+    "decimal": (".csv", WRITER, []),
+    "sexagesimal": (".csv", SEXAGESIMAL, []),
+    "fits": (".fits", TABLE, ["fits"]),
+    "votable": (".vot", TABLE, ["votable"]),
+    "ecsv": (".ecsv", TABLE, ["ascii.ecsv"]),
+}
+
 READER = "import sys\nfrom skyplan.inputs.catalog import read_catalog\nread_catalog(sys.argv[1])\n"
 
 
@@ -88,16 +144,18 @@ def main() -> None:
     parser.add_argument("--rows", type=int, default=5_000_000)
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--date", default="2026-12-18")
+    parser.add_argument("--kind", choices=KINDS, default="decimal")
     args = parser.parse_args()
 
+    suffix, writer, extra = KINDS[args.kind]
     with tempfile.TemporaryDirectory() as folder:
-        catalogue = Path(folder) / "big.csv"
+        catalogue = Path(folder) / f"big{suffix}"
         t0 = time.perf_counter()
-        subprocess.run([sys.executable, "-c", WRITER, str(catalogue), str(args.rows)],
+        subprocess.run([sys.executable, "-c", writer, str(catalogue), str(args.rows), *extra],
                        check=True)
         size = catalogue.stat().st_size
         goal = 3 * size / 2**20 + GOAL_MIB
-        print(f"catalogue: {args.rows:,} rows, {size / 2**20:.0f} MiB, written in "
+        print(f"catalogue ({args.kind}): {args.rows:,} rows, {size / 2**20:.0f} MiB, written in "
               f"{time.perf_counter() - t0:.1f} s; goal: peak <= 3 x size + {GOAL_MIB} MiB = "
               f"{goal:.0f} MiB")
         report("read_catalog", [sys.executable, "-c", READER, str(catalogue)], args.repeat,

@@ -14,9 +14,11 @@ file is read through :mod:`skyplan.inputs.readfile` (a regular file, or ``-``; a
   messages are the lines of the file as an editor shows them.  A row with fewer fields than
   the header has its missing trailing fields empty; a row with more is an error.
 - ``.ecsv``, ``.vot`` / ``.votable`` / ``.xml``, ``.fits`` / ``.fit`` / ``.fts``, read with
-  astropy's table readers.  Numeric RA/Dec columns with an angle unit (``deg``,
-  ``hourangle``, ...) are converted by that unit; numeric columns without a unit are taken in
-  the units below.  String columns go through the same parsers as CSV text.
+  astropy's table readers (FITS mapped into memory; ECSV of at most 500,000 cells, VOTable
+  of at most 80 MiB: see :mod:`skyplan.inputs.tablefiles`).  Numeric RA/Dec columns with
+  an angle unit (``deg``, ``hourangle``, ...) are converted by that unit; numeric columns
+  without a unit are taken in the units below.  String columns go through the same parsers
+  as CSV text.
 
 Columns (header names are matched without case and surrounding spaces; the first name of
 each row is the documented one, the others are accepted aliases):
@@ -77,7 +79,7 @@ from skyplan.errors import InputError
 from skyplan.inputs import delimited, readfile, regularsplit
 from skyplan.inputs.catalogrows import NUMBER_CHECKS, build_catalog, map_headers, too_long
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
-from skyplan.inputs.tablefiles import ASTROPY_FORMATS, read_table
+from skyplan.inputs.tablefiles import ASTROPY_FORMATS, VOTABLE_MAX_BYTES, read_table
 from skyplan.text import quoted
 
 __all__ = ["INPUT_FORMATS", "Catalog", "CatalogRead", "read_catalog"]
@@ -108,13 +110,21 @@ def read_catalog(
     source = "<stdin>" if str(path) == readfile.STDIN else str(path)
     kind = _format_of(str(path), source, input_format)
     # the file's bytes are handed on, not kept here, so that the reader can let them go
-    if isinstance(kind, tuple):
+    if isinstance(kind, tuple) and kind[0] == "fits" and str(path) != readfile.STDIN:
+        with readfile.open_sized(path, delimited.MAX_FILE_BYTES, what="catalogue") as handle:
+            columns = read_table(handle, source, *kind)
+    elif kind == ASTROPY_FORMATS[".vot"]:
+        columns = read_table(readfile.read_input(path, VOTABLE_MAX_BYTES,
+                                                 what="VOTable catalogue"), source, *kind)
+    elif isinstance(kind, tuple):
         columns = read_table(readfile.read_input(path, delimited.MAX_FILE_BYTES,
                                                  what="catalogue"), source, *kind)
     else:
         columns = _delimited_columns(source, readfile.read_blocks(
             path, delimited.MAX_FILE_BYTES, what="catalogue"), kind)
-    return build_catalog(columns, skip_bad=skip_bad)
+    read = build_catalog(columns, skip_bad=skip_bad)
+    readfile.give_back_freed()  # what the reading let go, before the caller's work begins
+    return read
 
 
 def _format_of(path: str, source: str, input_format: str | None) -> str | tuple | None:
@@ -171,6 +181,7 @@ def _delimited_columns(source: str, blocks: list[bytes], delimiter: str | None) 
                 decimals[key] = column.numbers
             else:
                 column = column.all_texts()
+                readfile.give_back_freed()
         values[key] = column
     return Columns(source, headers, values, grid.where, True, ignored, problems, grid.trimmed,
                    decimals)

@@ -26,7 +26,7 @@ from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError, InputErrors
-from skyplan.inputs import delimited
+from skyplan.inputs import delimited, readfile
 from skyplan.inputs.angles import parse_column, parse_dec_column, parse_ra_column
 from skyplan.inputs.catalogtypes import Catalog, CatalogRead, Columns, NumberCells
 from skyplan.text import UNPRINTABLE, quoted
@@ -373,6 +373,8 @@ def _in_blocks(parse: Callable, cells: Sequence[object], decimals: np.ndarray | 
         part, found = parse(cells[start : start + ANGLE_BLOCK])
         values[start : start + len(part)] = part
         errors.update((start + i, message) for i, message in found.items())
+        del part, found
+        readfile.give_back_freed()
     return values, errors
 
 

@@ -11,14 +11,17 @@ Every reader of user input goes through this module, so that each one:
 - reads at most ``limit`` bytes, counted as they arrive (a file's reported size is not
   trusted: it is 0 for a device and may grow while being read), and fails past the limit.
 
-The public surface is three functions: :func:`open_input` (a binary handle, for readers
-that stream line by line), :func:`read_input` (the whole content as bytes) and
+The public surface is five functions: :func:`open_input` (a binary handle, for readers
+that stream line by line), :func:`open_sized` (a handle on a regular file of a bounded
+size, for readers that map it into memory), :func:`read_input` (the whole content as bytes) and
 :func:`read_blocks` (the content as blocks of whole lines, for readers that let each block
-go once it is read).
+go once it is read), and :func:`give_back_freed`, which readers of large files call between
+blocks so that memory let go is given back to the system rather than kept for reuse.
 """
 
 from __future__ import annotations
 
+import ctypes
 import os
 import stat
 import sys
@@ -80,6 +83,20 @@ def open_input(path: str | Path, *, what: str = "file") -> BinaryIO:
     return os.fdopen(fd, "rb")
 
 
+def open_sized(path: str | Path, limit: int, *, what: str = "file") -> BinaryIO:
+    """A handle on the regular file ``path`` (not ``-``) whose size is at most ``limit``
+    bytes, for a reader that maps the file into memory (pages are read as they are used,
+    never past the file's end) instead of reading it whole.
+
+    Raises as :func:`open_input` does, and when the file is larger than ``limit``.
+    """
+    handle = open_input(path, what=what)
+    if os.fstat(handle.fileno()).st_size > limit:
+        handle.close()
+        raise _too_large(str(path), limit, what)
+    return handle
+
+
 def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
     """The content of ``path`` (``-``: standard input): at most ``limit`` bytes.
 
@@ -105,14 +122,41 @@ def read_input(path: str | Path, limit: int, *, what: str = "file") -> bytes:
 BLOCK_BYTES = 48 << 20
 
 
+# polars allocates through its own jemalloc, which keeps freed pages for 10 s by default
+# (read from this variable when polars is first loaded): give them back within 0.5 s
+# instead (at once saved 20 MiB more on 1,000,000 sexagesimal rows, but slowed the
+# decimal path by about 0.1 s in 1.3; docs/performance.md).
+_POLARS_ALLOCATOR = ("_RJEM_MALLOC_CONF", "dirty_decay_ms:500,muzzy_decay_ms:0")
+_TRIM: list = []  # glibc's malloc_trim, once looked up (None where there is none)
+
+
+def give_back_freed() -> None:
+    """Give the memory freed so far back to the system: glibc keeps freed chunks of its
+    heap for reuse, and a chunk of a large array freed among small live ones stays in the
+    process (after a large allocation is freed glibc raises its threshold for serving
+    allocations by their own mapping, so later arrays of up to 32 MiB come from the heap).
+    ``malloc_trim(0)`` (glibc) hands back the whole free pages; elsewhere this does nothing.
+    """
+    if not _TRIM:
+        try:
+            _TRIM.append(ctypes.CDLL(None).malloc_trim)
+        except (OSError, AttributeError):
+            _TRIM.append(None)
+    if _TRIM[0] is not None:
+        _TRIM[0](0)
+
+
 def read_blocks(path: str | Path, limit: int, *, what: str = "file") -> list[bytes]:
     """The content of ``path`` (``-``: standard input) as blocks of about
     :data:`BLOCK_BYTES`, each but the last ending with a line feed: at most ``limit``
     bytes in all.
 
     Raises as :func:`read_input` does.  A reader that takes the blocks one by one can let
-    each go once it is read, so that the file is never held whole beside what is made of it.
+    each go once it is read, so that the file is never held whole beside what is made of it
+    (and, if polars is not loaded yet, its allocator is told to give freed pages back at
+    once unless ``_RJEM_MALLOC_CONF`` is set already).
     """
+    os.environ.setdefault(*_POLARS_ALLOCATOR)
     source = str(path)
     blocks: list[bytes] = []
     carry = bytearray()  # read, not yet in a block: a line's start

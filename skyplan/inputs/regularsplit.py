@@ -24,7 +24,7 @@ from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError
-from skyplan.inputs import delimited
+from skyplan.inputs import delimited, readfile
 from skyplan.inputs.catalogtypes import NumberCells
 
 PIECE_BYTES = 1 << 23  # the text split by polars at a time (whole lines)
@@ -148,12 +148,16 @@ def _split(blocks: list[bytes], n: int, header: list[str], delimiter: str,
                 second[p][0].append(rows)
                 second[p][1].append(cells)
             row += count
+            del table
         del block
+        readfile.give_back_freed()
     columns: dict[int, Sequence[str]] = dict(texts)
     for p, values in numbers.items():
         rows_list, cells_list = second.pop(p)
         columns[p] = NumberCells(values, np.concatenate(rows_list),
                                            np.concatenate(cells_list))
+        del rows_list, cells_list
+    readfile.give_back_freed()
     where = np.arange(2, n + 2, dtype=np.int64)
     return delimited.Grid(header, 1, columns, where, long_fields, {}, trimmed, delimiter)
 

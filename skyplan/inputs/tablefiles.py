@@ -5,6 +5,11 @@ XML with a DOCTYPE or entity declaration (checked before astropy parses the file
 pairing of ECSV data rows with their text lines (so messages name lines as an editor shows
 them), and :func:`read_table`, which turns a table into
 :class:`~skyplan.inputs.catalogtypes.Columns` for :mod:`skyplan.inputs.catalogrows` to check.
+
+Memory (docs/errors.md, "Input limits"): a FITS file is mapped, not read, so that only the
+columns used are loaded; an ECSV file of more than :data:`ECSV_MAX_CELLS` cells and a
+VOTable of more than :data:`VOTABLE_MAX_BYTES` are refused before astropy parses them;
+fixed-width texts become ``StringDType`` columns without a Python string per row.
 """
 
 from __future__ import annotations
@@ -12,9 +17,10 @@ from __future__ import annotations
 import io
 import warnings
 from collections.abc import Sequence
-from typing import Any
+from typing import Any, BinaryIO
 
 import numpy as np
+from numpy.dtypes import StringDType
 
 from skyplan import notices
 from skyplan.errors import InputError
@@ -31,6 +37,12 @@ ASTROPY_FORMATS = {
     ".fit": ("fits", "FITS"),
     ".fts": ("fits", "FITS"),
 }
+
+# astropy's readers hold much more than the file for ECSV (a Python object per cell, about
+# 200 bytes) and VOTable (the file's bytes beside the parsed table): the largest each reads
+# within the memory rule of docs/errors.md ("Input limits"), measured in docs/performance.md.
+ECSV_MAX_CELLS = 500_000  # data lines times declared columns
+VOTABLE_MAX_BYTES = 80 << 20
 
 # Units of numeric columns in astropy tables (astropy unit strings).
 _UNITS = {
@@ -98,6 +110,19 @@ def _refuse_wide(data: bytes, fmt: str, source: str) -> None:
                          f"{delimited.MAX_COLUMNS} are read", file=source)
 
 
+def _refuse_large_ecsv(data: bytes, source: str) -> None:
+    """Refuse an ECSV file of more than :data:`ECSV_MAX_CELLS` cells (lines that are not
+    comments, the column-name line aside, times the declared columns), before astropy
+    parses it."""
+    columns = sum(data.count(mark) for mark in _COLUMN_MARKS["ascii.ecsv"])
+    comments = data.count(b"\n#") + data.startswith(b"#")
+    lines = data.count(b"\n") + (not data.endswith(b"\n")) - comments - 1
+    if lines * columns > ECSV_MAX_CELLS:
+        raise InputError(f"an ECSV table of {lines} rows and {columns} columns; at most "
+                         f"{ECSV_MAX_CELLS} cells (rows x columns) are read as ECSV: save a "
+                         "larger catalogue as CSV or FITS", file=source)
+
+
 def _ecsv_data_lines(text: str, n_rows: int) -> np.ndarray | None:
     """Lines of the data rows of an ECSV file, or None if rows and lines do not pair up."""
     numbers = [
@@ -138,10 +163,27 @@ def _column_values(
                     field=header,
                 ) from None
         return numbers
+    data = np.ma.getdata(column, subok=False)
+    # fixed-width text: converted at once, without a string per row (bytes if all ASCII;
+    # else one by one, so that a row that is not UTF-8 is named)
+    if kind == "U" or (kind == "S" and _ascii(data)):
+        texts = data.astype(StringDType())
+        texts[mask] = ""
+        return texts
+    return _texts_one_by_one(data, mask, header, problems)
+
+
+def _ascii(data: np.ndarray) -> bool:
+    """Whether every byte of a column of fixed-width bytes is ASCII."""
+    return bool((np.ascontiguousarray(data).view(np.uint8) < 0x80).all())
+
+
+def _texts_one_by_one(data: np.ndarray, mask: np.ndarray, header: str,
+                      problems: dict) -> list[str]:
+    """The texts of a column of objects, or of bytes some of which are not UTF-8 (recorded
+    in ``problems``), one row at a time."""
     texts = []
-    for i, (value, masked) in enumerate(
-        zip(np.ma.getdata(column, subok=False).tolist(), mask.tolist(), strict=True)
-    ):
+    for i, (value, masked) in enumerate(zip(data.tolist(), mask.tolist(), strict=True)):
         if masked:
             texts.append("")
         elif isinstance(value, bytes):
@@ -155,14 +197,19 @@ def _column_values(
     return texts
 
 
-def read_table(data: bytes, source: str, fmt: str, label: str) -> Columns:
-    """The raw columns of an astropy-read table from the file's bytes (``fmt`` for astropy,
-    ``label`` for messages)."""
+def read_table(data: bytes | BinaryIO, source: str, fmt: str, label: str) -> Columns:
+    """The raw columns of an astropy-read table from the file's bytes, or for FITS from a
+    handle on the file (``fmt`` for astropy, ``label`` for messages).  A FITS file given by
+    its handle is mapped into memory, so that only the pages of the columns read are loaded
+    (and copied into the catalogue's columns)."""
     text = None
-    _refuse_wide(data, fmt, source)
+    mapped = not isinstance(data, bytes)
+    if not mapped:
+        _refuse_wide(data, fmt, source)
     if fmt == "votable":
         _refuse_xml_declarations(data, source)
     elif fmt == "ascii.ecsv":
+        _refuse_large_ecsv(data, source)
         try:
             text = data.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
@@ -174,8 +221,9 @@ def read_table(data: bytes, source: str, fmt: str, label: str) -> Columns:
         warnings.simplefilter("always")
         try:
             # text with a line break is read as the table itself, never as a file name
-            given = io.BytesIO(data) if text is None else text.rstrip("\n") + "\n"
-            table = Table.read(given, format=fmt)
+            given = data if mapped else (
+                io.BytesIO(data) if text is None else text.rstrip("\n") + "\n")
+            table = Table.read(given, format=fmt, **({"memmap": True} if mapped else {}))
         except Exception as exc:  # noqa: BLE001 -- astropy raises many types on bad files
             message = " ".join(str(exc).split())[:200] or type(exc).__name__
             raise InputError(f"cannot read as {label}: {message}", file=source) from None
@@ -196,8 +244,9 @@ def read_table(data: bytes, source: str, fmt: str, label: str) -> Columns:
     else:
         where, in_lines = lines, True
     for key in ("name", "notes"):
-        for i, text in enumerate(values.get(key, ())):
-            if len(str(text)) > delimited.MAX_FIELD_CHARS:
-                problems.setdefault(i, []).append((headers[key], too_long(len(str(text)))))
+        if key in values:
+            sizes = np.strings.str_len(np.asarray(values[key], dtype=StringDType()))
+            for i in np.flatnonzero(sizes > delimited.MAX_FIELD_CHARS).tolist():
+                problems.setdefault(i, []).append((headers[key], too_long(int(sizes[i]))))
     return Columns(source, headers, values, where, in_lines, ignored, problems)
 
