@@ -520,3 +520,42 @@ def test_ra_in_hours_gets_a_notice(tmp_path: Path) -> None:
 ])
 def test_no_ra_notice_on_ordinary_data(tmp_path: Path, body: str) -> None:
     assert _ra_notices(tmp_path, body) == []
+
+
+def test_the_windows_command_on_a_large_catalogue_keeps_to_the_memory_rule(
+    tmp_path: Path,
+) -> None:
+    # The whole command, not the reader alone: 100,000 targets (about 4 MB) through
+    # `windows -f json --out`.  With the windows computed 20,000 targets at a time the
+    # command peaked at about 250 MiB against 3 x the size + 200 MiB (212 MiB); 5,000 at a
+    # time it holds about 165 MiB.  Peak from the child's VmHWM (ru_maxrss without /proc).
+    rng = np.random.default_rng(33)
+    n = 100_000
+    ra = rng.uniform(0.0, 360.0, n)
+    dec = np.degrees(np.arcsin(rng.uniform(-0.6, 1.0, n)))
+    path = tmp_path / "big.csv"
+    path.write_text("name,ra,dec\n" + "".join(
+        f"T{i},{a:.5f},{d:.5f}\n" for i, (a, d) in enumerate(zip(ra, dec, strict=True))))
+    out = tmp_path / "w.json"
+    script = textwrap.dedent(f"""
+        import resource, sys
+        from skyplan.cli.app import main
+        try:
+            main(["windows", {str(path)!r}, "--site", "38.2,-2.9,1300", "--date",
+                  "2026-12-18", "--moon-gap", "20", "-f", "json", "--out", {str(out)!r},
+                  "--quiet"])
+        except SystemExit as exc:
+            code = exc.code
+        try:
+            with open("/proc/self/status") as status:
+                peak = next(line.split()[1] for line in status if line.startswith("VmHWM"))
+        except OSError:
+            peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        print(code, peak, file=sys.stderr)
+    """)
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          timeout=120, check=True)
+    code, peak_kib = done.stderr.strip().splitlines()[-1].split()
+    assert code in ("0", "None")
+    assert out.stat().st_size > 1_000_000
+    assert int(peak_kib) * 1024 <= 3 * path.stat().st_size + 200 * 2**20

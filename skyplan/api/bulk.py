@@ -24,7 +24,9 @@ if TYPE_CHECKING:
     from skyplan.inputs.orbits import OrbitElements
     from skyplan.inputs.sites import Site
 
-BLOCK = 20_000  # targets computed (and then written) at a time
+# targets computed (and then written) at a time: 5,000 keeps a whole `windows` run within
+# 3 x the catalogue's size + 200 MiB (20,000 at a time: 250 MiB at 100,000 targets, 0.1 s faster)
+BLOCK = 5_000
 
 
 @dataclass(frozen=True)
