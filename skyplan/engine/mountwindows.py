@@ -8,6 +8,13 @@ splits into two overlapping pieces, the pier-west piece (H ≤ +past_west) and t
 piece (H ≥ −past_east): an exposure that lies wholly inside one piece never meets the flip.
 Hour angles come from the positions of :class:`skyplan.engine.sky.Sky` (closed form for fixed
 targets, sampled and refined for bodies), as for the hour-angle limit.
+
+An alt-azimuth mount's cable wrap [az_min, az_max] at least a turn wide reaches every
+azimuth, but a track that crosses az_min (modulo 360°) fits only when the wrap is wider than
+a turn by the track's own sweep.  Below :data:`WRAP_SPLIT_BELOW_DEG` of width each window
+therefore splits into two overlapping pieces, on the arcs az_min .. az_min + 270° and
+az_min + 90° .. az_min + 360°: a track wholly on one arc never crosses az_min, so some reading
+az + 360° k holds it inside the wrap, and every track sweeping less than 90° lies on one.
 """
 
 from __future__ import annotations
@@ -22,6 +29,9 @@ from skyplan.engine.limitintervals import ha_intervals, hour_angle_margin, sampl
 from skyplan.engine.sky import SIDEREAL_RATE, Sky
 
 SIDES = ("west", "east")  # the pier sides, in the order of PierPieces.side
+# A wrap this much wider than a turn holds any track sweeping less than the excess (far more
+# than an exposure sweeps below the zenith keyhole), so its windows are not split.
+WRAP_SPLIT_BELOW_DEG = 450.0
 
 
 @dataclass(frozen=True)
@@ -51,6 +61,21 @@ def pier_pieces(sky: Sky, windows: Intervals, past_east_rad: float, past_west_ra
         start=np.concatenate([p.start for p, _ in out]),
         end=np.concatenate([p.end for p, _ in out]),
         side=np.concatenate([np.full(len(p), s, dtype=np.int8) for p, s in out]))
+
+
+def wrap_pieces(sky: Sky, windows: Intervals, wrap_deg: tuple[float, float],
+                span: tuple[float, float]) -> Intervals:
+    """``windows`` split for a cable wrap from one turn to :data:`WRAP_SPLIT_BELOW_DEG` wide
+    (the module's text): pieces of one row may overlap; other wraps leave them as they are."""
+    lo, hi = wrap_deg
+    if not 360.0 <= hi - lo < WRAP_SPLIT_BELOW_DEG or len(windows) == 0:
+        return windows
+    rows = np.unique(windows.rows)
+    parts = [intersect(windows, az_wrap_intervals(sky, rows, arc, span))
+             for arc in ((lo, lo + 270.0), (lo + 90.0, lo + 360.0))]
+    return Intervals.build(np.concatenate([p.rows for p in parts]),
+                           np.concatenate([p.start for p in parts]),
+                           np.concatenate([p.end for p in parts]))
 
 
 def az_rate_intervals(sky: Sky, rows: np.ndarray, rate_max_deg_s: float, span) -> Intervals:

@@ -217,6 +217,8 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     pieces = wins
     if slew.german:
         pieces = mountwindows.pier_pieces(res.sky, wins, *slew.past_meridian_rad, res.span)
+    elif slew.wrap_deg is not None:  # no visit across the end of a wrap about a turn wide
+        pieces = mountwindows.wrap_pieces(res.sky, wins, slew.wrap_deg, res.span)
     keep = has[pieces.rows]
     exp = np.where(np.isfinite(exposure_s[idx]), exposure_s[idx], overheads.default_exposure_s)
     req = model.PlanRequest(
@@ -242,14 +244,16 @@ def make_night_plan(res, priority: np.ndarray, exposure_s: np.ndarray, overheads
     for j, code in sorted(plan.not_placed.items()):
         text = SCHEDULER_TEXT.get(code, code)
         if code in ("no_room", "poor_airmass"):
-            text = _left_out_text(req, plan, j, code, idx, res.names, zone)
+            text = _left_out_text(req, plan, j, code, idx, res.names, zone,
+                                  options.airmass_slack)
         missing.append((int(idx[j]), code, text))
     missing.sort(key=lambda m: (-int(priority[m[0]]), m[0]))
     short = [(int(idx[j]), got, asked) for j, (got, asked) in sorted(plan.repeats_short.items())]
     return NightPlan(visits, missing, plan.metrics, overheads, res, priority, short)
 
 
-def _left_out_text(req, plan, j: int, code: str, idx, names, zone) -> str:
+def _left_out_text(req, plan, j: int, code: str, idx, names, zone,
+                   slack: float | None) -> str:
     """Why target ``j`` (request index) got no visit, in the observer's words."""
     lo, hi = float(req.slot_unix[0]), float(req.slot_unix[-1])
     taken = reasons.taken_by(
@@ -281,10 +285,18 @@ def _left_out_text(req, plan, j: int, code: str, idx, names, zone) -> str:
         lead = req.slew.settle_s + req.setup_s
         low = reasons.lowest_airmass_free(taken.free, req.slot_unix, req.airmass[j], lead,
                                           float(req.exposure_s[j]))
-        text += (f"; the free time left there is at air mass {low:.2f} or more, against "
-                 f"{req.best_airmass[j]:.2f} at its best: more than the slack allows below "
-                 "the top priority (see --airmass-slack)" if np.isfinite(low) else
-                 "; the free time left is only at poor airmass (see --airmass-slack)")
+        best = float(req.best_airmass[j])
+        if np.isfinite(low) and slack is not None and low <= best * (1.0 + slack) + 1e-9:
+            mount = (" the mount could follow (its cable wrap)" if req.slew.wrap_deg is not None
+                     else " the mount could follow (its pier-side limits)" if req.slew.german
+                     else " once the slews to and from it are counted")
+            text += (f"; the free time left there reaches air mass {low:.2f} (its best "
+                     f"{best:.2f}), but holds no visit{mount}")
+        else:
+            text += (f"; the free time left there is at air mass {low:.2f} or more, against "
+                     f"{best:.2f} at its best: more than the slack allows below "
+                     "the top priority (see --airmass-slack)" if np.isfinite(low) else
+                     "; the free time left is only at poor airmass (see --airmass-slack)")
     elif who and free_min >= 1.0 and free_min < visit_min:
         text += (f"; the longest free stretch left, {free_min:.0f} min, is shorter than a visit "
                  f"with its slew ({visit_min:.0f} min or more)")

@@ -15,8 +15,10 @@ Overlapping time-critical visits go by priority (then the earlier).  The visits 
 their time, with the setup and the longest slew the mount can make (a flip included) before
 them and the longest slew after them, and the night's other targets
 are planned in what is left by the usual objective (:func:`skyplan.planning.build.make_night_plan`);
-the time-critical targets are not planned again there.  Every time-critical target that got
-no visit is listed with why.  Loops run over tonight's few occurrences, never the catalogue.
+the time-critical targets are not planned again there.  On an alt-azimuth mount with a cable
+wrap a visit is taken only where its whole azimuth track fits inside the wrap on one turn.
+Every time-critical target that got no visit is listed with why.  Loops run over tonight's
+few occurrences, never the catalogue.
 """
 
 from __future__ import annotations
@@ -30,11 +32,15 @@ import numpy as np
 from skyplan.engine import mountwindows, timedevents
 from skyplan.engine.catch import within
 from skyplan.engine.intervals import Intervals, complement, intersect
+from skyplan.engine.mount import wrap_turns
 from skyplan.errors import NothingObservable
 from skyplan.inputs.ephemerides import Ephemerides
 from skyplan.planning import build, emptynight, model, mountfit, replan
 
 FIT_TOL_S = 1.0  # window edges are found to 0.5 s
+WRAP_STEP_S = 60.0  # a visit's azimuth track is sampled this often to find its extent
+WRAP_REASON = ("its track would run past an end of the cable wrap (see the mount's "
+               "az_min_deg and az_max_deg)")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -48,26 +54,43 @@ class TimedVisits:
     refused: dict[int, tuple[str, str]]  # target -> (reason code, explanation)
 
 
-def _best_placement(res, rows, s, e, need):
-    """For each span [s, e] at least ``need`` long: the start giving the highest altitude at
-    mid-exposure among the span's two ends and the target's transit."""
+def _placements(res, rows, s, e, need):
+    """For each span [s, e] at least ``need`` long, three starts: at the span's start, at its
+    end, and centred on the target's transit (clipped to the span); with the altitude at
+    mid-exposure of each.  Arrays of shape (spans, 3)."""
     latest = e - need
     cands = np.stack([s, latest, np.clip(res.transit[rows] - need / 2, s, latest)], axis=1)
     cands = np.where(np.isfinite(cands), cands, s[:, None])
     alt, _, _ = res.sky.horizon(np.repeat(rows, 3), (cands + need[:, None] / 2).ravel())
-    alt = alt.reshape(-1, 3)
-    pick = np.argmax(alt, axis=1)
-    at = np.arange(len(rows))
-    return cands[at, pick], alt[at, pick]
+    return cands, alt.reshape(-1, 3)
+
+
+def wrap_turns_of(res, wrap: tuple[float, float], row: int, start: float,
+                  end: float) -> tuple[float, float, float]:
+    """For one visit of target ``row`` on an alt-azimuth mount with the cable wrap ``wrap``:
+    the whole turns k putting its whole azimuth track inside the wrap, nearest the wrap's
+    middle (NaN when none does; :func:`skyplan.engine.mount.wrap_turns`), and the azimuth at
+    the exposure's start and end on the track's continuous reading (degrees)."""
+    n = max(int(np.ceil((end - start) / WRAP_STEP_S)), 1) + 1
+    az = np.degrees(np.unwrap(np.radians(
+        res.sky.horizon(np.full(n, row), np.linspace(start, end, n))[1])))
+    k = float(wrap_turns(az[0], az.min(), az.max(), 0.5 * (wrap[0] + wrap[1]), *wrap))
+    return k, float(az[0]), float(az[-1])
 
 
 def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.ndarray,
                  lead_s: float, baseline_s: float, after: float = -np.inf,
-                 windows: Intervals | None = None) -> TimedVisits:
+                 windows: Intervals | None = None,
+                 wrap: tuple[float, float] | None = None) -> TimedVisits:
     """Tonight's time-critical visits (see the module docstring); ``lead_s`` is kept free
     before each (setup and slew); nothing starts before ``after`` (a re-plan's start).
     ``windows``: where a visit may lie (default the targets' windows; for a German mount its
-    pier-side pieces, so that no visit meets the flip)."""
+    pier-side pieces, so that no visit meets the flip).  ``wrap``: an alt-azimuth mount's
+    cable wrap, which must hold each visit's whole azimuth track."""
+
+    def fits(row: int, start: float, end: float) -> bool:
+        return wrap is None or bool(np.isfinite(wrap_turns_of(res, wrap, row, start, end)[0]))
+
     night = res.night
     occ = timedevents.occurrences(timed, res.ra_deg, res.dec_deg, res.sky.site,
                                   night.span_start, night.span_end, exposure_s)
@@ -103,6 +126,9 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
             k = mine[0]
             clash = [j for j in range(len(busy_a)) if a[k] - lead_s < busy_b[j]
                      and busy_a[j] - lead_s < b[k]]
+            if not clash and not fits(int(occ.rows[q]), float(a[k]), float(b[k])):
+                refused.setdefault(int(occ.rows[q]), ("timed_not_observable", WRAP_REASON))
+                continue
             if not clash:
                 chosen.append((q, float(a[k]), float(b[k])))
                 busy_a.append(float(a[k]))
@@ -115,9 +141,16 @@ def timed_visits(res, timed: Ephemerides, priority: np.ndarray, exposure_s: np.n
             free = free[free[:, 1] - free[:, 0] >= need - FIT_TOL_S]
             if len(free):
                 rows_q = np.full(len(free), occ.rows[q])
-                start, alt = _best_placement(res, rows_q, free[:, 0], free[:, 1],
-                                             np.full(len(free), need))
-                best = int(np.argmax(alt))
+                start, alt = _placements(res, rows_q, free[:, 0], free[:, 1],
+                                         np.full(len(free), need))
+                start, alt = start.ravel(), alt.ravel()
+                # the highest placement whose track the mount can follow
+                best = next((j for j in np.argsort(-alt, kind="stable").tolist()
+                             if fits(int(occ.rows[q]), float(start[j]), float(start[j] + need))),
+                            None)
+                if best is None:
+                    refused.setdefault(int(occ.rows[q]), ("timed_not_observable", WRAP_REASON))
+                    continue
                 chosen.append((q, float(start[best]), float(start[best] + need)))
                 busy_a.append(float(start[best]))
                 busy_b.append(float(start[best] + need))
@@ -225,7 +258,7 @@ def make_timed_plan(res, priority: np.ndarray, exposure_s: np.ndarray,
     after = -np.inf if rest is None or rest.start_unix is None else \
         rest.start_unix + overheads.setup_s
     tv = timed_visits(res, timed, priority, exp, lead, overheads.timed_baseline_s, after,
-                      wins)
+                      wins, slew.wrap_deg)
     if rest is not None:  # re-planning: nothing before the start, nothing done again
         start = -np.inf if rest.start_unix is None else rest.start_unix
         live = (tv.start - overheads.setup_s >= start) & (rest.done[tv.rows] == 0)
@@ -278,30 +311,40 @@ def _describe(res, tv: TimedVisits, priority, overheads) -> list:
                           overheads.setup_s, float(tv.start[k]), float(tv.end[k]), np.nan)
               for k in range(len(tv.rows))]
     described = build.describe_visits(res, visits, tv.rows, priority, tv.end - tv.start,
-                                      overheads, _pier_sides(res, tv, overheads))
+                                      overheads, _mount_states(res, tv, overheads))
     return [dataclasses.replace(v, timed=True, epoch_number=None if not np.isfinite(e)
                                 else int(e)) for v, e in zip(described, tv.epoch, strict=True)]
 
 
 
-def _pier_sides(res, tv: TimedVisits, overheads) -> mountfit.MountState | None:
-    """For a German mount, the pier side of each time-critical visit: the side whose
+def _mount_states(res, tv: TimedVisits, overheads) -> mountfit.MountState | None:
+    """The mount's state along each time-critical visit.  A German mount: the side whose
     hour-angle range holds the whole exposure (the visits were placed inside one), the usual
-    side (west while the target is east of the meridian) when both do."""
+    side (west while the target is east of the meridian) when both do.  An alt-azimuth mount
+    with a cable wrap: the axis's readings at the exposure's start and end, on the turn that
+    keeps the whole track inside the wrap nearest its middle (:func:`wrap_turns_of`)."""
     mount = res.sky.site.mount
     slew = overheads.for_mount(mount).slew_model(mount)
-    if not slew.german or len(tv.rows) == 0:
+    n = len(tv.rows)
+    if not (slew.german or slew.wrap_deg is not None) or n == 0:
         return None
-    past_east, past_west = slew.past_meridian_rad
-    ha0 = _wrapped(res.sky.horizon(tv.rows, tv.start)[2])
-    ha1 = _wrapped(res.sky.horizon(tv.rows, tv.end)[2])
-    west_ok = (ha1 >= ha0) & (ha1 <= past_west + 1e-6)
-    east_ok = (ha1 >= ha0) & (ha0 >= -past_east - 1e-6)
-    usual_east = ha0 > 0
-    east = east_ok & (usual_east | ~west_ok)
-    side = np.where(east, 1, np.where(west_ok, 0, -1)).astype(np.int8)
-    nan = np.full(len(tv.rows), np.nan)
-    return mountfit.MountState(side, nan, nan.copy())
+    side = np.full(n, -1, dtype=np.int8)
+    az0, az1 = np.full(n, np.nan), np.full(n, np.nan)
+    if slew.german:
+        past_east, past_west = slew.past_meridian_rad
+        ha0 = _wrapped(res.sky.horizon(tv.rows, tv.start)[2])
+        ha1 = _wrapped(res.sky.horizon(tv.rows, tv.end)[2])
+        west_ok = (ha1 >= ha0) & (ha1 <= past_west + 1e-6)
+        east_ok = (ha1 >= ha0) & (ha0 >= -past_east - 1e-6)
+        usual_east = ha0 > 0
+        east = east_ok & (usual_east | ~west_ok)
+        side = np.where(east, 1, np.where(west_ok, 0, -1)).astype(np.int8)
+    if slew.wrap_deg is not None:
+        for j in range(n):  # tonight's few time-critical visits
+            k, a0, a1 = wrap_turns_of(res, slew.wrap_deg, int(tv.rows[j]),
+                                      float(tv.start[j]), float(tv.end[j]))
+            az0[j], az1[j] = a0 + 360.0 * k, a1 + 360.0 * k
+    return mountfit.MountState(side, az0, az1)
 
 
 def _wrapped(ha: np.ndarray) -> np.ndarray:
