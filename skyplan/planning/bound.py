@@ -42,6 +42,16 @@ until it no longer falls.  Certified at every step: ``g`` falls with slope ``-su
 -k_low`` (``k_low`` the fewest variables any solution has), so if ``lb <= 0`` is the
 solver's proven lower bound on ``g(f)``, every solution has mean at least
 ``f + lb / k_low``; a time limit only loosens the floor.
+
+**The levels together** (:func:`joint_excess_floor`).  The same mapping carries a whole plan,
+every level at once, onto a solution of the relaxed model, each variable again at its least
+excess.  A plan with at least ``c_q`` visits at each priority ``q`` and a mean excess of at
+most ``cap`` at every level but ``p`` maps onto a solution with at least ``c_q`` variables
+of each level and ``sum_{v in q} (r_v - cap) x_v <= 0`` for each ``q != p`` (each ``r_v`` is
+at most its visit's excess).  So the least mean ``r`` at level ``p`` over such solutions,
+found and certified by the same Dinkelbach steps with these rows added, is a floor under
+level ``p``'s mean excess for every such plan: when it passes ``cap``, no plan keeping those
+counts has every level within ``cap``.
 """
 
 from __future__ import annotations
@@ -113,8 +123,7 @@ def excess_floor(night: PlanNight, level: int, visits: int, step_s: float,
         return 0.0
     model = timeindexed.relaxed_model(night, step_s, np.ones(night.n))
     keep = night.priority[model.var_target] == level
-    q = 1.0 - (1.0 - model.var_merit[keep]) / merit.AIRMASS_SHARE  # invert merit at w = 1
-    excess = np.maximum((1.0 / q - 1.0) / merit.AIRMASS_STEEPNESS, 0.0)
+    excess = _least_excess(model)[keep]
     duration = None if model.var_duration is None else model.var_duration[keep]
     alone = replace(model, var_target=model.var_target[keep], var_slot=model.var_slot[keep],
                     var_block=model.var_block[keep], var_duration=duration)
@@ -140,6 +149,48 @@ def excess_floor(night: PlanNight, level: int, visits: int, step_s: float,
 
 
 DINKELBACH_STEPS = 12
+
+
+def _least_excess(model: TimeModel) -> np.ndarray:
+    """Each variable's least relative excess, from its merit at weight 1 (merit inverted)."""
+    q = 1.0 - (1.0 - model.var_merit) / merit.AIRMASS_SHARE
+    return np.maximum((1.0 / q - 1.0) / merit.AIRMASS_STEEPNESS, 0.0)
+
+
+def joint_excess_floor(night: PlanNight, level: int, counts: dict[int, int], cap: float,
+                       step_s: float, time_limit_s: float = 60.0) -> float:
+    """The least mean relative airmass excess at priority ``level`` of any plan with at
+    least ``counts[q]`` visits at each priority ``q`` and a mean excess of at most ``cap``
+    at every other priority with ``counts[q] > 0`` (see above); ``nan`` when no solution of
+    the relaxation is found (none exists, or the time limit)."""
+    k_low = counts.get(level, 0)
+    if k_low <= 0:
+        return 0.0
+    model = timeindexed.relaxed_model(night, step_s, np.ones(night.n))
+    excess = _least_excess(model)
+    priority = night.priority[model.var_target]
+    mine = priority == level
+    floors = [(priority == q, c) for q, c in sorted(counts.items()) if c > 0]
+    rows = [(np.where(priority == q, excess - cap, 0.0), -np.inf, 0.0)
+            for q, c in sorted(counts.items()) if c > 0 and q != level]
+    f, floor = 0.0, 0.0
+    for step in range(DINKELBACH_STEPS):
+        priced = replace(model, var_merit=np.where(mine, f - excess, 0.0))
+        got = timeindexed.solve(priced, time_limit_s, integer=True, floors=floors, rows=rows)
+        if not got.found:
+            got = timeindexed.solve(priced, time_limit_s, integer=False, floors=floors,
+                                    rows=rows)
+            if not got.found:
+                return math.nan if f == 0.0 else floor
+        floor = max(floor, f + min(-got.bound, 0.0) / k_low)
+        chosen = got.chosen[mine[got.chosen]]
+        if chosen.size == 0:
+            break
+        ratio = float(excess[chosen].sum() / chosen.size)
+        if step and ratio >= f - 1e-12:
+            break
+        f = ratio
+    return floor
 
 
 def count_bound(night: PlanNight, level: int, floors: dict[int, int], step_s: float,

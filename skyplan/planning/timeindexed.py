@@ -275,13 +275,15 @@ class Solution:
 MIP_GAP = 1e-4
 
 
-def solve(model: TimeModel, time_limit_s: float, integer: bool, floors=()) -> Solution:
+def solve(model: TimeModel, time_limit_s: float, integer: bool, floors=(),
+          rows=()) -> Solution:
     """Maximise the summed merit with HiGHS (``highspy``): a MIP, or its LP relaxation.
 
     Options are fixed (one thread, HiGHS's fixed random seed, relative gap ``MIP_GAP``), so a
     solve that ends inside its time limit is reproducible.  ``floors``: pairs (mask of the
     variables, least count): rows asking at least that many of those variables, after the
-    model's own rows.
+    model's own rows.  ``rows``: triples (coefficient of each variable, lower, upper): any
+    other linear rows, after those.
     """
     m = model.size
     if m == 0:
@@ -314,6 +316,10 @@ def solve(model: TimeModel, time_limit_s: float, integer: bool, floors=()) -> So
     for mask, least in floors:
         cols = np.flatnonzero(mask).astype(np.int32)
         h.addRow(float(least), highs.kHighsInf, cols.size, cols, np.ones(cols.size))
+    for coef, lower, upper in rows:
+        cols = np.flatnonzero(coef).astype(np.int32)
+        h.addRow(float(max(lower, -highs.kHighsInf)), float(min(upper, highs.kHighsInf)),
+                 cols.size, cols, np.asarray(coef, float)[cols])
     h.run()
     info = h.getInfo()
     optimal = h.getModelStatus() == highs.HighsModelStatus.kOptimal
