@@ -67,11 +67,10 @@ def test_random_targets_equal_windows_night_by_night(start, kw) -> None:
     """300 random targets, 40 nights (three blocks of nights, so the horizon profile of a
     block's middle night serves nights 8 days away), every limit of the demo site and
     more: on nights at and between the blocks' edges each target's usable minutes equal
-    ``windows`` on that night, computed on its own, to the minute.  The one exception
-    allowed: a dip below the horizon profile shorter than ``windows``' 5-minute sampling
-    step, which ``windows`` misses and the season (sampled every minute of hour angle,
-    refined to 0.01 s) finds; there the season must equal a 5-second count with the
-    ``windows`` evaluator to 0.25 min, and such pairs stay rare."""
+    ``windows`` on that night, computed on its own, to the minute, with no exception
+    (``windows`` looks between its samples for the profile's narrow peaks,
+    :mod:`skyplan.engine.profiledips`; where a pair ever differs, the season is also
+    checked against a 5-second count with the ``windows`` evaluator to 0.25 min)."""
     site = skyplan.site(demo=True)
     lim = skyplan.limits(site, **kw)
     targets = fixed(300, seed=int(start.replace("-", "")))
@@ -96,7 +95,7 @@ def test_random_targets_equal_windows_night_by_night(start, kw) -> None:
         exceptions += len(off)
         cut += int(np.count_nonzero(res.lost_s["moon"] + res.lost_s["sun"] > 60))
         profiled += int(np.count_nonzero(res.lost_s["horizon"] > 60))
-    assert exceptions <= 0.01 * pairs
+    assert exceptions == 0
     assert cut > 20 and profiled > 20  # the Moon, the Sun and the profile all took time
     assert np.count_nonzero(got.usable_min > 60) > 0.2 * got.usable_min.size
 

@@ -34,7 +34,7 @@ import numpy as np
 
 from skyplan.defaults import RISE_SET_ALT_DEG
 from skyplan.engine import airmass as am
-from skyplan.engine import events, frames
+from skyplan.engine import events, frames, profiledips
 from skyplan.engine import night as night_mod
 from skyplan.engine.intervals import Intervals, intersect
 from skyplan.engine.limitintervals import (
@@ -157,6 +157,9 @@ def compute_windows(targets: TargetSet, site, night: night_mod.Night, limits: Li
         cand = np.unique(pieces["altitude"].rows)
         pieces["horizon"] = sampled(sky, cand, profile_margin(sky, threshold), span,
                                      profile_grid_margin(sky, threshold))
+        still = cand[~sky.moving[cand]]  # and the peaks passed between two samples
+        pieces["horizon"] = profiledips.without_dips(sky, still, threshold,
+                                                     pieces["horizon"], span)
         pieces["horizon"] = pieces["horizon"].union_rows(
             Intervals.whole(np.setdiff1d(rows, cand), span[0], span[1]))
     tr = night.track
