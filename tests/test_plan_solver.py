@@ -257,6 +257,19 @@ def test_taken_by_names_the_visits_over_its_windows_and_the_free_room():
     assert taken.free == [(0.0, 10.0), (260.0, 300.0)]
 
 
+def test_taken_by_merges_the_overlapping_pieces_of_a_window():
+    # A mount splits a window 0-150 into overlapping pieces 0-100 and 50-150 (pier sides or
+    # the two arcs of a cable wrap): one window for the observer, a visit of target 1 over
+    # 60-80 counted once, free 0-60 and 80-150.
+    taken = reasons.taken_by(
+        np.array([0, 0]), np.array([50.0, 0.0]), np.array([150.0, 100.0]),
+        np.array([1]), np.array([60.0]), np.array([80.0]), 0)
+    assert taken.windows == [(0.0, 150.0)]
+    assert taken.blockers == [1]
+    assert taken.free == [(0.0, 60.0), (80.0, 150.0)]
+    assert taken.longest_free_s == pytest.approx(70.0)
+
+
 def test_the_lowest_airmass_left_in_the_free_time():
     # Air mass falling linearly from 2.0 at t = 0 to 1.0 at t = 1000 s (samples every 100 s).
     # A visit leads 70 s (settle + setup) and exposes 60 s, so its middle is 100 s after the

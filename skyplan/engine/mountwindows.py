@@ -66,16 +66,25 @@ def pier_pieces(sky: Sky, windows: Intervals, past_east_rad: float, past_west_ra
 def wrap_pieces(sky: Sky, windows: Intervals, wrap_deg: tuple[float, float],
                 span: tuple[float, float]) -> Intervals:
     """``windows`` split for a cable wrap from one turn to :data:`WRAP_SPLIT_BELOW_DEG` wide
-    (the module's text): pieces of one row may overlap; other wraps leave them as they are."""
+    (the module's text): a window across the wrap's end becomes two overlapping pieces, the
+    others stay as they are; other wraps leave every window as it is."""
     lo, hi = wrap_deg
     if not 360.0 <= hi - lo < WRAP_SPLIT_BELOW_DEG or len(windows) == 0:
         return windows
     rows = np.unique(windows.rows)
     parts = [intersect(windows, az_wrap_intervals(sky, rows, arc, span))
              for arc in ((lo, lo + 270.0), (lo + 90.0, lo + 360.0))]
-    return Intervals.build(np.concatenate([p.rows for p in parts]),
-                           np.concatenate([p.start for p in parts]),
-                           np.concatenate([p.end for p in parts]))
+    r = np.concatenate([p.rows for p in parts])
+    s = np.concatenate([p.start for p in parts])
+    e = np.concatenate([p.end for p in parts])
+    # a piece inside another of its row adds nothing: only windows across the wrap's end
+    # keep two (overlapping) pieces, the others stay whole and single
+    order = np.lexsort((-e, s, r))
+    r, s, e = r[order], s[order], e[order]
+    reach = np.maximum.accumulate(r * 1e7 + (e - span[0]))  # per row: rows are sorted
+    inside = np.concatenate([[False], (reach[:-1] >= r[1:] * 1e7 + (e[1:] - span[0]) - 1e-3)
+                             & (r[:-1] == r[1:])])
+    return Intervals(r[~inside], s[~inside], e[~inside])
 
 
 def az_rate_intervals(sky: Sky, rows: np.ndarray, rate_max_deg_s: float, span) -> Intervals:

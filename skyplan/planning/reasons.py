@@ -35,7 +35,13 @@ def taken_by(
     """Which visits fill the windows of ``target``, and the free stretches left there."""
     own = np.flatnonzero(np.asarray(win_target) == target)
     order = own[np.argsort(np.asarray(win_start)[own], kind="stable")]
-    wins = [(float(win_start[k]), float(win_end[k])) for k in order]
+    wins: list[tuple[float, float]] = []
+    for k in order:  # pieces of one window (a mount's pier sides, its wrap) overlap: merged
+        a, b = float(win_start[k]), float(win_end[k])
+        if wins and a <= wins[-1][1]:
+            wins[-1] = (wins[-1][0], max(wins[-1][1], b))
+        else:
+            wins.append((a, b))
     overlap: dict[int, float] = {}
     free: list[tuple[float, float]] = []
     vs, ve = np.asarray(visit_start, float), np.asarray(visit_end, float)
