@@ -14,51 +14,28 @@ import math
 
 import numpy as np
 import pytest
-from test_plan_solver import tiny_request
+from test_plan_solver import each_plan, tiny_request
 from test_scheduling import curve_request
 
-from skyplan.planning import realise
 from skyplan.planning.bound import excess_floor, joint_excess_floor
 from skyplan.planning.model import PlanNight, PlanOptions
 
 
 def top_excess_by_enumeration(req, step_s=60.0) -> dict[tuple[int, frozenset], float]:
-    """For every (top-level visits, top-level targets placed) of any plan: the least summed
-    relative excess of its top-level visits.  Every plan of every target is grown, so the
-    lower levels take room and change slews as they would in a real plan."""
+    """For every (top-level visits, top-level targets placed) of any plan
+    (:func:`test_plan_solver.each_plan`): the least summed relative excess of its top-level
+    visits.  Every plan of every target is grown, so the lower levels take room and change
+    slews as they would in a real plan."""
     night = PlanNight(req, PlanOptions(airmass_slack=None))
     top = night.priority[night.active].max()
-    n = night.n
-    starts = np.arange(night.t0, night.t1, step_s)
     best: dict[tuple[int, frozenset], float] = {}
 
-    def grow(prev, t, done, last, k, placed, total):
-        key = (k, frozenset(placed))
-        best[key] = min(best.get(key, math.inf), total)
-        for i in range(n):
-            if not night.active[i] or done[i] >= night.repeats[i]:
-                continue
-            for s in starts[starts >= t - 1e-9]:
-                if s - last[i] < night.spacing_s[i] - 1e-6:
-                    continue
-                slew = night.slew.settle_s if prev < 0 else realise.slew_at(night, prev, i, s)
-                end = s + slew + night.setup_s + night.exposure_s[i]
-                own = night.win_target == i
-                if not np.any((night.win_start[own] <= s + 1e-6)
-                              & (night.win_end[own] >= end - 1e-6)):
-                    continue
-                x = float(night.airmass_at(np.array([i]),
-                                           np.array([end - night.exposure_s[i] / 2]))[0])
-                is_top = night.priority[i] == top
-                r = max(x / night.best_airmass[i] - 1.0, 0.0) if is_top else 0.0
-                done[i] += 1
-                saved, last[i] = last[i], s
-                grow(i, end, done, last, k + is_top, placed | ({i} if is_top else set()),
-                     total + r)
-                done[i] -= 1
-                last[i] = saved
+    def keep(path):
+        mine = [(i, r) for i, r in path if night.priority[i] == top]
+        key = (len(mine), frozenset(i for i, _ in mine))
+        best[key] = min(best.get(key, math.inf), sum(r for _, r in mine))
 
-    grow(-1, night.t0, np.zeros(n, int), np.full(n, -np.inf), 0, set(), 0.0)
+    each_plan(req, keep, step_s)
     return best
 
 
@@ -105,41 +82,19 @@ def test_the_floor_is_below_every_plan(case):
 
 
 def outcomes_by_enumeration(req, step_s=60.0) -> set[tuple]:
-    """Every plan of a small night (as :func:`top_excess_by_enumeration`: every order, every
-    start on a 1-minute grid, the real slews), reduced to its visits and summed relative
-    excess at each priority level: a set of tuples ((level, visits, summed excess), ...)."""
+    """Every plan of a small night (:func:`test_plan_solver.each_plan`) reduced to its visits
+    and summed relative excess at each priority level: a set of tuples ((level, visits,
+    summed excess), ...)."""
     night = PlanNight(req, PlanOptions(airmass_slack=None))
     levels = sorted(set(night.priority[night.active].tolist()))
-    n = night.n
-    starts = np.arange(night.t0, night.t1, step_s)
     seen: set[tuple] = set()
 
-    def grow(prev, t, done, last, k, total):
-        seen.add(tuple((q, k[q], round(total[q], 12)) for q in levels))
-        for i in range(n):
-            if not night.active[i] or done[i] >= night.repeats[i]:
-                continue
-            for s in starts[starts >= t - 1e-9]:
-                if s - last[i] < night.spacing_s[i] - 1e-6:
-                    continue
-                slew = night.slew.settle_s if prev < 0 else realise.slew_at(night, prev, i, s)
-                end = s + slew + night.setup_s + night.exposure_s[i]
-                own = night.win_target == i
-                if not np.any((night.win_start[own] <= s + 1e-6)
-                              & (night.win_end[own] >= end - 1e-6)):
-                    continue
-                x = float(night.airmass_at(np.array([i]),
-                                           np.array([end - night.exposure_s[i] / 2]))[0])
-                q = int(night.priority[i])
-                done[i] += 1
-                saved, last[i] = last[i], s
-                grow(i, end, done, last, {**k, q: k[q] + 1},
-                     {**total, q: total[q] + max(x / night.best_airmass[i] - 1.0, 0.0)})
-                done[i] -= 1
-                last[i] = saved
+    def keep(path):
+        seen.add(tuple((q, sum(1 for i, _ in path if night.priority[i] == q),
+                        round(sum(r for i, r in path if night.priority[i] == q), 12))
+                       for q in levels))
 
-    grow(-1, night.t0, np.zeros(n, int), np.full(n, -np.inf), dict.fromkeys(levels, 0),
-         dict.fromkeys(levels, 0.0))
+    each_plan(req, keep, step_s)
     return seen
 
 

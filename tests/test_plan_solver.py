@@ -408,18 +408,19 @@ def test_the_bound_stays_above_every_plan_with_the_lagrangian_grid_capped(
         assert plan.metrics.gap >= 1.0 - value / best - 1e-9
 
 
-def count_vectors_by_enumeration(req, step_s=60.0) -> set[tuple[int, ...]]:
-    """The visits per priority level (lowest level first) of every plan whose starts lie on
-    a ``step_s`` grid: every order, start, slew, window and spacing as in
-    :func:`best_plan_by_enumeration`."""
+def each_plan(req, on_plan, step_s: float = 60.0, earliest: bool = False) -> None:
+    """Call ``on_plan(path)`` for every plan whose starts lie on a ``step_s`` grid, ``path``
+    its visits so far as (target, relative excess X / X_best - 1 at mid-exposure, >= 0):
+    every order, every start (only the earliest of each visit with ``earliest``: a later
+    start ends later, slews changing slower than the clock), the real slews of the slew
+    model, windows, repeats and spacing."""
     night = PlanNight(req, PlanOptions(airmass_slack=None))
-    levels = sorted(set(night.priority[night.active].tolist()))
     n = night.n
     starts = np.arange(night.t0, night.t1, step_s)
-    seen: set[tuple[int, ...]] = set()
+    path: list[tuple[int, float]] = []
 
     def grow(prev, t, done, last):
-        seen.add(tuple(int(done[night.priority == q].sum()) for q in levels))
+        on_plan(path)
         for i in range(n):
             if not night.active[i] or done[i] >= night.repeats[i]:
                 continue
@@ -432,14 +433,33 @@ def count_vectors_by_enumeration(req, step_s=60.0) -> set[tuple[int, ...]]:
                 if not np.any((night.win_start[own] <= s + 1e-6)
                               & (night.win_end[own] >= end - 1e-6)):
                     continue
+                x = float(night.airmass_at(np.array([i]),
+                                           np.array([end - night.exposure_s[i] / 2]))[0])
                 done[i] += 1
                 saved, last[i] = last[i], s
+                path.append((i, max(x / night.best_airmass[i] - 1.0, 0.0)))
                 grow(i, end, done, last)
+                path.pop()
                 done[i] -= 1
                 last[i] = saved
-                break  # a later start ends later (slews change slower than the clock)
+                if earliest:
+                    break
 
     grow(-1, night.t0, np.zeros(n, int), np.full(n, -np.inf))
+
+
+def count_vectors_by_enumeration(req, step_s=60.0) -> set[tuple[int, ...]]:
+    """The visits per priority level (lowest level first) of every plan whose starts lie on
+    a ``step_s`` grid (:func:`each_plan`, earliest starts)."""
+    night = PlanNight(req, PlanOptions(airmass_slack=None))
+    levels = sorted(set(night.priority[night.active].tolist()))
+    seen: set[tuple[int, ...]] = set()
+
+    def count(path):
+        got = [night.priority[i] for i, _ in path]
+        seen.add(tuple(int(sum(1 for p in got if p == q)) for q in levels))
+
+    each_plan(req, count, step_s, earliest=True)
     return seen
 
 
