@@ -189,7 +189,13 @@ def _zone_finder() -> object | None:
         from timezonefinder import TimezoneFinder
     except ImportError:
         return None
-    return TimezoneFinder()
+    finder = TimezoneFinder()
+    cleanup = getattr(finder, "cleanup", None)
+    if cleanup is not None:  # close its mapped files ourselves, not in the final clean-up
+        import atexit
+
+        atexit.register(cleanup)
+    return finder
 
 
 def zone_at(lat_deg: float, lon_deg: float) -> str:
