@@ -113,7 +113,10 @@ def measure(python: str, args: list[str], *, interval_s: float = 0.001,
         os.close(go_r)
         try:
             peak = _sample(child, done_r, interval_s, start + timeout_s)
-            os.write(go_w, b"x")
+            try:
+                os.write(go_w, b"x")
+            except BrokenPipeError:
+                pass  # it ended without reaching the wrapper's end (killed, crashed)
             child.wait(timeout=max(1.0, start + timeout_s - time.perf_counter()))
         finally:
             os.close(done_r)
