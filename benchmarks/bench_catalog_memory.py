@@ -11,10 +11,11 @@ decimal degrees, ``sexagesimal`` a CSV of name, ra, dec written ``05:35:17.3,-05
 ``fits``, ``votable`` or ``ecsv`` a table written by astropy; from a child process so
 that this process stays small (Linux carries a parent's high-water mark into a child it
 starts, so a large parent would inflate the children's figures).  Then, ``--repeat``
-times each, it runs in a child
-process and reports for that child alone (``os.wait4``): ``read_catalog`` on the file, and
-``skyplan windows FILE --site ... -f csv --out OUT`` (interpreter start included): the best
-wall time and the largest peak resident memory (``ru_maxrss``).
+times each, it runs in a child process: ``read_catalog`` on the file, and
+``skyplan windows FILE --site ... -f csv --out OUT`` (interpreter start included), and
+reports the best wall time and, for that child alone, the largest peak resident memory
+(``VmHWM``) and the largest peak of its private (anonymous) memory, measured as
+``tests/memorypeak.py`` says (Linux only).
 """
 
 from __future__ import annotations
@@ -29,6 +30,9 @@ import tempfile
 import textwrap
 import time
 from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
+from memorypeak import MIB, measure  # noqa: E402  (the tests' measure of peak memory)
 
 SITE = "38.2,-2.9,1300"
 GOAL_MIB = 200  # plus 3 x the file's size
@@ -111,32 +115,24 @@ KINDS = {
 READER = "import sys\nfrom skyplan.inputs.catalog import read_catalog\nread_catalog(sys.argv[1])\n"
 
 
-def run_child(argv: list[str]) -> tuple[int, float, resource.struct_rusage, str]:
-    """Run a command; return (exit status, wall seconds, its rusage, its stderr)."""
-    with tempfile.TemporaryFile() as err:
-        start = time.perf_counter()
-        child = subprocess.Popen(argv, stdout=subprocess.DEVNULL, stderr=err)
-        _, status, usage = os.wait4(child.pid, 0)
-        wall = time.perf_counter() - start
-        err.seek(0)
-        return os.waitstatus_to_exitcode(status), wall, usage, err.read().decode(errors="replace")
-
-
-def report(label: str, argv: list[str], repeat: int, goal_mib: float) -> None:
-    runs = [run_child(argv) for _ in range(repeat)]
-    statuses = {r[0] for r in runs}
+def report(label: str, args: list[str], repeat: int, goal_mib: float) -> None:
+    """Run ``python args`` ``repeat`` times; print the best wall time and the largest peaks."""
+    runs = [measure(sys.executable, args) for _ in range(repeat)]
+    statuses = {r.status for r in runs}
     if statuses != {0}:
         print(f"{label}: FAILED, exit status {sorted(statuses)}:",
-              *runs[0][3].strip().splitlines()[-3:], sep="\n    ")
+              *runs[0].stderr.strip().splitlines()[-3:], sep="\n    ")
         return
-    best = min(r[1] for r in runs)
-    peak = max(r[2].ru_maxrss for r in runs) / 1024
-    verdict = "met" if peak <= goal_mib else "NOT met"
-    print(f"{label}: wall {best:.1f} s "
-          f"best of {repeat} (all: {', '.join(f'{r[1]:.1f}' for r in runs)}); "
-          f"peak {peak:.0f} MiB (largest); goal {goal_mib:.0f} MiB {verdict}")
-    if runs[0][3].strip():
-        print("  stderr:", *runs[0][3].strip().splitlines()[-3:], sep="\n    ")
+    best = min(r.wall_s for r in runs)
+    resident = max(r.resident for r in runs) / MIB
+    private = max(r.private for r in runs) / MIB
+    verdict = "met" if resident <= goal_mib else "NOT met"
+    print(f"{label}: wall {best:.1f} s best of {repeat} "
+          f"(all: {', '.join(f'{r.wall_s:.1f}' for r in runs)}); "
+          f"peak resident {resident:.0f} MiB, private {private:.0f} MiB (largest); "
+          f"goal {goal_mib:.0f} MiB {verdict}")
+    if runs[0].stderr.strip():
+        print("  stderr:", *runs[0].stderr.strip().splitlines()[-3:], sep="\n    ")
 
 
 def main() -> None:
@@ -158,11 +154,10 @@ def main() -> None:
         print(f"catalogue ({args.kind}): {args.rows:,} rows, {size / 2**20:.0f} MiB, written in "
               f"{time.perf_counter() - t0:.1f} s; goal: peak <= 3 x size + {GOAL_MIB} MiB = "
               f"{goal:.0f} MiB")
-        report("read_catalog", [sys.executable, "-c", READER, str(catalogue)], args.repeat,
-               goal)
+        report("read_catalog", ["-c", READER, str(catalogue)], args.repeat, goal)
         out = Path(folder) / "windows.csv"
         report("skyplan windows -f csv --out",
-               [sys.executable, "-m", "skyplan", "windows", str(catalogue), "--site", SITE,
+               ["-m", "skyplan", "windows", str(catalogue), "--site", SITE,
                 "--date", args.date, "-f", "csv", "--out", str(out)], args.repeat, goal)
     load = ", ".join(f"{x:.1f}" for x in os.getloadavg())
     print(f"this process: peak {resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} "

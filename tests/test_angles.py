@@ -210,6 +210,59 @@ def test_column_equals_scalar_for_colon_dec(parts) -> None:
             assert dec[i] == expected
 
 
+def _string_column(texts: list[str]) -> np.ndarray:
+    from numpy.dtypes import StringDType
+
+    return np.array(texts, dtype=StringDType())
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.sampled_from(["", " ", "\t", "\u2003"]),  # white space before and after
+            st.sampled_from(["", "+", "-"]),
+            st.integers(0, 999),
+            st.integers(1, 3),  # digits of the first part
+            st.integers(0, 99),
+            st.integers(0, 99),
+            st.text("0123456789", max_size=18),  # the seconds' fraction
+            st.booleans(),  # with a decimal point
+        ),
+        min_size=1,
+        max_size=30,
+    )
+)
+def test_string_columns_read_at_once_equal_entry_by_entry(parts) -> None:
+    # The CSV readers hand over numpy StringDType columns, read as bytes without a Python
+    # string per entry (skyplan.inputs.colonangles); each value must be bit-identical to the
+    # per-entry parser's (whose arithmetic is checked against astropy above), and each entry
+    # it refuses must be refused.
+    texts = [f"{w}{s}{d:0{k}d}:{m:02d}:{sec:02d}{'.' + frac if dot else ''}{w}"
+             for w, s, d, k, m, sec, frac, dot in parts]
+    for parse_column, parse_one in ((parse_ra_column, parse_ra_deg),
+                                    (parse_dec_column, parse_dec_deg)):
+        values, errors = parse_column(_string_column(texts))
+        as_list, list_errors = parse_column(texts)
+        assert np.array_equal(values, as_list, equal_nan=True) and errors == list_errors
+        for i, text in enumerate(texts):
+            try:
+                expected = parse_one(text)
+            except ValueError:
+                assert i in errors
+            else:
+                assert values[i] == expected and i not in errors
+
+
+@pytest.mark.parametrize("odd", ["12:00:00\x00", "\x0012:00:00", "12:0\x000:00", "12:00:00é",
+                                 "12:00:00 x", "1:2:3:4", "12:00.5:00", "+-1:00:00", "1:2:3.4.5"])
+def test_a_string_column_with_one_odd_entry_is_read_entry_by_entry(odd: str) -> None:
+    texts = ["05:35:17.3"] * 3 + [odd, ""]
+    dec, errors = parse_dec_column(_string_column(texts))
+    assert dec[0] == parse_dec_deg("05:35:17.3") and math.isnan(dec[4])
+    assert 3 in errors  # none of these is an angle the per-entry parser reads
+
+
 def test_decimal_column_fast_path_agrees() -> None:
     # the speed of this path is measured in benchmarks/bench_catalog.py
     values = [f"{x:.6f}" for x in np.random.default_rng(3).uniform(0, 360, 100_000)]

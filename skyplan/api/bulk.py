@@ -5,8 +5,10 @@ intermediate array at once.
 One process does it all: on the project's machine worker processes gained no wall time at
 100,000 targets, and one process meets the speed and memory goals at 100,000 and
 1,000,000 targets (docs/performance.md).  Problems and notices come in the order the
-inputs are read: site (by the caller), limits, date, the night (its data files), the
-elements file, the catalogue.
+inputs are read: site (by the caller), limits, date, the elements file, the catalogue, the
+night (its data files).  The catalogue is read before the night is computed and its
+reader's transient memory is given back first, so that the reading's peak and the
+engine's do not stack (docs/performance.md, "The whole command's memory").
 """
 
 from __future__ import annotations
@@ -84,15 +86,16 @@ def window_inputs(site: Site, limits_kw: dict, *, date: str | None = None,
     ``catalog`` ``-`` is standard input, read as ``input_format``."""
     from skyplan.api.windows import limits
     from skyplan.engine import night
-    from skyplan.inputs import targets
+    from skyplan.inputs import readfile, targets
 
     lim = limits(site, **limits_kw)
-    the_night = night.compute_night(site, night_date(site, date, demo))
+    day = night_date(site, date, demo)
     orbits = read_orbits(elements)
-    path = catalogue_path(catalog, demo)
-    cat = read_catalogue(path, skip_bad, input_format)
+    cat = read_catalogue(catalogue_path(catalog, demo), skip_bad, input_format)
     _, tset = targets.catalog_targets(cat, orbits=orbits, source=cat.source, skip_bad=skip_bad)
-    return WindowRun(site, lim, the_night, tset, orbits)
+    del cat
+    readfile.give_back_freed()  # the reading's transient memory, before the night's arrays
+    return WindowRun(site, lim, night.compute_night(site, day), tset, orbits)
 
 
 def window_result(run: WindowRun) -> WindowResult:

@@ -25,6 +25,8 @@ from collections.abc import Callable, Sequence
 import numpy as np
 import numpy.typing as npt
 
+from skyplan.inputs.colonangles import colon_column
+
 MAX_ANGLE_CHARS = 64  # longer text is refused before any pattern runs
 MAX_PLACES = 9  # decimal places the formatters accept
 
@@ -189,49 +191,6 @@ def _plain_floats(values: Sequence[object]) -> np.ndarray:
     return np.array(floats, dtype=np.float64)
 
 
-# Strict ``±D:M:S[.s]`` lines, for reading whole columns at once (one match per line).
-_STRICT_COLON = re.compile(
-    r"^([+-]?)([0-9]{1,3}):([0-9]{1,2}):([0-9]{1,2}(?:\.[0-9]*)?)$", re.MULTILINE
-)
-
-
-def _colon_column(values: Sequence[object], scale: float, unsigned: bool) -> np.ndarray | None:
-    """Values of a column whose every non-empty entry is strict ``±D:M:S[.s]``, else None.
-
-    One regular-expression pass over the joined column replaces a per-entry parse; the
-    arithmetic is the same as :func:`_read` does, in the same order, so results are equal.
-    Entries that break a rule (minutes or seconds of 60 or more, a sign where ``unsigned``)
-    are left NaN so that the per-entry parser reports them.
-    """
-    try:
-        stripped = list(map(str.strip, values))  # type: ignore[arg-type]
-    except TypeError:
-        return None
-    n = len(stripped)
-    filled = np.flatnonzero(np.fromiter(map(len, stripped), dtype=np.int64, count=n))
-    texts = [stripped[i] for i in filled.tolist()] if len(filled) < n else stripped
-    joined = "\n".join(texts)
-    if joined.count("\n") != len(texts) - 1:
-        return None
-    matches = _STRICT_COLON.findall(joined)
-    if not matches or len(matches) != len(texts):
-        return None
-    signs, first, minutes, seconds = (list(part) for part in zip(*matches, strict=True))
-    negative = np.array(signs) == "-"
-    whole = np.array(first, dtype=np.float64)
-    m = np.array(minutes, dtype=np.float64)
-    sec = np.array(seconds, dtype=np.float64)
-    magnitude = whole + m / 60.0 + sec / 3600.0
-    value = np.where(negative, -magnitude, magnitude) * scale + 0.0
-    broken = (m >= 60) | (sec >= 60)
-    if unsigned:
-        broken |= negative
-    value[broken] = math.nan
-    out = np.full(n, math.nan)
-    out[filled] = value
-    return out
-
-
 def parse_column(
     values: Sequence[object],
     parse_one: Callable[[str], float],
@@ -268,7 +227,7 @@ def parse_column(
         except (TypeError, ValueError):
             out = None
     if (out is None or out.shape != (n,)) and colon_scale is not None:
-        out = _colon_column(values, colon_scale, unsigned)
+        out = colon_column(values, colon_scale, unsigned, MAX_ANGLE_CHARS)
     if out is None or out.shape != (n,):
         out = _plain_floats(values)
     redo = ~np.isfinite(out)
