@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan.planning import realise, repair, timeindexed
+from skyplan.planning import realise, repair, retime, timeindexed
 from skyplan.planning.bound import lagrangian_bound
 from skyplan.planning.merit import priority_weights
 
@@ -47,6 +47,7 @@ LAGRANGIAN_STEPS = 30
 LAGRANGIAN_VARIABLE_BUDGET = 800_000
 GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
 REPAIR_SHARE = 0.15  # of the time limit, at most, for the local repair (measured)
+EXCHANGE_SHARE = 0.15  # of the time limit, at most, for the re-timing and exchange moves
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
 
@@ -187,6 +188,11 @@ def optimise(
         raw = repair.relocate(night, raw, weight, level, until)
         if raw != sorted(best, key=lambda v: (v[1], v[0])):
             best, method, value = _better(night, weight, improve, raw, best, method, value)
+    if deadline - time.monotonic() > 0 and not _close(bound, value):
+        until = min(deadline, time.monotonic() + EXCHANGE_SHARE * time_limit_s)
+        raw = retime.retime_plan(night, best, weight, level)
+        raw = retime.exchange(night, raw, weight, level, until)
+        best, method, value = _better(night, weight, improve, raw, best, method, value)
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))
