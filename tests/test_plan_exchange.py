@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from test_scheduling import assert_valid, curve_request, random_request
 
-from skyplan.planning import merit, realise, repair, retime
+from skyplan.planning import merit, realise, repair, retime, solver
 from skyplan.planning.dispatch import _finish, _improve, make_plan
 from skyplan.planning.model import PlanNight, PlanOptions
 
@@ -100,3 +100,22 @@ def test_re_timing_and_exchange_keep_every_rule_and_never_lose_value(seed):
         for plan in (timed, moved):
             kept = sorted(v[0] for v in plan if level[v[0]])
             assert kept == sorted(v[0] for v in start if level[v[0]])
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_the_loosened_top_level_keeps_every_rule(seed):
+    # The optimiser's last step (solver._loosened): the top level re-timed with the lower
+    # levels light, refilled, re-timed and moved again; every rule holds for the result and
+    # for the light re-timing alone, which keeps every top-priority visit.
+    req = random_request(950 + seed, n=30, hours=6.0)
+    opt = PlanOptions(method="dispatch")
+    night = PlanNight(req, opt)
+    weight = merit.priority_weights(night.priority, night.active)
+    start = raw_visits(make_plan(req, opt))
+    top = solver.top_level(night)
+    assert top is not None
+    light = retime.loosen_top(night, start, weight, top)
+    assert_valid(req, opt, _finish(night, light, "optimal", None))
+    assert sorted(v[0] for v in light if top[v[0]]) == sorted(v[0] for v in start if top[v[0]])
+    got = solver._loosened(night, weight, _improve, start, top, float("inf"))
+    assert_valid(req, opt, _finish(night, got, "optimal", None))

@@ -9,8 +9,9 @@ order are chosen together by dynamic programming over the visits in that order (
 extends to the best plan of the first ``k + 1``):
 
 * each visit's candidate starts are a grid of ``STEP_S`` inside its window (the one it is
-  in) and the free time of the run, and its current start when the order is the plan's own,
-  so the plan given is among the candidates;
+  in) and the free time of the run; when the order is the plan's own, those within
+  ``AROUND_S`` of its current start and that start itself, so the plan given is among the
+  candidates;
 * a state is (end of the last visit placed, value so far); a start ``s`` of visit ``k``
   takes the best value among the states ending by ``s``, with the slew model's slew from
   that state's target at ``s``; a state ending later with no more value is dropped;
@@ -26,8 +27,10 @@ extends to the best plan of the first ``k + 1``):
 visits furthest from their best airmass to another place in the order among its
 neighbours, the run between re-timed (an insertion move, whose run's top visits in effect
 exchange their times; Glover 1996 on ejection chains), and keeps each move that raises the
-plan's value (:func:`realise.plan_value`).  Cost: a run's visits times their candidates
-times ``MAX_SKIP + 1`` slew evaluations, vectorised per visit.
+plan's value (:func:`realise.plan_value`); :func:`loosen_top` re-times a plan as if the
+lower levels weighed almost nothing, so the top level can take the time lower visits held
+(the caller refills them and compares).  Cost: a run's visits times their candidates times
+``MAX_SKIP + 1`` slew evaluations, vectorised per visit.
 """
 
 from __future__ import annotations
@@ -45,11 +48,14 @@ if TYPE_CHECKING:
     from skyplan.planning.model import PlanNight
 
 STEP_S = 10.0  # the candidate starts' grid
+AROUND_S = 900.0  # a whole plan re-timed: candidates this near each visit's start
 MAX_SKIP = 2  # lower-priority visits in a row that may be left out
 MOVED = 12  # top-level visits, the furthest from their best airmass, tried in new places
 REACH = 6  # places before and after its own a visit is tried at
 MARGIN = 2  # visits re-timed on each side of the moved stretch
 MOVE_ABOVE = 0.02  # ... when their airmass is more than this above their best
+LOWER_SHARE = 1e-3  # loosen_top: the lower levels' share of their weight
+WIDE_SKIP = 4  # ... and how many of them in a row may be left out
 _EPS_S = 1e-6
 
 
@@ -99,7 +105,7 @@ def _front(parts: list[tuple]) -> tuple[np.ndarray, ...]:
 
 def _best_times(night: PlanNight, run: list[tuple], others: list[tuple], weight: np.ndarray,
                 keep: np.ndarray, prev: int, free: float, until: float,
-                own: bool) -> list[tuple] | None:
+                own: bool, skip: int) -> list[tuple] | None:
     """The run's visits (in that order) at their best starts after ``free`` (the end of the
     visit of target ``prev`` before, -1 for none), ending by ``until``; None when a visit of
     ``keep`` finds no start."""
@@ -115,9 +121,10 @@ def _best_times(night: PlanNight, run: list[tuple], others: list[tuple], weight:
         i = int(tg[k])
         cand = grid[(grid >= lo[k] - _EPS_S) & (grid <= hi[k] + _EPS_S)]
         if own:
-            cand = np.unique(np.r_[cand, run[k][1]])
+            near = np.abs(cand - run[k][1]) <= AROUND_S
+            cand = np.unique(np.r_[cand[near], run[k][1]])
         parts = []
-        for j in range(k - 1, max(k - 2 - MAX_SKIP, -2), -1):
+        for j in range(k - 1, max(k - 2 - skip, -2), -1):
             if j >= 0:
                 e_j, v_j = states[j][0], states[j][1]  # sorted by end, value rising
                 at = np.searchsorted(e_j, cand + _EPS_S, side="right") - 1
@@ -147,7 +154,7 @@ def _best_times(night: PlanNight, run: list[tuple], others: list[tuple], weight:
         if states[-1][0].size == 0 and not droppable[k]:
             return None
     best_k, best_s, best_v = -1, -1, -np.inf
-    for k in range(n - 1, max(n - 2 - MAX_SKIP, -2), -1):
+    for k in range(n - 1, max(n - 2 - skip, -2), -1):
         if k < 0:  # every visit of the run left out
             best_v = max(best_v, 0.0)
             break
@@ -169,7 +176,8 @@ def _best_times(night: PlanNight, run: list[tuple], others: list[tuple], weight:
 
 
 def retime_run(night: PlanNight, visits: list[tuple], a: int, b: int, run: list[tuple],
-               weight: np.ndarray, keep: np.ndarray, own: bool = False) -> list[tuple] | None:
+               weight: np.ndarray, keep: np.ndarray, own: bool = False,
+               skip: int = MAX_SKIP) -> list[tuple] | None:
     """``visits[:a]``, the visits ``run`` (those of ``visits[a:b]`` in a new order) at their
     best starts, and ``visits[b:]``, the visit at ``b`` with its new slew; None if a visit of
     ``keep`` finds no start or the visit after breaks a rule."""
@@ -177,14 +185,14 @@ def retime_run(night: PlanNight, visits: list[tuple], a: int, b: int, run: list[
     free = visits[a - 1][4] if a else night.t0
     others = visits[:a] + visits[b:]
     if b >= len(visits):
-        got = _best_times(night, run, others, weight, keep, prev, free, night.t1, own)
+        got = _best_times(night, run, others, weight, keep, prev, free, night.t1, own, skip)
         return None if got is None else [*visits[:a], *got]
     # The visit after keeps its exposure start, its slew from the run's last target: the
     # run may end by that less the setup and the settle time, by its current start, or by
     # that less the longest slew (always room), tried in that order.
     x = visits[b][3] - night.setup_s
     for until in (x - night.slew.settle_s, visits[b][1], x - night.slew.longest_s()):
-        got = _best_times(night, run, others, weight, keep, prev, free, until, own)
+        got = _best_times(night, run, others, weight, keep, prev, free, until, own, skip)
         if got is None:
             return None
         joined = join(night, visits, a, b, got)
@@ -194,20 +202,22 @@ def retime_run(night: PlanNight, visits: list[tuple], a: int, b: int, run: list[
 
 
 def retime_plan(night: PlanNight, visits: list[tuple], weight: np.ndarray,
-                keep: np.ndarray) -> list[tuple]:
-    """The whole plan re-timed in its order (never worth less: its own starts are among the
-    candidates)."""
+                keep: np.ndarray, skip: int = MAX_SKIP) -> list[tuple]:
+    """The whole plan re-timed in its order, each visit within ``AROUND_S`` of its start
+    (never worth less: its own starts are among the candidates)."""
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
-    got = retime_run(night, visits, 0, len(visits), visits, weight, keep, own=True)
+    got = retime_run(night, visits, 0, len(visits), visits, weight, keep, own=True, skip=skip)
     return visits if got is None else got
 
 
 def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: np.ndarray,
-             deadline: float = np.inf) -> list[tuple]:
-    """Move each of the ``MOVED`` visits of ``level`` furthest from their best airmass (more
-    than ``MOVE_ABOVE`` above it) up to ``REACH`` places earlier or later, the visits between
-    and ``MARGIN`` on each side re-timed (:func:`retime_run`); keep each move that raises the
-    plan's value.  Stops at ``deadline`` (``time.monotonic``)."""
+             deadline: float = np.inf, moved: int = MOVED, reach: int = REACH,
+             above: float = MOVE_ABOVE, skip: int = MAX_SKIP) -> list[tuple]:
+    """Move each of the ``moved`` visits of ``level`` furthest from their best airmass (more
+    than ``above`` above it) up to ``reach`` places earlier or later, the visits between
+    and ``MARGIN`` on each side re-timed (:func:`retime_run`, up to ``skip`` visits below the
+    level left out in a row); keep each move that raises the plan's value (by ``weight``).
+    Stops at ``deadline`` (``time.monotonic``)."""
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
     if not visits:
         return visits
@@ -215,14 +225,14 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
     tgt = np.array([v[0] for v in visits])
     mid = np.array([v[3] for v in visits]) + night.exposure_s[tgt] / 2
     excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
-    picked = np.flatnonzero(level[tgt] & (excess > MOVE_ABOVE))
-    picked = picked[np.argsort(-excess[picked], kind="stable")][:MOVED]
+    picked = np.flatnonzero(level[tgt] & (excess > above))
+    picked = picked[np.argsort(-excess[picked], kind="stable")][:moved]
     for v in [visits[k] for k in picked]:
         if v not in visits:
             continue
         best, best_value = None, value
         k = visits.index(v)
-        for p in range(max(k - REACH, 0), min(k + REACH, len(visits) - 1) + 1):
+        for p in range(max(k - reach, 0), min(k + reach, len(visits) - 1) + 1):
             if time.monotonic() > deadline:
                 return visits
             lo, hi = min(k, p), max(k, p)
@@ -232,7 +242,7 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
             run = visits[a:b]
             run.remove(v)
             run.insert(p - a, v)
-            got = retime_run(night, visits, a, b, run, weight, level)
+            got = retime_run(night, visits, a, b, run, weight, level, skip=skip)
             got_value = -np.inf if got is None else plan_value(night, got, weight)
             if got_value > best_value + 1e-9:
                 best, best_value = got, got_value
@@ -240,3 +250,14 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
             visits, value = best, best_value
     return visits
 
+
+
+def loosen_top(night: PlanNight, visits: list[tuple], weight: np.ndarray,
+               level: np.ndarray) -> list[tuple]:
+    """The plan re-timed (:func:`retime_plan`) as if the visits below ``level`` weighed only
+    ``LOWER_SHARE`` of their weight, up to ``WIDE_SKIP`` of them left out in a row: the
+    level's visits nearer their best airmass, with the lower visits that were not in their
+    way.  A start for a refill of the lower levels (the caller compares the refilled plan's
+    value)."""
+    light = np.where(level, weight, weight * LOWER_SHARE)
+    return retime_plan(night, visits, light, level, WIDE_SKIP)
