@@ -51,7 +51,7 @@ LAGRANGIAN_STEPS = 30
 LAGRANGIAN_VARIABLE_BUDGET = 800_000
 GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
 REPAIR_SHARE = 0.15  # of the time limit, at most, for the local repair (measured)
-LOOSEN_SHARE = 0.25  # of the time limit, at most, for the top level's moves (retime.py)
+LOOSEN_SHARE = 0.2  # of the time limit, at most, for the top level's moves (retime.py)
 LOOSEN_ABOVE = 0.02  # ... tried when the top level's mean airmass excess is above this
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
@@ -122,6 +122,8 @@ def _loosened(night, weight, improve, visits, top, until: float) -> list[tuple]:
     neighbours are left out: they move top-level visits off their best for lower ones."""
     raw = retime.loosen_top(night, visits, weight, top)
     raw = improve(night, realise.fill_gaps(night, raw, weight))
+    if time.monotonic() > until:
+        return raw
     raw = retime.retime_plan(night, raw, weight, top)
     return retime.exchange(night, raw, weight, top, until)
 
@@ -219,8 +221,10 @@ def optimise(
         if raw != sorted(best, key=lambda v: (v[1], v[0])):
             best, method, value = _better(night, weight, improve, raw, best, method, value)
     until = min(deadline, time.monotonic() + LOOSEN_SHARE * time_limit_s)
-    while (top is not None and time.monotonic() < until and not _close(bound, value)
+    took = 0.0  # a round starts only when the time left holds one as long as the last
+    while (top is not None and until - time.monotonic() > took and not _close(bound, value)
            and _level_excess(night, best, top) > LOOSEN_ABOVE):
+        began = time.monotonic()
         raw = _loosened(night, weight, improve, best, top, until)
         raw = improve(night, realise.fill_gaps(night, raw, weight))
         raw_value = realise.plan_value(night, raw, weight)
@@ -228,6 +232,7 @@ def optimise(
                 night, best, weight, top) - 1e-9:
             break
         best, method, value = raw, "optimal", raw_value
+        took = time.monotonic() - began
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))
