@@ -211,13 +211,11 @@ def retime_plan(night: PlanNight, visits: list[tuple], weight: np.ndarray,
 
 
 def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: np.ndarray,
-             deadline: float = np.inf, moved: int = MOVED, reach: int = REACH,
-             above: float = MOVE_ABOVE, skip: int = MAX_SKIP) -> list[tuple]:
-    """Move each of the ``moved`` visits of ``level`` furthest from their best airmass (more
-    than ``above`` above it) up to ``reach`` places earlier or later, the visits between
-    and ``MARGIN`` on each side re-timed (:func:`retime_run`, up to ``skip`` visits below the
-    level left out in a row); keep each move that raises the plan's value (by ``weight``).
-    Stops at ``deadline`` (``time.monotonic``)."""
+             deadline: float = np.inf) -> list[tuple]:
+    """Move each of the ``MOVED`` visits of ``level`` furthest from their best airmass (more
+    than ``MOVE_ABOVE`` above it) up to ``REACH`` places earlier or later, the visits
+    between and ``MARGIN`` on each side re-timed (:func:`retime_run`); keep each move that
+    raises the plan's value.  Stops at ``deadline`` (``time.monotonic``)."""
     visits = sorted(visits, key=lambda v: (v[1], v[0]))
     if not visits:
         return visits
@@ -225,14 +223,14 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
     tgt = np.array([v[0] for v in visits])
     mid = np.array([v[3] for v in visits]) + night.exposure_s[tgt] / 2
     excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
-    picked = np.flatnonzero(level[tgt] & (excess > above))
-    picked = picked[np.argsort(-excess[picked], kind="stable")][:moved]
+    picked = np.flatnonzero(level[tgt] & (excess > MOVE_ABOVE))
+    picked = picked[np.argsort(-excess[picked], kind="stable")][:MOVED]
     for v in [visits[k] for k in picked]:
         if v not in visits:
             continue
         best, best_value = None, value
         k = visits.index(v)
-        for p in range(max(k - reach, 0), min(k + reach, len(visits) - 1) + 1):
+        for p in range(max(k - REACH, 0), min(k + REACH, len(visits) - 1) + 1):
             if time.monotonic() > deadline:
                 return visits
             lo, hi = min(k, p), max(k, p)
@@ -242,14 +240,13 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
             run = visits[a:b]
             run.remove(v)
             run.insert(p - a, v)
-            got = retime_run(night, visits, a, b, run, weight, level, skip=skip)
+            got = retime_run(night, visits, a, b, run, weight, level)
             got_value = -np.inf if got is None else plan_value(night, got, weight)
             if got_value > best_value + 1e-9:
                 best, best_value = got, got_value
         if best is not None:
             visits, value = best, best_value
     return visits
-
 
 
 def loosen_top(night: PlanNight, visits: list[tuple], weight: np.ndarray,
