@@ -1,6 +1,6 @@
 """Plan quality on seeded invented nights at 1x, 2x and 5x oversubscription, two sites (by hand).
 
-    python benchmarks/bench_plan_quality.py [--seeds 2] [--time-limit 5]
+    python benchmarks/bench_plan_quality.py [--seeds 2] [--time-limit 5] [--only 40 5]
 
 The nights are those of ``bench_scheduling.synthetic_night`` (targets uniform on the sky,
 windows above 30 deg, exposures 60-600 s, 1-3 repeats, priorities 1-5), at latitude 40 deg N
@@ -27,6 +27,8 @@ set to 0 (:mod:`skyplan.planning.merit`): every visit of a level then weighs the
 planner maximises the visits level by level (one visit outweighing nine of the level below),
 beside the same count bound.  It separates what the bound misses from what the objective
 trades for airmass.
+
+``--only LAT LOAD``: only the nights of that site (latitude, 40 or 64) and load (1, 2 or 5).
 """
 
 from __future__ import annotations
@@ -124,6 +126,8 @@ def main() -> None:
                         help="time limit of each of the floor's solves, seconds")
     parser.add_argument("--counts", action="store_true",
                         help="the visits with the airmass share of the merit at 0 instead")
+    parser.add_argument("--only", nargs=2, type=int, metavar=("LAT", "LOAD"),
+                        help="only the nights of this site's latitude and this load")
     args = parser.parse_args()
     if args.counts:
         count_study(args.time_limit, args.seeds)
@@ -136,6 +140,8 @@ def main() -> None:
     print("|---|---|---|---|---|---|---|---|---|---|")
     for lat, hours in SITES:
         for load in LOADS:
+            if args.only and (round(lat), load) != tuple(args.only):
+                continue
             for seed in range(args.seeds):
                 request = night_at_load(load, seed, lat, hours)
                 for method in ("dispatch", "optimal"):

@@ -100,7 +100,7 @@ def _pack(night: PlanNight, items, prev: int, free: float, fixed_starts) -> list
     return out
 
 
-def _join(night: PlanNight, visits, a: int, b: int, packed: list[tuple]) -> list[tuple] | None:
+def join(night: PlanNight, visits, a: int, b: int, packed: list[tuple]) -> list[tuple] | None:
     """visits[:a] + packed + visits[b:], the visit at ``b`` re-slewed; None if it breaks."""
     if b >= len(visits):
         return [*visits[:a], *packed]
@@ -182,7 +182,7 @@ def _insert_run(night, visits, a: int, b: int, new: tuple, weight) -> list[tuple
         for order in _orders(items, new):
             packed = _pack(night, order, prev, free, fixed)
             if packed is not None:
-                joined = _join(night, visits, a, b, packed)
+                joined = join(night, visits, a, b, packed)
                 if joined is not None:
                     return joined
         lower = [k for k, v in enumerate(seg) if night.priority[v[0]] < night.priority[i]]
@@ -229,7 +229,7 @@ def insert_missing(night: PlanNight, visits: list[tuple], weight: np.ndarray,
 def _without(night: PlanNight, visits: list[tuple], k: int) -> list[tuple] | None:
     """The plan without visits[k]; the visit after it slews from the one before (its exposure
     start kept); None if that breaks a rule."""
-    return _join(night, visits[:k] + visits[k + 1:], k, k, [])
+    return join(night, visits[:k] + visits[k + 1:], k, k, [])
 
 
 def _best_insert(night: PlanNight, visits: list[tuple], i: int, weight,

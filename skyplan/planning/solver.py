@@ -11,7 +11,11 @@
 3. The best of these plans and the dispatch plan, by value, is compacted (every visit as
    early as it can go, :func:`realise.compact`), its gaps filled, neighbours exchanged where
    that raises their merit (:func:`realise.swap_neighbours`) and its visits moved toward their
-   best airmass again; the result is kept if it is worth more.  Its gap is
+   best airmass again; the result is kept if it is worth more.
+4. The local repair (:mod:`repair`); then, while the top level's mean airmass excess is
+   above ``LOOSEN_ABOVE``, the top level re-timed with the lower levels light, the lower
+   levels refilled and everything re-timed and moved again (:mod:`retime`), kept when the
+   plan's value and the top level's summed merit both rise.  The returned plan's gap is
    ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
 
 Each model's grid step is the night's step times the smallest stride keeping it within its
@@ -28,7 +32,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan.planning import realise, repair, timeindexed
+from skyplan.planning import realise, repair, retime, timeindexed
 from skyplan.planning.bound import lagrangian_bound
 from skyplan.planning.merit import priority_weights
 
@@ -47,6 +51,8 @@ LAGRANGIAN_STEPS = 30
 LAGRANGIAN_VARIABLE_BUDGET = 800_000
 GOOD_ENOUGH = 0.01  # gap below which the denser model and the finer bound are skipped
 REPAIR_SHARE = 0.15  # of the time limit, at most, for the local repair (measured)
+LOOSEN_SHARE = 0.2  # of the time limit, at most, for the top level's moves (retime.py)
+LOOSEN_ABOVE = 0.02  # ... tried when the top level's mean airmass excess is above this
 PROVEN_GAP = 1e-4  # a plan within this relative gap of the bound is reported optimal
 
 
@@ -107,6 +113,33 @@ def _top_first(night, weight, top, time_limit_s, pad_s) -> list[tuple] | None:
         if mip.found and mip.objective > rounded:
             chosen = mip.chosen
     return realise.realise(night, model, chosen, pad_s)
+
+
+def _loosened(night, weight, improve, visits, top, until: float) -> list[tuple]:
+    """The top level re-timed with the lower levels light (:func:`retime.loosen_top`), the
+    lower levels refilled, then re-timed and moved with their true weights
+    (:func:`retime.retime_plan`, :func:`retime.exchange`).  Compacting and exchanging
+    neighbours are left out: they move top-level visits off their best for lower ones."""
+    raw = retime.loosen_top(night, visits, weight, top)
+    raw = improve(night, realise.fill_gaps(night, raw, weight))
+    if time.monotonic() > until:
+        return raw
+    raw = retime.retime_plan(night, raw, weight, top)
+    return retime.exchange(night, raw, weight, top, until)
+
+
+def _level_excess(night, visits, level) -> float:
+    """The mean relative airmass excess ``X / X_best - 1`` of the visits of ``level``."""
+    tgt = np.array([v[0] for v in visits if level[v[0]]], dtype=int)
+    if tgt.size == 0:
+        return 0.0
+    mid = np.array([v[3] for v in visits if level[v[0]]]) + night.exposure_s[tgt] / 2
+    return float(np.mean(night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0))
+
+
+def _level_value(night, visits, weight, level) -> float:
+    """The summed merit of the visits of ``level`` (a mask)."""
+    return realise.plan_value(night, [v for v in visits if level[v[0]]], weight)
 
 
 def _close(bound: float | None, value: float) -> bool:
@@ -187,6 +220,19 @@ def optimise(
         raw = repair.relocate(night, raw, weight, level, until)
         if raw != sorted(best, key=lambda v: (v[1], v[0])):
             best, method, value = _better(night, weight, improve, raw, best, method, value)
+    until = min(deadline, time.monotonic() + LOOSEN_SHARE * time_limit_s)
+    took = 0.0  # a round starts only when the time left holds one as long as the last
+    while (top is not None and until - time.monotonic() > took and not _close(bound, value)
+           and _level_excess(night, best, top) > LOOSEN_ABOVE):
+        began = time.monotonic()
+        raw = _loosened(night, weight, improve, best, top, until)
+        raw = improve(night, realise.fill_gaps(night, raw, weight))
+        raw_value = realise.plan_value(night, raw, weight)
+        if raw_value <= value + 1e-9 or _level_value(night, raw, weight, top) < _level_value(
+                night, best, weight, top) - 1e-9:
+            break
+        best, method, value = raw, "optimal", raw_value
+        took = time.monotonic() - began
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))
