@@ -2,6 +2,7 @@
 
     python benchmarks/bench_plan_counts.py [--minutes 60] [--seed 0] [--time-limit 5] [--step 60]
                                            [--exact-limit 25] [--merit-limit 20]
+                                           [--loads 1,2,5]
 
 Each night is the last ``--minutes`` of an invented night of
 ``bench_scheduling.synthetic_night`` (targets uniform on the sky, windows above 30 deg,
@@ -43,7 +44,6 @@ from skyplan.planning.dispatch import PlanOptions, make_plan
 from skyplan.planning.model import PlanNight
 
 SITES = ((40.0, 9.0), (64.0, 16.0))
-LOADS = (1, 2, 5)
 LEVELS = (5, 4, 3, 2, 1)
 
 
@@ -111,10 +111,11 @@ def main() -> None:
     parser.add_argument("--step", type=float, default=60.0, help="the exact solver's grid, s")
     parser.add_argument("--exact-limit", type=float, default=25.0)
     parser.add_argument("--merit-limit", type=float, default=20.0)
+    parser.add_argument("--loads", default="1,2,5", help="the loads, comma-separated")
     args = parser.parse_args()
     counts_rows, solve_rows = [], []
     for lat, hours in SITES:
-        for load in LOADS:
+        for load in [int(x) for x in args.loads.split(",")]:
             request = small_night(load, args.seed, lat, hours, args.minutes)
             night = PlanNight(request, PlanOptions())
             name = f"{lat:.0f} N | {load}x | {int(night.active.sum())}"
