@@ -1,8 +1,8 @@
 """Visits per priority on small nights: the planner, the exact best on a grid, the bound (by hand).
 
     python benchmarks/bench_plan_counts.py [--minutes 60] [--seed 0] [--time-limit 5] [--step 60]
-                                           [--exact-limit 25] [--merit-limit 20]
-                                           [--loads 1,2,5]
+                                           [--exact-limit 25] [--upper-limit 150]
+                                           [--merit-limit 20] [--loads 1,2,5]
 
 Each night is the last ``--minutes`` of an invented night of
 ``bench_scheduling.synthetic_night`` (targets uniform on the sky, windows above 30 deg,
@@ -17,8 +17,9 @@ For each night, the visits at each priority or above of:
 * ``dispatch`` and ``optimal`` (``--time-limit``), and ``optimal`` with the airmass share of
   the merit at 0 ("counts only": every visit of a level weighs the same);
 * ``exact``: the lexicographic best on a grid of starts (``--step``, 1 minute) with the
-  real slews (``exact_counts.py``; each stage limited to ``--exact-limit`` s): a plan, so
-  a lower bound on the best plan; exact on the grid when its MIP gap is 0;
+  real slews (``exact_counts.py``; the stages at priority >= 4 limited to
+  ``--upper-limit`` s, the others to ``--exact-limit`` s): a plan, so a lower bound on the
+  best plan; exact on the grid when its MIP gap is 0;
 * the count bound (:func:`bound.count_bound`) given the ``optimal`` plan's visits at the
   higher levels, on the 2-minute grid (as in ``bench_plan_quality.py``) and on the
   1-minute grid: an upper bound, rounded down.
@@ -110,6 +111,8 @@ def main() -> None:
     parser.add_argument("--time-limit", type=float, default=5.0)
     parser.add_argument("--step", type=float, default=60.0, help="the exact solver's grid, s")
     parser.add_argument("--exact-limit", type=float, default=25.0)
+    parser.add_argument("--upper-limit", type=float, default=150.0,
+                        help="the time limit of the stages at priority >= 4, s")
     parser.add_argument("--merit-limit", type=float, default=20.0)
     parser.add_argument("--loads", default="1,2,5", help="the loads, comma-separated")
     args = parser.parse_args()
@@ -126,7 +129,8 @@ def main() -> None:
                 pr, plans[what] = planner_levels(request, limit, share)
                 counts_rows.append(f"| {name} | {what} | {cells(pr)} |")
             wall = time.perf_counter()
-            got = exact_counts(night, args.step, args.exact_limit)
+            upper = {p: args.upper_limit for p in LEVELS if p >= 4}
+            got = exact_counts(night, args.step, args.exact_limit, level_limits=upper)
             wall = time.perf_counter() - wall
             pr = night.priority[[v[0] for v in got.visits]].astype(int)
             mark = "" if got.exact else " (MIP gap > 0)"

@@ -295,11 +295,13 @@ def _ramp(count: np.ndarray) -> np.ndarray:
 
 
 def exact_counts(night: PlanNight, step_s: float = 60.0, limit_s: float = 60.0,
-                 merit_limit_s: float = 0.0) -> ExactResult:
+                 merit_limit_s: float = 0.0,
+                 level_limits: dict[int, float] | None = None) -> ExactResult:
     """The lexicographic visit counts (top priority first) of the best plan on the grid.
 
-    Each stage keeps at least the counts of the stages before it.  With ``merit_limit_s`` >
-    0, a last stage maximises the plan's merit (docs/planning.md) keeping every count.
+    Each stage keeps at least the counts of the stages before it; ``level_limits`` gives
+    some levels' stages their own time limit.  With ``merit_limit_s`` > 0, a last stage
+    maximises the plan's merit (docs/planning.md) keeping every count.
     """
     arcs = grid_arcs(night, step_s)
     if arcs.src.size == 0:
@@ -309,7 +311,7 @@ def exact_counts(night: PlanNight, step_s: float = 60.0, limit_s: float = 60.0,
     stages, x = [], None
     for p in levels:
         cost = prog.count_of(p)
-        stage, got = prog.solve(cost, limit_s, p, x)
+        stage, got = prog.solve(cost, (level_limits or {}).get(p, limit_s), p, x)
         stages.append(stage)
         if got is None:
             break
