@@ -290,3 +290,44 @@ def relocate(night: PlanNight, visits: list[tuple], weight: np.ndarray,
         if got_value > value + 1e-9:
             visits, value = got, got_value
     return visits
+
+
+def spread_repeats(night: PlanNight, visits: list[tuple], weight: np.ndarray,
+                   deadline: float = np.inf) -> list[tuple]:
+    """Make room for a missing repeat by moving its target's placed visit earlier.
+
+    A target short of its repeats whose visit was placed late in a window may leave no room
+    for the next one, its spacing after.  For the ``TRIED`` such targets, the highest
+    priority first (then the least time in their windows): its first visit is taken out and
+    inserted again where a repeat can still follow in the same window, ending by the
+    window's end less the spacing (:func:`insert`, lower priorities may drop),
+    then each missing repeat is inserted where it is worth the most; kept when the plan's
+    value rises.  Stops at ``deadline`` (``time.monotonic``)."""
+    visits = sorted(visits, key=lambda v: (v[1], v[0]))
+    value = plan_value(night, visits, weight)
+    count = np.bincount([v[0] for v in visits], minlength=night.n)
+    short = np.flatnonzero(night.active & (count > 0) & (count < night.repeats))
+    room = np.bincount(night.win_target, night.win_end - night.win_start, minlength=night.n)
+    for i in short[np.lexsort((short, room[short], -night.priority[short]))][:TRIED]:
+        i = int(i)
+        if not 0 < count[i] < night.repeats[i]:  # an earlier move dropped or completed it
+            continue
+        k = next(j for j, v in enumerate(visits) if v[0] == i)
+        rest = _without(night, visits, k)
+        if rest is None:
+            continue
+        for ws, we in _windows(night, i):
+            if time.monotonic() > deadline:
+                return visits
+            end = we - night.spacing_s[i]  # a repeat as long as this visit still fits after
+            if end - ws < night.shortest_visit_s[i]:
+                continue
+            got = insert(night, rest, i, ws, end, weight, deadline)
+            for _ in range(int(night.repeats[i] - count[i])):
+                got = None if got is None else _best_insert(night, got, i, weight, deadline)
+            got_value = -np.inf if got is None else plan_value(night, got, weight)
+            if got_value > value + 1e-9:
+                visits, value = got, got_value
+                count = np.bincount([v[0] for v in visits], minlength=night.n)
+                break
+    return visits

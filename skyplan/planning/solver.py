@@ -218,6 +218,7 @@ def optimise(
         until = min(deadline, time.monotonic() + REPAIR_SHARE * time_limit_s)
         raw = repair.insert_missing(night, best, weight, level, until)
         raw = repair.relocate(night, raw, weight, level, until)
+        raw = repair.spread_repeats(night, raw, weight, until)
         if raw != sorted(best, key=lambda v: (v[1], v[0])):
             best, method, value = _better(night, weight, improve, raw, best, method, value)
     until = min(deadline, time.monotonic() + LOOSEN_SHARE * time_limit_s)
