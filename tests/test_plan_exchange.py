@@ -9,16 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from test_scheduling import assert_valid, curve_request, random_request
+from test_plan_repair import dispatch_start
+from test_scheduling import assert_valid, curve_request
 
 from skyplan.planning import merit, realise, repair, retime, solver
-from skyplan.planning.dispatch import _finish, _improve, make_plan
+from skyplan.planning.dispatch import _finish, _improve
 from skyplan.planning.model import PlanNight, PlanOptions
-
-
-def raw_visits(plan) -> list[tuple]:
-    return [(v.target, v.start_unix, v.slew_s, v.exposure_start_unix, v.end_unix)
-            for v in plan.visits]
 
 
 def excess(night, v) -> float:
@@ -82,13 +78,7 @@ def test_a_packed_run_moves_together_to_bring_a_visit_to_its_best():
 
 @pytest.mark.parametrize("seed", range(6))
 def test_re_timing_and_exchange_keep_every_rule_and_never_lose_value(seed):
-    req = random_request(900 + seed, n=30, hours=6.0)
-    opt = PlanOptions(method="dispatch")
-    night = PlanNight(req, opt)
-    weight = merit.priority_weights(night.priority, night.active)
-    start = raw_visits(make_plan(req, opt))
-    value = realise.plan_value(night, start, weight)
-    top = night.active & (night.priority == night.priority[night.active].max())
+    req, opt, night, weight, start, value, top = dispatch_start(900 + seed)
     for level in (top, night.active):
         timed = retime.retime_plan(night, start, weight, level)
         assert_valid(req, opt, _finish(night, timed, "optimal", None))
@@ -107,11 +97,7 @@ def test_the_loosened_top_level_keeps_every_rule(seed):
     # The optimiser's last step (solver._loosened): the top level re-timed with the lower
     # levels light, refilled, re-timed and moved again; every rule holds for the result and
     # for the light re-timing alone, which keeps every top-priority visit.
-    req = random_request(950 + seed, n=30, hours=6.0)
-    opt = PlanOptions(method="dispatch")
-    night = PlanNight(req, opt)
-    weight = merit.priority_weights(night.priority, night.active)
-    start = raw_visits(make_plan(req, opt))
+    req, opt, night, weight, start, _, _ = dispatch_start(950 + seed)
     top = solver.top_level(night)
     assert top is not None
     light = retime.loosen_top(night, start, weight, top)

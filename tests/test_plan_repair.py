@@ -20,20 +20,29 @@ def raw_visits(plan) -> list[tuple]:
             for v in plan.visits]
 
 
-@pytest.mark.parametrize("seed", range(6))
-def test_repair_keeps_every_rule_and_never_loses_value(seed):
-    req = random_request(800 + seed, n=30, hours=6.0)
+def dispatch_start(seed: int):
+    """A random 30-target, 6-hour night and its dispatch plan: (request, options, night,
+    weights, the plan's raw visits, its value, the top level's mask)."""
+    req = random_request(seed, n=30, hours=6.0)
     opt = PlanOptions(method="dispatch")
     night = PlanNight(req, opt)
     weight = merit.priority_weights(night.priority, night.active)
     start = raw_visits(make_plan(req, opt))
-    value = realise.plan_value(night, start, weight)
     top = night.active & (night.priority == night.priority[night.active].max())
+    return req, opt, night, weight, start, realise.plan_value(night, start, weight), top
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_repair_keeps_every_rule_and_never_loses_value(seed):
+    req, opt, night, weight, start, value, top = dispatch_start(800 + seed)
     for level in (top, night.active):
         for step in (repair.insert_missing, repair.relocate):
             raw = step(night, start, weight, level)
             assert_valid(req, opt, _finish(night, raw, "optimal", None))
             assert realise.plan_value(night, raw, weight) >= value - 1e-9
+    raw = repair.spread_repeats(night, start, weight)
+    assert_valid(req, opt, _finish(night, raw, "optimal", None))
+    assert realise.plan_value(night, raw, weight) >= value - 1e-9
 
 
 def dusk_request():

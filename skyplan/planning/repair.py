@@ -266,6 +266,17 @@ def _insert_ejecting(night: PlanNight, visits: list[tuple], i: int, ws: float, w
     return best
 
 
+def furthest_from_best(night: PlanNight, visits: list[tuple], level: np.ndarray,
+                       above: float, most: int) -> list[tuple]:
+    """The ``most`` visits of ``level`` (a mask over targets) furthest from their best
+    airmass, those more than ``above`` (relative) over it, the furthest first."""
+    tgt = np.array([v[0] for v in visits])
+    mid = np.array([v[3] for v in visits]) + night.exposure_s[tgt] / 2
+    excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
+    picked = np.flatnonzero(level[tgt] & (excess > above))
+    return [visits[k] for k in picked[np.argsort(-excess[picked], kind="stable")][:most]]
+
+
 def relocate(night: PlanNight, visits: list[tuple], weight: np.ndarray,
              level: np.ndarray, deadline: float = np.inf) -> list[tuple]:
     """Take out each of the ``RELOCATED`` visits of ``level`` furthest from their best airmass
@@ -276,12 +287,7 @@ def relocate(night: PlanNight, visits: list[tuple], weight: np.ndarray,
     if not visits:
         return visits
     value = plan_value(night, visits, weight)
-    tgt = np.array([v[0] for v in visits])
-    mid = np.array([v[3] for v in visits]) + night.exposure_s[tgt] / 2
-    excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
-    picked = np.flatnonzero(level[tgt])
-    picked = picked[np.argsort(-excess[picked], kind="stable")][:RELOCATED]
-    for v in [visits[k] for k in picked if excess[k] > RELOCATE_ABOVE]:
+    for v in furthest_from_best(night, visits, level, RELOCATE_ABOVE, RELOCATED):
         if v not in visits or time.monotonic() > deadline:
             continue
         rest = _without(night, visits, visits.index(v))

@@ -42,7 +42,7 @@ import numpy as np
 
 from skyplan.planning.merit import merit
 from skyplan.planning.realise import plan_value
-from skyplan.planning.repair import join
+from skyplan.planning.repair import furthest_from_best, join
 
 if TYPE_CHECKING:
     from skyplan.planning.model import PlanNight
@@ -220,12 +220,7 @@ def exchange(night: PlanNight, visits: list[tuple], weight: np.ndarray, level: n
     if not visits:
         return visits
     value = plan_value(night, visits, weight)
-    tgt = np.array([v[0] for v in visits])
-    mid = np.array([v[3] for v in visits]) + night.exposure_s[tgt] / 2
-    excess = night.airmass_at(tgt, mid) / night.best_airmass[tgt] - 1.0
-    picked = np.flatnonzero(level[tgt] & (excess > MOVE_ABOVE))
-    picked = picked[np.argsort(-excess[picked], kind="stable")][:MOVED]
-    for v in [visits[k] for k in picked]:
+    for v in furthest_from_best(night, visits, level, MOVE_ABOVE, MOVED):
         if v not in visits:
             continue
         best, best_value = None, value
