@@ -123,10 +123,11 @@ BLOCK_BYTES = 48 << 20
 
 
 # polars allocates through its own jemalloc, which keeps freed pages for 10 s by default
-# (read from this variable when polars is first loaded): give them back within 0.5 s
-# instead (at once saved 20 MiB more on 1,000,000 sexagesimal rows, but slowed the
-# decimal path by about 0.1 s in 1.3; docs/performance.md).
-_POLARS_ALLOCATOR = ("_RJEM_MALLOC_CONF", "dirty_decay_ms:500,muzzy_decay_ms:0")
+# (read from this variable when polars is first loaded): give them back within 0.1 s
+# instead.  0.5 s left the reader's freed pages in place while the night was computed
+# (16 MiB more at the peak of `windows` on 200,000 sexagesimal rows); at once saved a
+# little more but slowed the decimal path by about 0.1 s in 1.3 (docs/performance.md).
+_POLARS_ALLOCATOR = ("_RJEM_MALLOC_CONF", "dirty_decay_ms:100,muzzy_decay_ms:0")
 _TRIM: list = []  # glibc's malloc_trim, once looked up (None where there is none)
 
 
