@@ -603,3 +603,41 @@ def test_an_altaz_mount_without_a_table_keeps_out_of_the_usual_keyhole(tmp_path)
                         frame=TETE(obstime=midnight))
         alt = star.transform_to(AltAz(obstime=when, location=loc, pressure=0 * u.hPa)).alt.deg
         assert np.all(alt <= 85.0 + 0.02), (o["name"], alt)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_the_value_and_gap_reported_are_those_of_the_plan_the_mount_follows(seed: int) -> None:
+    """With a cable wrap of one turn the mount's walk re-times or drops visits the planner
+    placed (a slew across the wrap's end goes the long way round); the value the optimiser
+    reports, and so its gap, must be those of the plan returned — the objective recomputed
+    from its definition (test_scheduling.plan_worth) — not of the plan before the walk."""
+    from test_scheduling import SLEW, plan_worth, random_request
+
+    from skyplan.planning.dispatch import make_plan as plan_core
+    from skyplan.planning.mountfit import follow
+    from skyplan.planning.model import PlanNight
+
+    wrap = dataclasses.replace(SLEW, wrap_deg=(-180.0, 180.0))
+    req = random_request(seed, n=30, hours=5.0, slew=wrap)
+    plan = plan_core(req, model.PlanOptions(method="optimal", time_limit_s=1.0))
+    worth = plan_worth(req, plan.visits)
+    assert plan.metrics.solver_objective == pytest.approx(worth, rel=1e-9)
+    bound = plan.metrics.dual_bound
+    assert plan.metrics.gap == pytest.approx(max((bound - worth) / bound, 0.0), abs=1e-12)
+    raw = [(v.target, v.start_unix, v.slew_s, v.exposure_start_unix, v.end_unix)
+           for v in plan.visits]
+    night = PlanNight(req, model.PlanOptions(method="optimal"))
+    assert follow(night, raw) == raw  # the plan returned is one the mount follows as it is
+
+
+def test_the_planners_slew_estimate_goes_the_long_way_round_a_wrap_of_one_turn() -> None:
+    """Hand-worked: in a −180..180 wrap the azimuths 170° and 190° read 170 and −170, so the
+    axis turns 340° between them (not 20°); 10° to 350° turns 20° (10 to −10).  A wrap of
+    −270..270 reads 190° as −170 from the middle but 170 → 190 ends at 190 inside: 20°."""
+    one = model.SlewModel(3.0, 2.0, 10.0, kind="altaz", wrap_deg=(-180.0, 180.0))
+    assert one.wrap_turn_deg(np.array([170.0, 10.0]), np.array([190.0, 350.0])) == \
+        pytest.approx([340.0, 20.0])
+    assert one.slew_s(np.array([40.0]), np.array([170.0]), np.array([40.0]),
+                      np.array([190.0]))[0] == pytest.approx(340.0 / 3.0 + 10.0)
+    wide = model.SlewModel(3.0, 2.0, 10.0, kind="altaz", wrap_deg=(-270.0, 270.0))
+    assert wide.wrap_turn_deg(np.array([170.0]), np.array([190.0]))[0] == pytest.approx(20.0)

@@ -35,8 +35,8 @@ Settle = typer.Option(None, "--settle", help="Settle time after each slew, secon
 TimeLimit = typer.Option(5.0, "--time-limit", help="Optimiser time limit, seconds.")
 AirmassSlack = typer.Option(
     0.15, "--airmass-slack", help="Below the top priority, place a visit only at an air mass "
-    "within this fraction of the target's best tonight (0.15 = 15 %); negative turns the rule "
-    "off.")
+    "within this fraction of the target's best tonight (0.15 = 15 %); the top priority too "
+    "when its visits cannot all fit tonight; negative turns the rule off.")
 PriorityCut = typer.Option(None, "--priority-cut", help="Leave out targets with a lower "
                            "priority.")
 AllowNearSun = typer.Option(False, "--allow-near-sun", help="Allow targets near the Sun into "

@@ -6,6 +6,8 @@ Arrays in, arrays out; hour angle, declination and latitude in radians, results 
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 # Earth rotation rate in degrees per minute (IERS Conventions 2010, eq. 5.15: 1.00273781191135448
@@ -86,11 +88,24 @@ def wrap_turns(start_deg, lo_deg, hi_deg, present_deg, az_min_deg: float,
     convex in k, so the fitting k nearest the unconstrained best, round((present − start) /
     360), is the nearest that fits.
     """
+    if all(isinstance(v, float) for v in (start_deg, lo_deg, hi_deg, present_deg)):
+        return _wrap_turn(start_deg, lo_deg, hi_deg, present_deg, az_min_deg, az_max_deg)
     start, lo, hi = (np.asarray(v, dtype=float) for v in (start_deg, lo_deg, hi_deg))
     k_lo = np.ceil((az_min_deg - lo) / 360.0 - 1e-9)
     k_hi = np.floor((az_max_deg - hi) / 360.0 + 1e-9)
     k = np.clip(np.round((np.asarray(present_deg, dtype=float) - start) / 360.0), k_lo, k_hi)
     return np.where(k_lo <= k_hi, k, np.nan)
+
+
+def _wrap_turn(start: float, lo: float, hi: float, present: float, az_min: float,
+               az_max: float) -> float:
+    """:func:`wrap_turns` for one track (plain floats: a walk through a plan asks one at a
+    time, where numpy's overhead is most of the cost)."""
+    k_lo = math.ceil((az_min - lo) / 360.0 - 1e-9)
+    k_hi = math.floor((az_max - hi) / 360.0 + 1e-9)
+    if k_lo > k_hi:
+        return math.nan
+    return float(min(max(round((present - start) / 360.0), k_lo), k_hi))
 
 
 def hour_circle(ha_rad: float, lat_rad: float, n: int = 181) -> tuple[np.ndarray, np.ndarray]:

@@ -63,6 +63,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from skyplan.planning import merit, timeindexed
+from skyplan.planning.model import EPS_S
 from skyplan.planning.timeindexed import TimeModel, ramp
 
 if TYPE_CHECKING:
@@ -191,6 +192,38 @@ def joint_excess_floor(night: PlanNight, level: int, counts: dict[int, int], cap
             break
         f = ratio
     return floor
+
+
+def visits_fit(night: PlanNight, targets: np.ndarray, chunk: int = 256) -> bool:
+    """False when no plan can hold every visit asked of ``targets`` (a mask) tonight.
+
+    The interval condition of single-machine scheduling with release times and deadlines
+    (Horn 1974, "Some simple scheduling algorithms", Naval Research Logistics Quarterly 21:
+    with pre-emption it is also sufficient): the work that must lie inside an interval
+    ``[s, e]`` cannot exceed ``e - s``.  Each target's visits must lie between its first
+    window's start ``a`` and its last window's end ``b``, each at least ``settle + setup +
+    exposure`` long, so the targets with ``s <= a`` and ``b <= e`` need that times their
+    repeats inside ``[s, e]``.  Every pair of a start ``a`` and an end ``b`` is tried, the
+    starts ``chunk`` at a time.  True does not prove that every visit fits.
+    """
+    idx = np.flatnonzero(np.asarray(targets, bool) & night.active)
+    if idx.size == 0:
+        return True
+    first = np.full(night.n, np.inf)
+    last = np.full(night.n, -np.inf)
+    np.minimum.at(first, night.win_target, night.win_start)
+    np.maximum.at(last, night.win_target, night.win_end)
+    order = idx[np.argsort(last[idx], kind="stable")]
+    a, b = first[order], last[order]
+    work = (night.shortest_visit_s * night.repeats)[order]
+    starts = np.unique(a)
+    for k in range(0, starts.size, chunk):
+        s = starts[k:k + chunk, None]
+        need = np.cumsum(np.where(a[None, :] >= s, work[None, :], 0.0), axis=1)
+        inside = b[None, :] - s  # the interval [s, b_j], the ends in increasing order
+        if np.any((need > inside + EPS_S) & (need > 0.0)):  # (b_j < s: no interval, no need)
+            return False
+    return True
 
 
 def count_bound(night: PlanNight, level: int, floors: dict[int, int], step_s: float,

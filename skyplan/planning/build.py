@@ -294,8 +294,8 @@ def _left_out_text(req, plan, j: int, code: str, idx, names, zone,
                      f"{best:.2f}), but holds no visit{mount}")
         else:
             text += (f"; the free time left there is at air mass {low:.2f} or more, against "
-                     f"{best:.2f} at its best: more than the slack allows below "
-                     "the top priority (see --airmass-slack)" if np.isfinite(low) else
+                     f"{best:.2f} at its best: more than the slack allows "
+                     "(see --airmass-slack)" if np.isfinite(low) else
                      "; the free time left is only at poor airmass (see --airmass-slack)")
     elif who and free_min >= 1.0 and free_min < visit_min:
         text += (f"; the longest free stretch left, {free_min:.0f} min, is shorter than a visit "

@@ -16,7 +16,9 @@ priority, and so on; then the lowest total airmass excess ``airmass_mid - best_a
 The airmass slack (``PlanOptions.airmass_slack``, default 0.15) bounds what a count may cost:
 below the top priority of the targets that can be placed, a visit is made only at airmass
 ``<= best_airmass * (1 + slack)``; a target left out by that rule although an idle gap of the
-plan could hold it gets the reason ``"poor_airmass"``.  The top priority has no ceiling.
+plan could hold it gets the reason ``"poor_airmass"``.  The top priority has that ceiling too
+when its visits cannot all be placed tonight (:func:`skyplan.planning.bound.visits_fit`), and
+none otherwise.
 
 Choices made here (documented once, relied on everywhere):
 
@@ -58,6 +60,7 @@ import numpy as np
 from skyplan import notices
 from skyplan.errors import InputError
 from skyplan.planning import mountfit
+from skyplan.planning.merit import priority_weights
 from skyplan.planning.model import (
     AIRMASS_SLACK,
     EPS_S,
@@ -100,10 +103,12 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     if options.airmass_slack is not None and not 0 <= options.airmass_slack < 100:
         raise InputError("the airmass slack must be a fraction >= 0", field="airmass_slack")
     night = PlanNight(request, options)
+    _top_within_slack_if_crowded(night)
     typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
     model = build_slot_model(night, _IP_STEP_S, typical)
     greedy = reserve_greedy(model)
-    dispatch = _improve(night, _forward(night, model, greedy))
+    weight = priority_weights(night.priority, night.active)
+    dispatch = mountfit.settle(night, _improve(night, _forward(night, model, greedy)), weight)
     if options.method == "dispatch":
         return _finish(night, dispatch, "dispatch", None)
     from skyplan.planning import solver
@@ -114,6 +119,22 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     elif outcome.method == "dispatch":
         notices.add("the dispatch plan was worth more than the optimised one and was kept")
     return _finish(night, outcome.visits, outcome.method, outcome)
+
+
+def _top_within_slack_if_crowded(night: PlanNight) -> None:
+    """Give the top priority the airmass slack too when its visits cannot all be placed
+    tonight (:func:`bound.visits_fit`): then some of them are left out whatever the plan,
+    and those taken are taken within the slack of their best airmass, as the lower
+    priorities are, instead of as many as possible anywhere."""
+    top = night.top_level()
+    if night.airmass_slack is None or not top.any():
+        return
+    from skyplan.planning import bound
+
+    if not bound.visits_fit(night, top):
+        night.keep_within_slack(top)
+        notices.add("the top priority's visits cannot all fit tonight, so they too are made "
+                    "only within the airmass slack of their best (--airmass-slack)")
 
 
 def _forward(night: PlanNight, model: SlotModel, chosen: np.ndarray) -> list[tuple]:

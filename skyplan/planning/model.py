@@ -59,18 +59,35 @@ class SlewModel:
     ) -> np.ndarray:
         """Slew time between pointings given as (axis 2, axis 1) in degrees, the planner's
         estimate: the two-axis model (:func:`skyplan.engine.mount.axes_slew_s`), axis 1 the
-        shorter way round, and for a German mount the flip when the two targets lie on
-        opposite sides of the meridian (hour angle, axis 1, of opposite signs).  The plan's
-        final slews follow the mount's state (:mod:`skyplan.planning.mountfit`).
+        shorter way round (with a cable wrap: see :meth:`wrap_turn_deg`), and for a German
+        mount the flip when the two targets lie on opposite sides of the meridian (hour
+        angle, axis 1, of opposite signs).  The plan's final slews follow the mount's state
+        (:mod:`skyplan.planning.mountfit`).
         """
         a1_0, a1_1 = np.asarray(a1_0, dtype=float), np.asarray(a1_1, dtype=float)
-        d1 = np.abs(a1_1 - a1_0) % 360.0
-        d1 = np.minimum(d1, 360.0 - d1)
+        if self.wrap_deg is not None and not self.equatorial:
+            d1 = self.wrap_turn_deg(a1_0, a1_1)
+        else:
+            d1 = np.abs(a1_1 - a1_0) % 360.0
+            d1 = np.minimum(d1, 360.0 - d1)
         d2 = np.asarray(a2_1, dtype=float) - np.asarray(a2_0, dtype=float)
         out = axes_slew_s(d1, d2, self.rate_az_deg_s, self.rate_alt_deg_s, self.settle_s)
         if self.german and self.flip_s > 0:
             out = out + self.flip_s * ((a1_0 % 360.0 >= 180.0) != (a1_1 % 360.0 >= 180.0))
         return out
+
+    def wrap_turn_deg(self, az_0: np.ndarray, az_1: np.ndarray) -> np.ndarray:
+        """How far the azimuth axis of a mount with a cable wrap turns between two azimuths,
+        as the planner estimates it: the axis starts at the reading of ``az_0`` nearest the
+        wrap's middle (a reading is the azimuth plus whole turns) and ends at the reading of
+        ``az_1`` nearest that, inside the wrap.  Exact for a wrap of one turn, where each
+        azimuth has one reading and a slew across the wrap's end goes the long way round;
+        for wider wraps the mount's walk may find a nearer reading."""
+        lo, hi = self.wrap_deg
+        r0 = az_0 + 360.0 * np.round((0.5 * (lo + hi) - az_0) / 360.0)
+        r1 = az_1 + 360.0 * np.round((r0 - az_1) / 360.0)
+        r1 = np.where(r1 > hi, r1 - 360.0, np.where(r1 < lo, r1 + 360.0, r1))
+        return np.abs(r1 - r0)
 
     def longest_s(self) -> float:
         """A slew no pointing pair above the horizon exceeds: axis 1 by 180° (the shorter way;
@@ -109,7 +126,8 @@ class PlanRequest:
 class PlanOptions:
     """How to plan: method, optimiser time limit, priority cut, Sun override, airmass slack.
 
-    ``airmass_slack``: below the top priority, visits only at airmass <= best * (1 + slack);
+    ``airmass_slack``: below the top priority, visits only at airmass <= best * (1 + slack)
+    (the top priority too when its visits cannot all fit, :meth:`PlanNight.keep_within_slack`);
     ``None`` turns the rule off.
     """
 
@@ -235,6 +253,7 @@ class PlanNight:
             )
         else:
             self.slack_applies = np.zeros(n, bool)
+        self.airmass_slack = opt.airmass_slack
         use = long_enough & self.active[wt]
         order = np.lexsort((ws[use], wt[use]))
         self.win_target, self.win_start, self.win_end = (
@@ -242,6 +261,20 @@ class PlanNight:
             ws[use][order],
             we[use][order],
         )
+
+    def top_level(self) -> np.ndarray:
+        """The targets that can be placed at the highest priority among them (a mask)."""
+        if not self.active.any():
+            return np.zeros(self.n, bool)
+        return self.active & (self.priority == self.priority[self.active].max())
+
+    def keep_within_slack(self, targets: np.ndarray) -> None:
+        """Give ``targets`` (a mask) the airmass ceiling ``best * (1 + slack)`` too."""
+        if self.airmass_slack is None:
+            return
+        targets = np.asarray(targets, bool) & self.active
+        self.max_airmass[targets] = self.best_airmass[targets] * (1.0 + self.airmass_slack)
+        self.slack_applies |= targets
 
     # -- interpolation on the slot grid ------------------------------------------------------
     def _index(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -62,6 +62,33 @@ def follow(night: PlanNight, visits: list[tuple]) -> list[tuple]:
     return _walk(night, sorted(visits, key=lambda v: (v[1], v[0])))[0]
 
 
+REFILL_ROUNDS = 3  # follow, refill the time it freed, follow again: at most this often
+
+
+def settle(night: PlanNight, visits: list[tuple], weight: np.ndarray) -> list[tuple]:
+    """The plan as the mount follows it (:func:`follow`), with the time the walk freed
+    given extra visits (:func:`realise.fill_gaps`) and followed again, while that raises the
+    plan's value (at most :data:`REFILL_ROUNDS` times).  A plan is valued and compared
+    only in this form, so the value and gap reported are those of the plan the user gets;
+    with neither a German mount nor a wrap the plan is returned unchanged."""
+    if not needs_walk(night):
+        return visits
+    from skyplan.planning import realise
+
+    best = follow(night, visits)
+    value = realise.plan_value(night, best, weight)
+    for _ in range(REFILL_ROUNDS):
+        filled = realise.fill_gaps(night, best, weight)
+        if len(filled) == len(best):
+            break
+        again = follow(night, filled)
+        got = realise.plan_value(night, again, weight)
+        if got <= value + 1e-9:
+            break
+        best, value = again, got
+    return best
+
+
 def states(night: PlanNight, visits: list[tuple]) -> MountState:
     """The mount's state along a followed plan (in time order): the same walk as
     :func:`follow`, which leaves a followed plan as it is."""
@@ -111,11 +138,20 @@ def _sides(night: PlanNight, i: int, start: float, end: float) -> tuple[bool, bo
 
 
 def _track(night: PlanNight, i: int, start: float, end: float) -> tuple[float, float, float]:
-    """(azimuth at start, lowest, highest) of the continuous azimuth over [start, end]."""
-    times = np.concatenate([[start], night.slot_unix[(night.slot_unix > start)
-                                                     & (night.slot_unix < end)], [end]])
-    az = [_at(night, night.az_unwrapped, i, float(t)) for t in times]
-    return az[0], min(az), max(az)
+    """(azimuth at start, lowest, highest) of the continuous azimuth over [start, end]: the
+    interpolation's ends and the grid's samples strictly between them."""
+    first = _at(night, night.az_unwrapped, i, start)
+    last = _at(night, night.az_unwrapped, i, end)
+    k0 = max(int(np.floor((start - night.t0) / night.step_s)) + 1, 0)
+    k1 = min(int(np.ceil((end - night.t0) / night.step_s)) - 1, night.slot_unix.size - 1)
+    while k0 <= k1 and night.slot_unix[k0] <= start:
+        k0 += 1
+    while k1 >= k0 and night.slot_unix[k1] >= end:
+        k1 -= 1
+    if k0 > k1:
+        return first, min(first, last), max(first, last)
+    inner = night.az_unwrapped[i, k0:k1 + 1]
+    return first, min(first, last, float(inner.min())), max(first, last, float(inner.max()))
 
 
 class _Mount:
@@ -193,7 +229,9 @@ def _fit(night: PlanNight, mount: _Mount, i: int, slew: float, exp_start: float,
         got = mount.slew(i, t, end)
         if got is None:
             break
-        t = exp_start - lead - got[0]
+        t, was = exp_start - lead - got[0], t
+        if t == was:
+            break
     got = mount.slew(i, t, end)
     if got is not None:  # a millisecond's margin absorbs the fixed point's last step
         t = exp_start - lead - got[0] - 1e-3

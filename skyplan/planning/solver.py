@@ -32,7 +32,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from skyplan.planning import realise, repair, retime, timeindexed
+from skyplan.planning import mountfit, realise, repair, retime, timeindexed
 from skyplan.planning.bound import lagrangian_bound
 from skyplan.planning.merit import priority_weights
 
@@ -71,7 +71,7 @@ def _better(night, weight, improve, raw, best, method, value, swap=False):
     raw = realise.fill_gaps(night, raw, weight)
     if swap:
         raw = realise.swap_neighbours(night, raw, weight)
-    raw = improve(night, raw)
+    raw = mountfit.settle(night, improve(night, raw), weight)
     raw_value = realise.plan_value(night, raw, weight)
     if raw_value > value + 1e-9:
         return raw, "optimal", raw_value
@@ -228,6 +228,7 @@ def optimise(
         began = time.monotonic()
         raw = _loosened(night, weight, improve, best, top, until)
         raw = improve(night, realise.fill_gaps(night, raw, weight))
+        raw = mountfit.settle(night, raw, weight)
         raw_value = realise.plan_value(night, raw, weight)
         if raw_value <= value + 1e-9 or _level_value(night, raw, weight, top) < _level_value(
                 night, best, weight, top) - 1e-9:

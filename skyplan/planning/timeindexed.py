@@ -106,11 +106,16 @@ def padded_model(
     return _assemble(night, tgt[ok], slot[ok], block, value[ok], spacing, g)
 
 
-def relaxed_model(night: PlanNight, step_s: float, weight: np.ndarray) -> TimeModel:
-    """The relaxation whose optimum bounds every plan (see the module docstring)."""
+def relaxed_model(night: PlanNight, step_s: float, weight: np.ndarray,
+                  only: np.ndarray | None = None) -> TimeModel:
+    """The relaxation whose optimum bounds every plan (see the module docstring); ``only``:
+    a mask of the targets to model (default every target)."""
     pad, settle = night.slew.longest_s(), night.slew.settle_s
     t0, g, setup = night.t0, step_s, night.setup_s
     wt, ws, we = night.win_target, night.win_start, night.win_end
+    if only is not None:
+        keep = np.asarray(only, bool)[wt]
+        wt, ws, we = wt[keep], ws[keep], we[keep]
     shortest = settle + setup + night.exposure_s
     latest = we - shortest[wt]  # latest start inside each window
     lo = np.ceil((ws - t0) / g - _TOL).astype(int)
