@@ -614,8 +614,8 @@ def test_the_value_and_gap_reported_are_those_of_the_plan_the_mount_follows(seed
     from test_scheduling import SLEW, plan_worth, random_request
 
     from skyplan.planning.dispatch import make_plan as plan_core
-    from skyplan.planning.mountfit import follow
     from skyplan.planning.model import PlanNight
+    from skyplan.planning.mountfit import follow
 
     wrap = dataclasses.replace(SLEW, wrap_deg=(-180.0, 180.0))
     req = random_request(seed, n=30, hours=5.0, slew=wrap)
