@@ -41,7 +41,7 @@ from exact_counts import exact_counts, exact_merit
 
 from skyplan.planning import merit
 from skyplan.planning.bound import count_bound
-from skyplan.planning.dispatch import PlanOptions, make_plan
+from skyplan.planning.dispatch import PlanOptions, make_plan, plan_night
 from skyplan.planning.model import PlanNight
 
 SITES = ((40.0, 9.0), (64.0, 16.0))
@@ -67,7 +67,7 @@ def last_minutes(request, minutes: float):
 
 def load_of(request) -> float:
     """Summed shortest visit length of the targets with room, over the night's length."""
-    night = PlanNight(request, PlanOptions())
+    night = plan_night(request, PlanOptions())
     work = night.shortest_visit_s * night.repeats
     return float(work[night.has_room & ~night.sun_blocked].sum() / (night.t1 - night.t0))
 
@@ -120,7 +120,7 @@ def main() -> None:
     for lat, hours in SITES:
         for load in [int(x) for x in args.loads.split(",")]:
             request = small_night(load, args.seed, lat, hours, args.minutes)
-            night = PlanNight(request, PlanOptions())
+            night = plan_night(request, PlanOptions())
             name = f"{lat:.0f} N | {load}x | {int(night.active.sum())}"
             plans = {}
             for what, limit, share in (("dispatch", 0.0, merit.AIRMASS_SHARE),

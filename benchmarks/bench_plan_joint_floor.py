@@ -27,8 +27,7 @@ import numpy as np
 from bench_plan_quality import LOADS, SITES, night_at_load
 
 from skyplan.planning.bound import excess_floor, joint_excess_floor
-from skyplan.planning.dispatch import PlanOptions, make_plan
-from skyplan.planning.model import PlanNight
+from skyplan.planning.dispatch import PlanOptions, make_plan, plan_night
 
 
 def main() -> None:
@@ -57,7 +56,7 @@ def main() -> None:
                 excess = am / request.best_airmass[tgt] - 1.0
                 pr = request.priority[tgt]
                 counts = {int(q): int(np.sum(pr == q)) for q in np.unique(pr)}
-                night = PlanNight(request, PlanOptions())
+                night = plan_night(request, PlanOptions())
                 for q in sorted(counts, reverse=True):
                     mean = float(excess[pr == q].mean())
                     if mean <= args.cap:

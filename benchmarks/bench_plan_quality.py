@@ -19,6 +19,8 @@ more.  Beside the top
 priority's excess, its certified floor (:func:`bound.excess_floor`, on a ``--floor-step``
 grid): the least mean excess of any plan with at least as many top-priority visits as the
 plan judged, and of any such plan that also places every top-priority target that had room.
+The bounds and floors see the night as the planner does (:func:`dispatch.plan_night`: on a
+night whose top-priority visits cannot all fit, the top priority keeps the airmass slack too).
 Prints a Markdown table (the one in docs/planning.md).
 
 ``--counts``: instead, for each night, the visits at each priority or above of the
@@ -41,8 +43,7 @@ from bench_scheduling import synthetic_night
 
 from skyplan.planning import merit
 from skyplan.planning.bound import count_bound, excess_floor
-from skyplan.planning.dispatch import PlanOptions, make_plan
-from skyplan.planning.model import PlanNight
+from skyplan.planning.dispatch import PlanOptions, make_plan, plan_night
 
 SITES = ((40.0, 9.0), (64.0, 16.0))
 LOADS = (1, 2, 5)
@@ -72,7 +73,7 @@ def count_bounds(request, levels, pr) -> list[float]:
     """For each level p: the most visits of priority >= p of any plan that keeps at least
     the visits ``pr`` (the plan's priorities) has at each higher level
     (:func:`bound.count_bound`)."""
-    night = PlanNight(request, PlanOptions())
+    night = plan_night(request, PlanOptions())
     out = []
     for p in levels:
         floors = {q: int(np.sum(pr == q)) for q in levels if q > p}
@@ -83,7 +84,7 @@ def count_bounds(request, levels, pr) -> list[float]:
 def top_floors(request, top: int, visits: int, could, step_s: float, limit_s: float) -> str:
     """The certified floors of the top priority's mean excess, in %: at least ``visits``
     top-priority visits / and a visit of each target in ``could``."""
-    night = PlanNight(request, PlanOptions())
+    night = plan_night(request, PlanOptions())
     alone = excess_floor(night, top, visits, step_s, time_limit_s=limit_s)
     every = excess_floor(night, top, visits, step_s, must=np.asarray(could, int),
                          time_limit_s=limit_s)

@@ -102,8 +102,7 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
         raise InputError("the time limit must be >= 0 seconds", field="time_limit_s")
     if options.airmass_slack is not None and not 0 <= options.airmass_slack < 100:
         raise InputError("the airmass slack must be a fraction >= 0", field="airmass_slack")
-    night = PlanNight(request, options)
-    _top_within_slack_if_crowded(night)
+    night = plan_night(request, options)
     typical = typical_slew_s(night, _ALLOWANCE_QUANTILE)
     model = build_slot_model(night, _IP_STEP_S, typical)
     greedy = reserve_greedy(model)
@@ -121,20 +120,23 @@ def make_plan(request: PlanRequest, options: PlanOptions | None = None) -> Plan:
     return _finish(night, outcome.visits, outcome.method, outcome)
 
 
-def _top_within_slack_if_crowded(night: PlanNight) -> None:
-    """Give the top priority the airmass slack too when its visits cannot all be placed
-    tonight (:func:`bound.visits_fit`): then some of them are left out whatever the plan,
-    and those taken are taken within the slack of their best airmass, as the lower
-    priorities are, instead of as many as possible anywhere."""
+def plan_night(request: PlanRequest, options: PlanOptions) -> PlanNight:
+    """The night as every method plans it (and as bounds on its plans must see it): the
+    validated inputs, and the airmass slack given to the top priority too when its visits
+    cannot all be placed tonight (:func:`bound.visits_fit`).  Then some of them are left out
+    whatever the plan, and those taken are taken within the slack of their best airmass, as
+    the lower priorities are, instead of as many as possible anywhere."""
+    night = PlanNight(request, options)
     top = night.top_level()
     if night.airmass_slack is None or not top.any():
-        return
+        return night
     from skyplan.planning import bound
 
     if not bound.visits_fit(night, top):
         night.keep_within_slack(top)
         notices.add("the top priority's visits cannot all fit tonight, so they too are made "
                     "only within the airmass slack of their best (--airmass-slack)")
+    return night
 
 
 def _forward(night: PlanNight, model: SlotModel, chosen: np.ndarray) -> list[tuple]:
