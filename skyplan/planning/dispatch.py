@@ -134,8 +134,8 @@ def plan_night(request: PlanRequest, options: PlanOptions) -> PlanNight:
 
     if not bound.visits_fit(night, top):
         night.keep_within_slack(top)
-        notices.add("the top priority's visits cannot all fit tonight, so they too are made "
-                    "only within the airmass slack of their best (--airmass-slack)")
+        notices.add("the top priority cannot all fit tonight, so it keeps the --airmass-slack "
+                    "too")
     return night
 
 
