@@ -63,25 +63,16 @@ SEXAGESIMAL = textwrap.dedent("""
     import sys
     import numpy as np
 
+    sys.path.insert(0, sys.argv[3])
+    from inventedrows import sexagesimal_lines
+
     path, rows = sys.argv[1], int(sys.argv[2])
     rng = np.random.default_rng(20261205)
     with open(path, "w", encoding="utf-8") as handle:
         handle.write("name,ra,dec\\n")
         for start in range(0, rows, 500_000):
             n = min(rows, start + 500_000) - start
-            tenths = rng.integers(0, 864_000, n)  # RA in tenths of a second: below 24h
-            arcsec = rng.integers(-323_640, 323_641, n)  # |Dec| below 90 degrees
-            a = np.abs(arcsec)
-            line = np.char.add("S", np.arange(start, start + n).astype(str))
-            for part in [",", np.char.zfill((tenths // 36_000).astype(str), 2), ":",
-                         np.char.zfill((tenths // 600 % 60).astype(str), 2), ":",
-                         np.char.zfill((tenths // 10 % 60).astype(str), 2), ".",
-                         (tenths % 10).astype(str), ",", np.where(arcsec < 0, "-", "+"),
-                         np.char.zfill((a // 3600).astype(str), 2), ":",
-                         np.char.zfill((a // 60 % 60).astype(str), 2), ":",
-                         np.char.zfill((a % 60).astype(str), 2)]:
-                line = np.char.add(line, part)
-            handle.write("\\n".join(line.tolist()) + "\\n")
+            handle.write("\\n".join(sexagesimal_lines(rng, start, n).tolist()) + "\\n")
 """)
 
 TABLE = textwrap.dedent("""
@@ -106,7 +97,7 @@ TABLE = textwrap.dedent("""
 # --kind: (suffix, writer, extra arguments of the writer)
 KINDS = {
     "decimal": (".csv", WRITER, []),
-    "sexagesimal": (".csv", SEXAGESIMAL, []),
+    "sexagesimal": (".csv", SEXAGESIMAL, [str(Path(__file__).resolve().parent.parent / "tests")]),
     "fits": (".fits", TABLE, ["fits"]),
     "votable": (".vot", TABLE, ["votable"]),
     "ecsv": (".ecsv", TABLE, ["ascii.ecsv"]),

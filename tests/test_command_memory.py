@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from inventedrows import sexagesimal_lines
 from memorypeak import MIB, measure
 
 pytestmark = pytest.mark.skipif(not Path("/proc/self/clear_refs").exists(),
@@ -35,19 +36,7 @@ def _plain(path: Path, rows: int) -> None:
 
 def _sexagesimal(path: Path, rows: int) -> None:
     """name, ra as hours ``05:35:17.3``, dec as degrees ``-05:23:28`` (random, seeded)."""
-    rng = np.random.default_rng(rows)
-    tenths = rng.integers(0, 864_000, rows)  # RA in tenths of a second of time: below 24 h
-    arcsec = rng.integers(-323_640, 323_641, rows)  # |Dec| below 90 degrees
-    a = np.abs(arcsec)
-    line = np.char.add("S", np.arange(rows).astype(str))
-    for part in [",", np.char.zfill((tenths // 36_000).astype(str), 2), ":",
-                 np.char.zfill((tenths // 600 % 60).astype(str), 2), ":",
-                 np.char.zfill((tenths // 10 % 60).astype(str), 2), ".",
-                 (tenths % 10).astype(str), ",", np.where(arcsec < 0, "-", "+"),
-                 np.char.zfill((a // 3600).astype(str), 2), ":",
-                 np.char.zfill((a // 60 % 60).astype(str), 2), ":",
-                 np.char.zfill((a % 60).astype(str), 2)]:
-        line = np.char.add(line, part)
+    line = sexagesimal_lines(np.random.default_rng(rows), 0, rows)
     path.write_text("name,ra,dec\n" + "\n".join(line.tolist()) + "\n")
 
 
