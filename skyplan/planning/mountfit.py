@@ -62,30 +62,25 @@ def follow(night: PlanNight, visits: list[tuple]) -> list[tuple]:
     return _walk(night, sorted(visits, key=lambda v: (v[1], v[0])))[0]
 
 
-REFILL_ROUNDS = 3  # follow, refill the time it freed, follow again: at most this often
-
-
 def settle(night: PlanNight, visits: list[tuple], weight: np.ndarray) -> list[tuple]:
-    """The plan as the mount follows it (:func:`follow`), with the time the walk freed
-    given extra visits (:func:`realise.fill_gaps`) and followed again, while that raises the
-    plan's value (at most :data:`REFILL_ROUNDS` times).  A plan is valued and compared
-    only in this form, so the value and gap reported are those of the plan the user gets;
-    with neither a German mount nor a wrap the plan is returned unchanged."""
+    """The plan as the mount follows it (:func:`follow`), with the time the walk freed given
+    extra visits (:func:`realise.fill_gaps`) and followed again when that raises the plan's
+    value.  A plan is valued and compared only in this form, so the value and gap reported
+    are those of the plan the user gets; with neither a German mount nor a wrap the plan is
+    returned unchanged.  One refill: a second and third found little and took the time the
+    optimiser's later steps use better (1 000 targets, one-turn wrap, two nights: values
+    0.6 % and 2.0 % lower with three, 0.2–0.4 s longer)."""
     if not needs_walk(night):
         return visits
     from skyplan.planning import realise
 
     best = follow(night, visits)
-    value = realise.plan_value(night, best, weight)
-    for _ in range(REFILL_ROUNDS):
-        filled = realise.fill_gaps(night, best, weight)
-        if len(filled) == len(best):
-            break
-        again = follow(night, filled)
-        got = realise.plan_value(night, again, weight)
-        if got <= value + 1e-9:
-            break
-        best, value = again, got
+    filled = realise.fill_gaps(night, best, weight)
+    if len(filled) == len(best):
+        return best
+    again = follow(night, filled)
+    if realise.plan_value(night, again, weight) > realise.plan_value(night, best, weight) + 1e-9:
+        return again
     return best
 
 
