@@ -18,6 +18,10 @@
    plan's value and the top level's summed merit both rise.  The returned plan's gap is
    ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
 
+With a German mount or a cable wrap every plan is walked with the mount's state before it is
+valued or compared (:func:`mountfit.settle`), so the value and gap returned are those of the
+plan the user gets.
+
 Each model's grid step is the night's step times the smallest stride keeping it within its
 variable budget (measured, see docs/planning.md), so the models' memory stays bounded however
 large the catalogue.
