@@ -18,7 +18,7 @@ from test_scheduling import curve_request
 
 from skyplan import notices
 from skyplan.planning import bound
-from skyplan.planning.dispatch import make_plan
+from skyplan.planning.dispatch import make_plan, plan_night
 from skyplan.planning.model import PlanNight, PlanOptions
 
 
@@ -105,9 +105,11 @@ def test_a_crowded_top_priority_keeps_within_the_slack_and_says_so(method: str) 
 
 
 def test_a_top_priority_with_room_has_no_ceiling() -> None:
-    req = two_targets((0.0, 1.0))
-    night = night_of(req)
     notices.take()
-    make_plan(req, PlanOptions(method="dispatch", airmass_slack=0.15))
+    room = plan_night(two_targets((0.0, 1.0)), PlanOptions(airmass_slack=0.15))
     assert not any("cannot all fit" in s for s in notices.take())
-    assert np.all(np.isinf(night.max_airmass[night.top_level()]))
+    assert np.all(np.isinf(room.max_airmass[room.top_level()]))
+    crowded = plan_night(two_targets((0.0, 0.25)), PlanOptions(airmass_slack=0.15))
+    assert any("cannot all fit" in s for s in notices.take())
+    top = crowded.top_level()
+    assert np.allclose(crowded.max_airmass[top], crowded.best_airmass[top] * 1.15)
