@@ -3,6 +3,7 @@
     python benchmarks/bench_plan_counts.py [--minutes 60] [--seed 0] [--time-limit 5] [--step 60]
                                            [--exact-limit 25] [--upper-limit 150]
                                            [--merit-limit 20] [--loads 1,2,5]
+                                           [--slew-step 10] [--slew-limit 100]
 
 Each night is the last ``--minutes`` of an invented night of
 ``bench_scheduling.synthetic_night`` (targets uniform on the sky, windows above 30 deg,
@@ -22,7 +23,9 @@ For each night, the visits at each priority or above of:
   best plan; exact on the grid when its MIP gap is 0;
 * the count bound (:func:`bound.count_bound`) given the ``optimal`` plan's visits at the
   higher levels, on the 2-minute grid (as in ``bench_plan_quality.py``) and on the
-  1-minute grid: an upper bound, rounded down.
+  1-minute grid: an upper bound, rounded down;
+* the same bound charging the slews (``slew_bound.py``, ``--slew-step`` 10 s, the integer
+  program's proven dual bound after ``--slew-limit`` s a level; 0 skips it).
 
 Then the merit of the ``optimal`` plan against the best merit on the grid
 (``exact_merit``, ``--merit-limit``).  Prints two Markdown tables (docs/planning.md).
@@ -38,6 +41,7 @@ from dataclasses import replace
 import numpy as np
 from bench_scheduling import synthetic_night
 from exact_counts import exact_counts, exact_merit
+from slew_bound import slew_count_bound
 
 from skyplan.planning import merit
 from skyplan.planning.bound import count_bound
@@ -115,6 +119,9 @@ def main() -> None:
                         help="the time limit of the stages at priority >= 4, s")
     parser.add_argument("--merit-limit", type=float, default=20.0)
     parser.add_argument("--loads", default="1,2,5", help="the loads, comma-separated")
+    parser.add_argument("--slew-step", type=float, default=10.0)
+    parser.add_argument("--slew-limit", type=float, default=100.0,
+                        help="the bound with slews: time limit a level, s (0: skip it)")
     args = parser.parse_args()
     counts_rows, solve_rows = [], []
     for lat, hours in SITES:
@@ -122,7 +129,7 @@ def main() -> None:
             request = small_night(load, args.seed, lat, hours, args.minutes)
             night = plan_night(request, PlanOptions())
             name = f"{lat:.0f} N | {load}x | {int(night.active.sum())}"
-            plans = {}
+            plans, first_row = {}, len(counts_rows)
             for what, limit, share in (("dispatch", 0.0, merit.AIRMASS_SHARE),
                                        ("optimal", args.time_limit, merit.AIRMASS_SHARE),
                                        ("optimal, counts only", args.time_limit, 0.0)):
@@ -143,6 +150,17 @@ def main() -> None:
                     bounds.append(count_bound(night, p, floors, step, time_limit_s=120.0))
                 row = " | ".join(f"{np.floor(b + 1e-6):.0f}" for b in bounds)
                 counts_rows.append(f"| {name} | bound, {step / 60:.0f}-min grid | {row} |")
+            if args.slew_limit > 0:
+                cells_ = []
+                for p in LEVELS:
+                    floors = {q: int(np.sum(judged == q)) for q in LEVELS if q > p}
+                    got_ = slew_count_bound(night, p, floors, args.slew_step, args.slew_limit,
+                                            integer=True)
+                    mark_ = "" if got_.status == "Optimal" else "+"  # stopped: a bound still
+                    cells_.append(f"{np.floor(got_.bound + 1e-6):.0f}{mark_}"
+                                  if np.isfinite(got_.bound) else "-")  # no LP in the time
+                counts_rows.append(f"| {name} | bound with slews, {args.slew_step:.0f}-s grid | "
+                                   + " | ".join(cells_) + " |")
             stages = ", ".join(f"{s.value:.0f}" + ("" if s.gap <= 1e-9 else f"..{s.bound:.0f}")
                                + f" {s.seconds:.1f} s" for s in got.stages)
             m = exact_merit(night, args.step, args.merit_limit).stages[0]
@@ -153,7 +171,7 @@ def main() -> None:
                 f"| {name} | {got.columns} | {wall:.1f} | {stages} | "
                 f"{value_of(night, plans['optimal'].visits):.2f} | {merit_cell} | "
                 f"{m.seconds:.1f} |")
-            print("\n".join(counts_rows[-6:] + solve_rows[-1:]), file=sys.stderr, flush=True)
+            print("\n".join(counts_rows[first_row:] + solve_rows[-1:]), file=sys.stderr, flush=True)
     print("| site | load | targets | plan | >= 5 | >= 4 | >= 3 | >= 2 | >= 1 |")
     print("|---|---|---|---|---|---|---|---|---|")
     print("\n".join(counts_rows))

@@ -141,7 +141,9 @@ class ExactResult:
 class _Program:
     """The network as a HiGHS model: visit arcs, wait arcs, start variables, rules."""
 
-    def __init__(self, night: PlanNight, arcs: GridArcs) -> None:
+    def __init__(self, night: PlanNight, arcs: GridArcs, spacing_less: int = 0) -> None:
+        """``spacing_less``: the spacing runs are that many grid times shorter (a relaxation's
+        mapping of starts, :mod:`slew_bound`)."""
         from highspy import _core as highs
 
         self.highs, self.arcs, self.night = highs, arcs, night
@@ -199,7 +201,7 @@ class _Program:
         hi.append(night.repeats[tg].astype(float))
         r += tg.size
         # spacing: at most one start of a target in any run shorter than its spacing
-        run = np.ceil((night.spacing_s - _EPS_S) / arcs.step_s).astype(int)  # grid times apart
+        run = np.ceil((night.spacing_s - _EPS_S) / arcs.step_s).astype(int) - spacing_less
         lead = np.flatnonzero((run[self.x_target] > 1) & (night.repeats[self.x_target] > 1))
         if lead.size:
             end = np.searchsorted(self.pairs, self.pairs[lead] + run[self.x_target[lead]])
