@@ -16,10 +16,10 @@
    above ``LOOSEN_ABOVE``, the top level re-timed with the lower levels light, the lower
    levels refilled and everything re-timed and moved again (:mod:`retime`), kept when the
    plan's value and the top level's summed merit both rise.
-5. Unless the plan is within ``GOOD_ENOUGH`` of ``U``: the whole plan re-timed once more in
-   its order with the true weights, no visit left out (:func:`retime.retime_plan`), its gaps
-   refilled; kept if worth more.  The returned plan's gap is ``(U - value) / U``: how far,
-   at most, the plan the user gets is from the best plan.
+5. The whole plan re-timed once more in its order with the true weights, no visit left out
+   (:func:`retime.retime_plan`), its gaps refilled; kept if worth more.  The returned
+   plan's gap is ``(U - value) / U``: how far, at most, the plan the user gets is from the
+   best plan.
 
 With a German mount or a cable wrap every plan is walked with the mount's state before it is
 valued or compared (:func:`mountfit.settle`), so the value and gap returned are those of the
@@ -242,7 +242,7 @@ def optimise(
             break
         best, method, value = raw, "optimal", raw_value
         took = time.monotonic() - began
-    if deadline - time.monotonic() > 0 and not _close(bound, value):
+    if deadline - time.monotonic() > 0:
         raw = retime.retime_plan(night, best, weight, night.active, skip=0)
         raw = mountfit.settle(night, improve(night, realise.fill_gaps(night, raw, weight)),
                               weight)
