@@ -37,6 +37,7 @@ grows with targets² × grid times: nights of tens of targets and an hour or two
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -135,8 +136,6 @@ def slew_count_bound(night: PlanNight, level: int, floors: dict[int, int], step_
     """The most visits at priority ``level`` or above of any plan with at least
     ``floors[q]`` visits at each priority ``q`` (module docstring); LP relaxation, or the
     integer program's proven dual bound when ``integer``."""
-    import time
-
     arcs = slew_arcs(night, step_s)
     if arcs.src.size == 0:
         return SlewBound(0.0, 0, 0.0, "empty")
