@@ -16,8 +16,9 @@
    above ``LOOSEN_ABOVE``, the top level re-timed with the lower levels light, the lower
    levels refilled and everything re-timed and moved again (:mod:`retime`), kept when the
    plan's value and the top level's summed merit both rise.
-5. The whole plan re-timed once more in its order with the true weights, no visit left out
-   (:func:`retime.retime_plan`), its gaps refilled; kept if worth more.  The returned
+5. Without a mount walk: the whole plan re-timed in its order with the true weights, no
+   visit left out (:func:`retime.retime_plan`), its gaps refilled; kept if worth more, and
+   repeated (at most ``LAST_RETIMES`` times) while it gains.  The returned
    plan's gap is ``(U - value) / U``: how far, at most, the plan the user gets is from the
    best plan.
 
@@ -52,6 +53,7 @@ BOUND_MIN_STRIDE = 2  # the LP on the night's own grid is many times slower (mea
 MIP_VARIABLES = 1_500  # the padded model is also solved as an integer program up to this size
 MIP_SHARE = 0.5  # of the time left
 LAGRANGIAN_STEPS = 30
+LAST_RETIMES = 3  # the last whole-plan re-timings (measured: a third still gained on 5x nights)
 # The Lagrangian bound's model: the night's own grid up to this many variables (estimated from
 # the windows' summed length; 5,000 targets on the 38 deg N demo date: 760,000 estimated,
 # 444,000 kept, about 90 MiB while built), a coarser grid dividing the bound's above it.
@@ -242,13 +244,19 @@ def optimise(
             break
         best, method, value = raw, "optimal", raw_value
         took = time.monotonic() - began
-    if deadline - time.monotonic() > 0:
+    # Not with a German mount or a wrap: the walk keeps each exposure and starts its slew
+    # earlier when the mount's slew is longer, and re-timing that again drifts a visit's slew
+    # toward the one before it (a time-critical visit, which this plan does not see).
+    for _ in range(0 if mountfit.needs_walk(night) else LAST_RETIMES):
+        if deadline - time.monotonic() <= 0:
+            break
         raw = retime.retime_plan(night, best, weight, night.active, skip=0)
         raw = mountfit.settle(night, improve(night, realise.fill_gaps(night, raw, weight)),
                               weight)
         raw_value = realise.plan_value(night, raw, weight)
-        if raw_value > value + 1e-9:
-            best, method, value = raw, "optimal", raw_value
+        if raw_value <= value + 1e-9:
+            break
+        best, method, value = raw, "optimal", raw_value
     left = deadline - time.monotonic()
     if bound is not None and left > 0 and lp.slot_price.size and not _close(bound, value):
         k = int(round(g_bound / night.step_s))
