@@ -18,9 +18,8 @@
    plan's value and the top level's summed merit both rise.
 5. Without a mount walk: the whole plan re-timed in its order with the true weights, no
    visit left out (:func:`retime.retime_plan`), its gaps refilled; kept if worth more, and
-   repeated (at most ``LAST_RETIMES`` times) while it gains.  The returned
-   plan's gap is ``(U - value) / U``: how far, at most, the plan the user gets is from the
-   best plan.
+   repeated (at most ``LAST_RETIMES`` times) while it gains.  The returned plan's gap is
+   ``(U - value) / U``: how far, at most, the plan the user gets is from the best plan.
 
 With a German mount or a cable wrap every plan is walked with the mount's state before it is
 valued or compared (:func:`mountfit.settle`), so the value and gap returned are those of the
@@ -251,8 +250,7 @@ def optimise(
         if deadline - time.monotonic() <= 0:
             break
         raw = retime.retime_plan(night, best, weight, night.active, skip=0)
-        raw = mountfit.settle(night, improve(night, realise.fill_gaps(night, raw, weight)),
-                              weight)
+        raw = improve(night, realise.fill_gaps(night, raw, weight))  # no walk needed here
         raw_value = realise.plan_value(night, raw, weight)
         if raw_value <= value + 1e-9:
             break
